@@ -1,0 +1,1042 @@
+#!/usr/bin/env python3
+"""Build the invented *Tidewater Protein Foundry* relay-bundle example structures.
+
+Every coordinate written by this script is INVENTED.  Nothing is taken from the
+PDB or any deposited entry: the cofactors are built from ideal geometry (values
+from ``/work/shared/reference/REFERENCES.md`` section 2), laid out along a gently
+curved "wire", and a made-up protein chain is threaded around them.
+
+Usage::
+
+    python example_structures/build_examples.py             # write next to this script, then check
+    python example_structures/build_examples.py --out DIR   # write into DIR, then check
+    python example_structures/build_examples.py --check     # rebuild in memory, compare with DIR, check
+
+The build is deterministic (fixed seed, no dates, gzip mtime 0): two runs give
+byte-identical files.  The check exits non-zero when a design constraint fails.
+"""
+
+from __future__ import annotations
+
+import argparse
+import gzip
+import hashlib
+import io
+import itertools
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import gemmi
+import numpy as np
+
+SEED = 20240607
+
+# --- Reference geometry (REFERENCES.md section 2; cctbx mcl_sf4_coordination values, FOUND) ---
+FE_SG = {"SF4": 2.268, "FES": 2.305, "F3S": 2.318}  # Fe-S(gamma, Cys) per cluster class
+FE_N_RIESKE = 2.14  # Fe-N(delta1, His) of a Rieske [2Fe-2S]
+FE_N_HEME = 2.00  # axial Fe-NE2(His) of a bis-His heme b (typical value)
+# Core geometry (REFERENCES.md section 2, MEMORY values from synthetic analogues):
+CUBE_FE_S, CUBE_FE_FE = 2.29, 2.75  # [4Fe-4S] Fe-S(mu3) and Fe...Fe
+F3S_FE_S, F3S_FE_FE = 2.29, 2.70  # [3Fe-4S]: the cube with one Fe removed
+RHOMB_FE_S, RHOMB_FE_FE = 2.22, 2.72  # [2Fe-2S] Fe-S(mu2) and Fe...Fe
+SGFE_SGFE = 107.77  # [2Fe-2S] Sgamma-Fe-Sgamma angle (FOUND)
+# Protein geometry (Engh & Huber-like round values).
+B_N_CA, B_CA_C, B_C_O, B_C_N, B_CA_CB, B_CB_SG = 1.46, 1.52, 1.23, 1.33, 1.53, 1.81
+FE_SG_CB = 107.0  # Fe-SG-CB angle (degrees)
+AA3 = {"A": "ALA", "G": "GLY", "L": "LEU", "K": "LYS", "E": "GLU"}
+FREE_PATTERN = "AKLEALKEGLAEKALEGK"  # cyclic residue pattern for non-ligand positions
+SCENARIO = "Tidewater Protein Foundry relay bundle"
+
+Vec = np.ndarray
+
+
+# ----------------------------------------------------------------------------- geometry
+def unit(v: Vec) -> Vec:
+    """Return ``v`` scaled to unit length."""
+    return v / np.linalg.norm(v)
+
+
+def place(a: Vec, b: Vec, c: Vec, bond: float, angle: float, torsion: float) -> Vec:
+    """NeRF: the point d with |cd| = bond, angle(b, c, d) = angle, dihedral(a, b, c, d) = torsion."""
+    ang, tor = np.radians(angle), np.radians(torsion)
+    bc = unit(c - b)
+    n = unit(np.cross(b - a, bc))
+    m = np.cross(n, bc)
+    return c + bond * (-np.cos(ang) * bc + np.sin(ang) * np.cos(tor) * m + np.sin(ang) * np.sin(tor) * n)
+
+
+def angle(a: Vec, b: Vec, c: Vec) -> float:
+    """Angle a-b-c in degrees."""
+    u, v = unit(a - b), unit(c - b)
+    return float(np.degrees(np.arccos(np.clip(u @ v, -1.0, 1.0))))
+
+
+def rotmat(axis: Vec, deg: float) -> np.ndarray:
+    """Rotation matrix (Rodrigues) about ``axis`` by ``deg`` degrees."""
+    x, y, z = unit(np.asarray(axis, float))
+    t = np.radians(deg)
+    k = np.array([[0, -z, y], [z, 0, -x], [-y, x, 0]])
+    return np.eye(3) + np.sin(t) * k + (1 - np.cos(t)) * k @ k
+
+
+def kabsch(src: Vec, dst: Vec) -> tuple[np.ndarray, Vec]:
+    """Rotation R and translation t with ``src @ R.T + t`` ~ ``dst`` (least squares)."""
+    cs, cd = src.mean(0), dst.mean(0)
+    u, _, vt = np.linalg.svd((src - cs).T @ (dst - cd))
+    d = np.sign(np.linalg.det(vt.T @ u.T))
+    r = vt.T @ np.diag([1.0, 1.0, d]) @ u.T
+    return r, cd - cs @ r.T
+
+
+def pair_min(a: Vec, b: Vec) -> float:
+    """Smallest distance between two point sets."""
+    return float(np.sqrt(((a[:, None, :] - b[None, :, :]) ** 2).sum(-1)).min())
+
+
+# ----------------------------------------------------------------------------- cofactors
+@dataclass
+class Cof:
+    """A cofactor: atom names, elements, coordinates (local or world), bonds, redox atoms."""
+
+    code: str
+    cls: str
+    names: list[str]
+    elems: list[str]
+    xyz: np.ndarray
+    bonds: list[tuple[str, str, str, float]]  # (atom, atom, class, nominal length)
+    redox: list[str]
+    lig_dirs: dict[str, list[Vec]] = field(default_factory=dict)
+    seq: int = 0
+
+    def at(self, name: str) -> Vec:
+        """Coordinates of one atom."""
+        return self.xyz[self.names.index(name)]
+
+    def sub(self, names: list[str]) -> np.ndarray:
+        """Coordinates of several atoms."""
+        return self.xyz[[self.names.index(n) for n in names]]
+
+    def moved(self, rot: np.ndarray, origin: Vec) -> Cof:
+        """Copy transformed by ``rot`` then shifted to ``origin``."""
+        dirs = {k: [rot @ d for d in v] for k, v in self.lig_dirs.items()}
+        return Cof(self.code, self.cls, self.names, self.elems, self.xyz @ rot.T + origin,
+                   self.bonds, self.redox, dirs, self.seq)
+
+
+def build_cube(code: str, fe_fe: float, fe_s: float, drop: str = "") -> Cof:
+    """[4Fe-4S] as two interpenetrating tetrahedra (Fe4 and S4); drop one Fe for [3Fe-4S].
+
+    Fe_i = a v_i and S_i = -b v_i, so Fe_i binds the three S_j with j != i (CCD SF4 naming).
+    The Fe tetrahedron edge is Fe...Fe; b follows from |a v_i + b v_j| = Fe-S with v_i.v_j = -1/3.
+    """
+    v = np.array([[1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1]], float) / np.sqrt(3)
+    a = fe_fe * np.sqrt(6) / 4
+    b = (2 * a / 3 + np.sqrt((2 * a / 3) ** 2 - 4 * (a * a - fe_s**2))) / 2
+    names, elems, xyz, dirs = [], [], [], {}
+    for i in range(4):
+        if f"FE{i + 1}" != drop:
+            names.append(f"FE{i + 1}")
+            elems.append("Fe")
+            xyz.append(a * v[i])
+            dirs[f"FE{i + 1}"] = [v[i]]
+    for i in range(4):
+        names.append(f"S{i + 1}")
+        elems.append("S")
+        xyz.append(-b * v[i])
+    cls = "[3Fe-4S]" if drop else "[4Fe-4S]"
+    bonds = [(f, f"S{j + 1}", f"Fe-S core {cls}", fe_s) for f in dirs for j in range(4) if int(f[2]) != j + 1]
+    return Cof(code, cls, names, elems, np.array(xyz), bonds, list(names), dirs)
+
+
+def build_rhomb(cls: str = "[2Fe-2S]") -> Cof:
+    """[2Fe-2S] rhomb: Fe on +/-y, S on +/-x, terminal ligands in the yz planes (S-Fe-S angle 107.77)."""
+    h, w = RHOMB_FE_FE / 2, np.sqrt(RHOMB_FE_S**2 - (RHOMB_FE_FE / 2) ** 2)
+    half = np.radians(SGFE_SGFE / 2)
+    xyz = np.array([[0, h, 0], [0, -h, 0], [-w, 0, 0], [w, 0, 0]], float)
+    dirs = {"FE1": [np.array([0, np.cos(half), s * np.sin(half)]) for s in (1, -1)],
+            "FE2": [np.array([0, -np.cos(half), s * np.sin(half)]) for s in (1, -1)]}
+    names = ["FE1", "FE2", "S1", "S2"]
+    bonds = [(f, s, "Fe-S(mu2) [2Fe-2S]", RHOMB_FE_S) for f in ("FE1", "FE2") for s in ("S1", "S2")]
+    return Cof("FES", cls, names, ["Fe", "Fe", "S", "S"], xyz, bonds, list(names), dirs)
+
+
+class _Mol:
+    """Small helper to grow an organic cofactor atom by atom."""
+
+    def __init__(self) -> None:
+        self.names: list[str] = []
+        self.elems: list[str] = []
+        self.xyz: list[Vec] = []
+        self.bonds: list[tuple[str, str, str, float]] = []
+
+    def add(self, name: str, elem: str, pos: Vec, bonded: tuple[str, ...] = (), cls: str = "") -> None:
+        """Add an atom and its bonds to already present atoms."""
+        self.names.append(name)
+        self.elems.append(elem)
+        self.xyz.append(np.asarray(pos, float))
+        for other in bonded:
+            d = float(np.linalg.norm(self.xyz[-1] - self[other]))
+            self.bonds.append((other, name, cls, round(d, 3)))
+
+    def __getitem__(self, name: str) -> Vec:
+        return self.xyz[self.names.index(name)]
+
+    def cof(self, code: str, cls: str, redox: list[str]) -> Cof:
+        """Freeze into a :class:`Cof`."""
+        return Cof(code, cls, self.names, self.elems, np.array(self.xyz), self.bonds, redox)
+
+
+def _hexagon(cx: float, r: float = 1.40) -> dict[int, Vec]:
+    """Vertices (by angle in degrees) of a pointy-top hexagon centred at (cx, 0, 0)."""
+    return {a: np.array([cx + r * np.cos(np.radians(a)), r * np.sin(np.radians(a)), 0.0])
+            for a in (30, 90, 150, 210, 270, 330)}
+
+
+def build_fmn() -> Cof:
+    """FMN: isoalloxazine from three fused ideal hexagons (1.40 A) plus ribityl phosphate (CCD names)."""
+    m = _Mol()
+    ra, rb, rc = _hexagon(-2.425), _hexagon(0.0), _hexagon(2.425)  # benzenoid, pyrazine, pyrimidine
+    ring = "flavin ring"
+    m.add("C5A", "C", rb[150])
+    m.add("C9A", "C", rb[210], ("C5A",), ring)
+    m.add("N5", "N", rb[90], ("C5A",), ring)
+    m.add("C4A", "C", rb[30], ("N5",), ring)
+    m.add("C10", "C", rb[330], ("C4A",), ring)
+    m.add("N10", "N", rb[270], ("C10", "C9A"), ring)
+    m.add("C4", "C", rc[90], ("C4A",), ring)
+    m.add("N3", "N", rc[30], ("C4",), ring)
+    m.add("C2", "C", rc[330], ("N3",), ring)
+    m.add("N1", "N", rc[270], ("C2", "C10"), ring)
+    m.add("C6", "C", ra[90], ("C5A",), ring)
+    m.add("C7", "C", ra[150], ("C6",), ring)
+    m.add("C8", "C", ra[210], ("C7",), ring)
+    m.add("C9", "C", ra[270], ("C8", "C9A"), ring)
+    out = {n: unit(m[n] - np.array([c, 0, 0])) for n, c in
+           (("C4", 2.425), ("C2", 2.425), ("C7", -2.425), ("C8", -2.425), ("N10", 0.0))}
+    m.add("O4", "O", m["C4"] + 1.23 * out["C4"], ("C4",), "flavin C=O")
+    m.add("O2", "O", m["C2"] + 1.23 * out["C2"], ("C2",), "flavin C=O")
+    m.add("C7M", "C", m["C7"] + 1.50 * out["C7"], ("C7",), "FMN substituent")
+    m.add("C8M", "C", m["C8"] + 1.50 * out["C8"], ("C8",), "FMN substituent")
+    tail = "FMN ribityl phosphate"
+    m.add("C1'", "C", m["N10"] + 1.47 * out["N10"], ("N10",), tail)
+    m.add("C2'", "C", place(m["C9A"], m["N10"], m["C1'"], 1.53, 112, 90), ("C1'",), tail)
+    m.add("C3'", "C", place(m["N10"], m["C1'"], m["C2'"], 1.53, 112, 180), ("C2'",), tail)
+    m.add("C4'", "C", place(m["C1'"], m["C2'"], m["C3'"], 1.53, 112, 180), ("C3'",), tail)
+    m.add("C5'", "C", place(m["C2'"], m["C3'"], m["C4'"], 1.53, 112, 180), ("C4'",), tail)
+    m.add("O2'", "O", place(m["N10"], m["C1'"], m["C2'"], 1.43, 109.5, -60), ("C2'",), tail)
+    m.add("O3'", "O", place(m["C1'"], m["C2'"], m["C3'"], 1.43, 109.5, 60), ("C3'",), tail)
+    m.add("O4'", "O", place(m["C2'"], m["C3'"], m["C4'"], 1.43, 109.5, -60), ("C4'",), tail)
+    m.add("O5'", "O", place(m["C3'"], m["C4'"], m["C5'"], 1.43, 109.5, 180), ("C5'",), tail)
+    m.add("P", "P", place(m["C4'"], m["C5'"], m["O5'"], 1.60, 120, 180), ("O5'",), tail)
+    for name, tor in (("O1P", 60), ("O2P", 180), ("O3P", -60)):
+        m.add(name, "O", place(m["C5'"], m["O5'"], m["P"], 1.50, 109.5, tor), ("P",), tail)
+    ring_atoms = ["N1", "C2", "N3", "C4", "C4A", "N5", "C5A", "C6", "C7", "C8", "C9", "C9A", "N10", "C10"]
+    return m.cof("FMN", "FMN", ring_atoms)
+
+
+def build_uq1() -> Cof:
+    """Ubiquinone-1 (UQ1): ideal benzoquinone ring (x-z plane), C=O 1.23, methoxy, methyl, prenyl tail.
+
+    Ring order puts O4 towards -x (the upstream neighbour) and the tail on the far side.
+    """
+    m = _Mol()
+    deg = {4: 180, 3: 120, 2: 60, 1: 0, 6: 300, 5: 240}
+    rad = {i: np.array([np.cos(np.radians(a)), 0.0, np.sin(np.radians(a))]) for i, a in deg.items()}
+    for i in range(1, 7):
+        bonded = (f"C{i - 1}",) if i > 1 else ()
+        m.add(f"C{i}", "C", 1.40 * rad[i], bonded, "quinone ring")
+    m.bonds.append(("C6", "C1", "quinone ring", 1.40))
+    m.add("O1", "O", m["C1"] + 1.23 * rad[1], ("C1",), "quinone C=O")
+    m.add("O4", "O", m["C4"] + 1.23 * rad[4], ("C4",), "quinone C=O")
+    sub = "UQ1 substituent"
+    m.add("O2", "O", m["C2"] + 1.36 * rad[2], ("C2",), sub)
+    m.add("O3", "O", m["C3"] + 1.36 * rad[3], ("C3",), sub)
+    m.add("CM2", "C", place(m["C3"], m["C2"], m["O2"], 1.42, 117, 90), ("O2",), sub)
+    m.add("CM3", "C", place(m["C2"], m["C3"], m["O3"], 1.42, 117, -90), ("O3",), sub)
+    m.add("CM5", "C", m["C5"] + 1.50 * rad[5], ("C5",), sub)
+    m.add("C7", "C", m["C6"] + 1.51 * rad[6], ("C6",), sub)
+    m.add("C8", "C", place(m["C1"], m["C6"], m["C7"], 1.50, 112, 90), ("C7",), sub)
+    m.add("C9", "C", place(m["C6"], m["C7"], m["C8"], 1.34, 125, 180), ("C8",), sub)
+    m.add("C10", "C", place(m["C7"], m["C8"], m["C9"], 1.50, 122, 0), ("C9",), sub)
+    m.add("C11", "C", place(m["C7"], m["C8"], m["C9"], 1.50, 122, 180), ("C9",), sub)
+    return m.cof("UQ1", "ubiquinone", ["C1", "C2", "C3", "C4", "C5", "C6", "O1", "O4"])
+
+
+def build_heme() -> Cof:
+    """Heme b (HEM, CCD names): ideal porphyrin in the x-z plane, Fe-N 2.00, regular pyrroles.
+
+    Pyrrole A/B/C/D point along 0/90/180/270 degrees; CHB/CHC/CHD/CHA sit at 45/135/225/315.
+    The macrocycle is then turned so that meso CHC faces -x (the upstream neighbour).
+    """
+    m = _Mol()
+    rpen = 1.40 / (2 * np.sin(np.radians(36)))
+    dc = FE_N_HEME + rpen
+    m.add("FE", "Fe", np.zeros(3))
+    subst = {"A": ("CAA", "CMA"), "B": ("CMB", "CAB"), "C": ("CMC", "CAC"), "D": ("CMD", "CAD")}
+    for k, ring in enumerate("ABCD"):
+        t0 = np.radians(90 * k)
+        e = np.array([np.cos(t0), 0.0, np.sin(t0)])
+        t = np.array([-np.sin(t0), 0.0, np.cos(t0)])
+        c = dc * e
+        m.add(f"N{ring}", "N", c - rpen * e, ("FE",), "Fe-N(pyrrole)")
+        p72, p36 = np.radians(72), np.radians(36)
+        m.add(f"C1{ring}", "C", c + rpen * (-np.cos(p72) * e - np.sin(p72) * t), (f"N{ring}",), "porphyrin")
+        m.add(f"C4{ring}", "C", c + rpen * (-np.cos(p72) * e + np.sin(p72) * t), (f"N{ring}",), "porphyrin")
+        m.add(f"C2{ring}", "C", c + rpen * (np.cos(p36) * e - np.sin(p36) * t), (f"C1{ring}",), "porphyrin")
+        m.add(f"C3{ring}", "C", c + rpen * (np.cos(p36) * e + np.sin(p36) * t), (f"C2{ring}", f"C4{ring}"),
+              "porphyrin")
+        for cb, sname in zip((f"C2{ring}", f"C3{ring}"), subst[ring]):
+            m.add(sname, "C", m[cb] + 1.50 * unit(m[cb] - c), (cb,), "heme substituent")
+    # meso carbons: 1.39 A from both flanking alpha carbons, on the diagonal
+    for meso, (r1, r2), ang in (("CHB", ("C4A", "C1B"), 45), ("CHC", ("C4B", "C1C"), 135),
+                                ("CHD", ("C4C", "C1D"), 225), ("CHA", ("C4D", "C1A"), 315)):
+        u = np.array([np.cos(np.radians(ang)), 0.0, np.sin(np.radians(ang))])
+        half = np.linalg.norm(m[r1] - m[r2]) / 2
+        mid = (m[r1] + m[r2]) / 2
+        m.add(meso, "C", mid + np.sqrt(1.39**2 - half**2) * u, (r1, r2), "porphyrin")
+    sub = "heme substituent"
+    for vin, v2, ref in (("CAB", "CBB", "C2B"), ("CAC", "CBC", "C2C")):
+        base = "C3" + vin[-1]
+        m.add(v2, "C", place(m[ref], m[base], m[vin], 1.34, 125, 180), (vin,), sub)
+    for ca, cb, cg, o1, o2, base, ref, tor in (("CAA", "CBA", "CGA", "O1A", "O2A", "C2A", "C1A", 90),
+                                              ("CAD", "CBD", "CGD", "O1D", "O2D", "C3D", "C4D", 90)):
+        m.add(cb, "C", place(m[ref], m[base], m[ca], 1.52, 112, tor), (ca,), sub)
+        m.add(cg, "C", place(m[base], m[ca], m[cb], 1.52, 112, 180), (cb,), sub)
+        m.add(o1, "O", place(m[ca], m[cb], m[cg], 1.25, 117, 0), (cg,), sub)
+        m.add(o2, "O", place(m[ca], m[cb], m[cg], 1.25, 117, 180), (cg,), sub)
+    macro = ["FE", "NA", "NB", "NC", "ND", "CHA", "CHB", "CHC", "CHD"] + [
+        f"C{i}{r}" for r in "ABCD" for i in range(1, 5)]
+    cof = m.cof("HEM", "heme b", macro)
+    cof.xyz = cof.xyz @ rotmat([0, 1, 0], -45).T  # CHC (135 deg in the x-z plane) -> -x
+    cof.lig_dirs = {"FE": [np.array([0, 1.0, 0]), np.array([0, -1.0, 0])]}
+    return cof
+
+
+def template(kind: str) -> Cof:
+    """Local-frame cofactor of a site kind (x = wire direction, redox edge facing -x/+x)."""
+    if kind == "FMN":
+        fmn = build_fmn()
+        return fmn.moved(rotmat([0, 1, 0], 180), np.zeros(3))  # dimethylbenzene edge faces +x
+    if kind == "FES":
+        return build_rhomb()
+    if kind == "RSK":
+        return build_rhomb("Rieske [2Fe-2S]")
+    if kind == "SF4":
+        return build_cube("SF4", CUBE_FE_FE, CUBE_FE_S)
+    if kind == "F3S":
+        return build_cube("F3S", F3S_FE_FE, F3S_FE_S, drop="FE2")
+    if kind == "UQ1":
+        return build_uq1()
+    return build_heme()
+
+
+# ----------------------------------------------------------------------------- layout
+WIRE_RADIUS = 48.0  # radius of the arc the cofactors follow (gently curved, not straight)
+
+
+def wire_frame(s: float) -> tuple[Vec, np.ndarray]:
+    """Point and frame (columns: tangent, inward normal, binormal) of the wire at arc length s."""
+    t = s / WIRE_RADIUS
+    p = np.array([WIRE_RADIUS * np.sin(t), WIRE_RADIUS * (1 - np.cos(t)), 0.0])
+    frame = np.column_stack([[np.cos(t), np.sin(t), 0.0], [-np.sin(t), np.cos(t), 0.0], [0.0, 0.0, 1.0]])
+    return p, frame
+
+
+def edge(a: Cof, b: Cof) -> float:
+    """Edge-to-edge distance: closest pair of redox-active atoms."""
+    return pair_min(a.sub(a.redox), b.sub(b.redox))
+
+
+@dataclass
+class Site:
+    """One cofactor position of a design."""
+
+    kind: str  # FMN FES RSK SF4 F3S UQ1 HEM
+    seq: int  # residue number of the cofactor in chain A
+    edge: float = 0.0  # target edge-to-edge distance to the previous site (0 for the first)
+    s: float | None = None  # arc position; None = solve from ``edge``
+    lift: float = 0.0  # offset along the binormal
+    spin: float | None = None  # rotation about the wire tangent; None = chosen by the ligand search
+    gap_next: float | None = None  # also solve s and lift so the edge to the next site is this value
+
+
+def put(kind: str, s: float, lift: float, spin: float, seq: int) -> Cof:
+    """Place the template of ``kind`` on the wire."""
+    p, frame = wire_frame(s)
+    cof = template(kind).moved(frame @ rotmat([1, 0, 0], spin), p + lift * frame[:, 2])
+    cof.seq = seq
+    return cof
+
+
+def bisect(f, lo: float, hi: float, target: float, n: int = 60) -> float:
+    """Solve f(x) = target for increasing f on [lo, hi]."""
+    for _ in range(n):
+        mid = (lo + hi) / 2
+        lo, hi = (mid, hi) if f(mid) < target else (lo, mid)
+    return (lo + hi) / 2
+
+
+def solve_position(site: Site, spin: float, prev: Cof | None, s_prev: float, nxt: Cof | None) -> tuple[float, float]:
+    """Arc position (and lift) of a site so that its edges match the design targets."""
+    if site.s is not None and site.gap_next is None:
+        return site.s, site.lift
+    if prev is None:
+        return 0.0, site.lift
+
+    def s_for(lift: float) -> float:
+        return bisect(lambda s: edge(prev, put(site.kind, s, lift, spin, 0)), s_prev + 1.0, s_prev + 40.0,
+                      site.edge)
+
+    if site.gap_next is None:
+        return s_for(site.lift), site.lift
+    lift = bisect(lambda z: edge(put(site.kind, s_for(z), z, spin, 0), nxt), 0.0, 25.0, site.gap_next, 40)
+    return s_for(lift), lift
+
+
+# ----------------------------------------------------------------------------- ligand residues
+def ideal_peptide() -> dict[str, Vec]:
+    """Trans peptide unit CA(i), C, O, N(i+1), CA(i+1) in a frame with CA(i) at 0 and CA(i+1) on +x."""
+    ca0, c = np.zeros(3), np.array([B_CA_C, 0.0, 0.0])
+    n1 = c + B_C_N * np.array([-np.cos(np.radians(116.2)), np.sin(np.radians(116.2)), 0.0])
+    ca1 = place(ca0, c, n1, B_N_CA, 121.7, 180.0)
+    o = place(n1, ca0, c, B_C_O, 120.5, 180.0)
+    pts = {"CA0": ca0, "C": c, "O": o, "N": n1, "CA1": ca1}
+    x = unit(ca1)
+    y = unit(n1 - (n1 @ x) * x)
+    rot = np.array([x, y, np.cross(x, y)])
+    return {k: rot @ v for k, v in pts.items()}
+
+
+PEP = ideal_peptide()
+D_CA = float(np.linalg.norm(PEP["CA1"]))  # 3.80 A virtual bond
+D_C_CA = float(np.linalg.norm(PEP["CA1"] - PEP["C"]))  # C(i)...CA(i+1)
+D_N_CA = float(np.linalg.norm(PEP["N"]))  # CA(i)...N(i+1)
+
+MOTIFS = {  # (sequence offset, residue) of each ligand; realistic spacings
+    "SF4": [(0, "CYS"), (3, "CYS"), (6, "CYS"), (10, "CYS")],  # C-x2-C-x2-C-x3-C
+    "F3S": [(0, "CYS"), (6, "CYS"), (10, "CYS")],  # C-x5-C-x3-C (middle Cys of the box absent)
+    "FES": [(0, "CYS"), (5, "CYS"), (8, "CYS"), (38, "CYS")],  # C-x4-C-x2-C-x29-C (plant type)
+    "RSK": [(0, "CYS"), (2, "HIS"), (19, "CYS"), (22, "HIS")],  # Rieske C-x-H-x16-C-x2-H
+    "HEM": [(0, "HIS"), (16, "HIS")],  # bis-His heme, H-x15-H
+}
+
+
+def assignments(kind: str) -> list[list[tuple[str, int]]]:
+    """Possible (metal, ligand direction) of each motif ligand, in motif order."""
+    if kind == "SF4":
+        return [[(f"FE{i}", 0) for i in p] for p in itertools.permutations((1, 2, 3, 4))]
+    if kind == "F3S":
+        return [[(f"FE{i}", 0) for i in p] for p in itertools.permutations((1, 3, 4))]
+    if kind == "HEM":
+        return [[("FE", 0), ("FE", 1)], [("FE", 1), ("FE", 0)]]
+    out = []
+    for m1, m2 in (("FE1", "FE2"), ("FE2", "FE1")):
+        for d1, d2 in itertools.product((0, 1), (0, 1)):
+            if kind == "FES":
+                out.append([(m1, d1), (m1, 1 - d1), (m2, d2), (m2, 1 - d2)])
+            else:  # Rieske: Cys on one Fe, His on the other
+                out.append([(m1, d1), (m2, d2), (m1, 1 - d1), (m2, 1 - d2)])
+    return out
+
+
+@dataclass
+class Lig:
+    """A ligand residue fixed by the cofactor geometry (N, CA, C and side chain)."""
+
+    resname: str
+    atoms: dict[str, Vec]
+    cof: int  # index of the site it binds
+    metal: str
+    lig_atom: str
+    offset: int
+    dist: float
+
+
+def _backbone_from(side: Vec, cb: Vec, ca: Vec, chi: float) -> tuple[Vec, Vec]:
+    """N and C on CA with ideal angles, chi1 = chi, and L chirality."""
+    n = place(side, cb, ca, B_N_CA, 110.5, chi)
+    for off in (-120.0, 120.0):
+        c = place(side, cb, ca, B_CA_C, 110.1, chi + off)
+        if (n - ca) @ np.cross(c - ca, cb - ca) > 0:
+            return n, c
+    raise RuntimeError("no L-chiral backbone")
+
+
+def cys_conformers(cof: Cof, metal: str, dirv: Vec, dist: float) -> list[dict[str, Vec]]:
+    """Cys residues whose SG sits on the outward Fe line at ``dist`` (Fe-SG-CB 107 deg)."""
+    fe = cof.at(metal)
+    sg = fe + dist * dirv
+    ref = next(cof.at(b) for a, b, *_ in cof.bonds if a == metal)
+    out = []
+    for t1 in range(0, 360, 30):
+        cb = place(ref, fe, sg, B_CB_SG, FE_SG_CB, t1)
+        for t2 in (180, -90, 90, -150, 150):
+            ca = place(fe, sg, cb, B_CA_CB, 114.0, t2)
+            for chi in (-60, 180, 60):
+                n, c = _backbone_from(sg, cb, ca, chi)
+                out.append({"N": n, "CA": ca, "C": c, "CB": cb, "SG": sg})
+    return out
+
+
+R5 = 1.37 / (2 * np.sin(np.radians(36)))  # circumradius of the ideal imidazole pentagon
+
+
+def his_conformers(cof: Cof, metal: str, dirv: Vec, dist: float, lig: str) -> list[dict[str, Vec]]:
+    """His residues bound through ``lig`` (ND1 or NE2), the metal on that N's exterior bisector."""
+    ln = cof.at(metal) + dist * dirv
+    centre = ln + R5 * dirv
+    order = ["ND1", "CE1", "NE2", "CD2", "CG"] if lig == "ND1" else ["NE2", "CE1", "ND1", "CG", "CD2"]
+    perp0 = unit(np.cross(dirv, [0.3, 0.5, 0.8]))
+    out = []
+    for psi in range(0, 360, 30):
+        p = rotmat(dirv, psi) @ perp0
+        ring = {nm: centre + R5 * (-np.cos(np.radians(72 * i)) * dirv + np.sin(np.radians(72 * i)) * p)
+                for i, nm in enumerate(order)}
+        cb = ring["CG"] + 1.50 * unit(ring["CG"] - centre)
+        for t2 in (90, -90, 150, -150):
+            ca = place(ring["ND1"], ring["CG"], cb, B_CA_CB, 113.8, t2)
+            for chi in (-60, 180, 60):
+                n, c = _backbone_from(ring["CG"], cb, ca, chi)
+                out.append({"N": n, "CA": ca, "C": c, "CB": cb, **ring})
+    return out
+
+
+def _circle(ca: Vec, other: Vec, along: float, n: int = 8) -> np.ndarray:
+    """Points where a neighbouring CA can sit (3.8 A from ``ca``, ``along`` fixed by ``other``)."""
+    e = unit(other - ca)
+    dist_o = float(np.linalg.norm(other - ca))
+    x = (D_CA**2 + dist_o**2 - along**2) / (2 * dist_o)
+    r = np.sqrt(max(D_CA**2 - x * x, 0.0))
+    u = unit(np.cross(e, [0.2, 0.9, 0.4]))
+    w = np.cross(e, u)
+    t = np.radians(np.arange(n) * 360.0 / n)
+    return ca + x * e + r * (np.cos(t)[:, None] * u + np.sin(t)[:, None] * w)
+
+
+def _flat(d: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """Flat-bottom squared penalty."""
+    return np.where(d < lo, (lo - d) ** 2, np.where(d > hi, (d - hi) ** 2, 0.0))
+
+
+def _closure(k: int, d: np.ndarray) -> np.ndarray:
+    """Cost of closing a k-residue step between the neighbour-CA estimates of two ligands."""
+    if k == 2:
+        return 4 * d**2
+    if k == 3:
+        return 4 * (d - D_CA) ** 2
+    if k == 4:
+        return 4 * _flat(d, 5.4, 7.0)
+    return _flat(d, 4.5, 3.2 * (k - 2))
+
+
+def lig_dist(kind: str, res: str) -> float:
+    """Design metal-ligand distance for a ligand residue of a site kind."""
+    if res == "HIS":
+        return FE_N_RIESKE if kind == "RSK" else FE_N_HEME
+    return FE_SG["FES" if kind == "RSK" else kind]
+
+
+def search_ligands(kind: str, cof: Cof, obstacles: np.ndarray, index: int) -> tuple[float, list[Lig]]:
+    """Choose ligand conformations (and their metals) that can be closed by the motif spacing."""
+    motif = MOTIFS[kind]
+    own = cof.xyz
+    env = np.vstack([obstacles, own]) if len(obstacles) else own
+    pools: dict[tuple[str, int, str], list] = {}
+    best: tuple[float, list[Lig]] = (np.inf, [])
+    for assign in assignments(kind):
+        cands = []
+        for (offset, res), (metal, di) in zip(motif, assign):
+            key = (metal, di, res)
+            if key not in pools:
+                dirv = cof.lig_dirs[metal][di]
+                lig = "SG" if res == "CYS" else ("ND1" if kind == "RSK" else "NE2")
+                dist = lig_dist(kind, res)
+                confs = (cys_conformers(cof, metal, dirv, dist) if res == "CYS"
+                         else his_conformers(cof, metal, dirv, dist, lig))
+                pools[key] = _filter(confs, env, cof.at(metal), lig) + [lig]
+            cands.append(pools[key])
+        if any(len(c) == 1 for c in cands):
+            continue
+        total, choice = _dp_ligands(motif, cands, env)
+        if total < best[0]:
+            ligs = [Lig(res, cands[i][j][0], index, metal, cands[i][-1], off,
+                        lig_dist(kind, res)) for i, ((off, res), (metal, _), j) in
+                    enumerate(zip(motif, assign, choice))]
+            best = (total, ligs)
+    return best
+
+
+def _filter(confs: list[dict[str, Vec]], env: np.ndarray, metal: Vec, lig: str, keep: int = 24) -> list:
+    """Keep the conformers with the most room (backbone >= 3.4 A, side chain >= 3.0 A from others)."""
+    scored = []
+    for conf in confs:
+        margin = np.inf
+        for name, pos in conf.items():
+            if name == lig:
+                continue
+            d = np.sqrt(((env - pos) ** 2).sum(1))
+            d = d[np.sqrt(((env - metal) ** 2).sum(1)) > 0.01] if name not in ("N", "CA", "C") else d
+            thr = 3.4 if name in ("N", "CA", "C") else 3.05
+            margin = min(margin, float(d.min()) - thr)
+        if margin >= 0:
+            nxt, prv = _circle(conf["CA"], conf["C"], D_C_CA), _circle(conf["CA"], conf["N"], D_N_CA)
+            pen = [4 * _flat(np.sqrt(((pts[:, None] - env[None]) ** 2).sum(-1)).min(1), 4.0, 99) for pts in
+                   (nxt, prv)]
+            scored.append((-margin, len(scored), conf, nxt, prv, pen[0], pen[1], margin))
+    scored.sort(key=lambda t: (t[0], t[1]))
+    return [(c, nx, pv, pn, pp, mg) for _, _, c, nx, pv, pn, pp, mg in scored[:keep]]
+
+
+def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray) -> tuple[float, list[int]]:
+    """Viterbi over ligands in sequence order; pair cost = loop closure + clash."""
+    pools = [c[:-1] for c in cands]
+    cost = np.array([-0.2 * min(c[5], 1.0) for c in pools[0]])
+    back = []
+    for i in range(1, len(pools)):
+        a, b = pools[i - 1], pools[i]
+        k = motif[i][0] - motif[i - 1][0]
+        nxt = np.array([c[1] for c in a])
+        prv = np.array([c[2] for c in b])
+        d = np.sqrt(((nxt[:, None, :, None, :] - prv[None, :, None, :, :]) ** 2).sum(-1))
+        tot = _closure(k, d) + np.array([c[3] for c in a])[:, None, :, None] + \
+            np.array([c[4] for c in b])[None, :, None, :]
+        pair = tot.min(axis=(2, 3))
+        xa = np.array([list(c[0].values()) for c in a])
+        xb = np.array([list(c[0].values()) for c in b])
+        close = np.sqrt(((xa[:, None, :, None] - xb[None, :, None, :]) ** 2).sum(-1)).min(axis=(2, 3))
+        pair += 50.0 * (close < 3.2)
+        unary = np.array([-0.2 * min(c[5], 1.0) for c in b])
+        tot2 = cost[:, None] + pair + unary[None, :]
+        back.append(tot2.argmin(0))
+        cost = tot2.min(0)
+    j = int(cost.argmin())
+    total = float(cost[j])
+    choice = [j]
+    for bp in reversed(back):
+        j = int(bp[j])
+        choice.append(j)
+    return total, choice[::-1]
+
+
+def place_sites(sites: list[Site]) -> tuple[list[Cof], list[Lig], list[tuple[float, float, float]]]:
+    """Lay the cofactors along the wire one after another and pick their ligand residues."""
+    cofs: list[Cof] = []
+    ligs: list[Lig] = []
+    poses: list[tuple[float, float, float]] = []
+    obst = np.zeros((0, 3))
+    for k, site in enumerate(sites):
+        prev = cofs[-1] if cofs else None
+        nxt = None
+        if site.gap_next is not None:
+            n = sites[k + 1]
+            nxt = put(n.kind, n.s, n.lift, n.spin, n.seq)
+        spins = [site.spin] if site.spin is not None else [float(a) for a in range(0, 360, 30)]
+        best = None
+        for spin in spins:
+            s, lift = solve_position(site, spin, prev, poses[-1][0] if poses else 0.0, nxt)
+            cof = put(site.kind, s, lift, spin, site.seq)
+            cost, found = (search_ligands(site.kind, cof, obst, k) if site.kind in MOTIFS else (0.0, []))
+            if len(obst) and pair_min(cof.xyz, obst) < 3.5:
+                cost += 100.0
+            if best is None or cost < best[0] - 1e-9:
+                best = (cost, cof, found, (s, lift, spin))
+        if best is None or not np.isfinite(best[0]):
+            raise RuntimeError(f"no ligand set found for site {k} ({site.kind})")
+        _, cof, found, pose = best
+        cofs.append(cof)
+        ligs.extend(found)
+        poses.append(pose)
+        extra = [np.array(list(g.atoms.values())) for g in found]
+        obst = np.vstack([obst, cof.xyz, *extra])
+    return cofs, ligs, poses
+
+
+# ----------------------------------------------------------------------------- protein chain
+def _bezier_points(p: Vec, q: Vec, w: Vec, n: int) -> np.ndarray:
+    """n points, evenly spaced by arc length, on the quadratic Bezier from p to q through w."""
+    if n == 1:
+        return np.array([(p + q) / 2])
+    ctrl = 2 * w - (p + q) / 2
+    t = np.linspace(0, 1, 400)[:, None]
+    curve = (1 - t) ** 2 * p + 2 * t * (1 - t) * ctrl + t**2 * q
+    arc = np.concatenate([[0.0], np.cumsum(np.linalg.norm(np.diff(curve, axis=0), axis=1))])
+    idx = [int(np.searchsorted(arc, a)) for a in np.linspace(0, arc[-1], n)]
+    return curve[np.clip(idx, 0, len(curve) - 1)]
+
+
+def _zigzag(pts: np.ndarray, out: Vec, amp: float = 0.9) -> np.ndarray:
+    """Add alternating sideways offsets (a strand-like Calpha zigzag)."""
+    if len(pts) < 2:
+        return pts
+    res = pts.copy()
+    for i in range(len(pts)):
+        tan = unit(pts[min(i + 1, len(pts) - 1)] - pts[max(i - 1, 0)])
+        side = np.cross(tan, out)
+        side = unit(side) if np.linalg.norm(side) > 1e-6 else unit(np.cross(tan, [0.1, 0.2, 0.9]))
+        res[i] += (amp if i % 2 else -amp) * side
+    return res
+
+
+def _wire_point(x: Vec) -> Vec:
+    """Closest point of the wire arc to x."""
+    s = np.linspace(-20, 120, 1401)
+    pts = np.array([wire_frame(v)[0] for v in s])
+    return pts[int(np.argmin(((pts - x) ** 2).sum(1)))]
+
+
+def _next_ca(lig: Lig) -> Vec:
+    """Centre of the circle on which CA(i+1) of a ligand residue lies."""
+    return _circle(lig.atoms["CA"], lig.atoms["C"], D_C_CA).mean(0)
+
+
+def _prev_ca(lig: Lig) -> Vec:
+    """Centre of the circle on which CA(i-1) of a ligand residue lies."""
+    return _circle(lig.atoms["CA"], lig.atoms["N"], D_N_CA).mean(0)
+
+
+def chain_plan(sites: list[Site], cofs: list[Cof], ligs: list[Lig], tail: int = 7) -> tuple[list, np.ndarray]:
+    """Order residues (ligands at motif offsets, linkers sized to span the gaps) and guess a CA trace."""
+    blocks = []
+    for k, _ in enumerate(sites):
+        mine = [g for g in ligs if g.cof == k]
+        if mine:
+            blocks.append((k, mine))
+    slots: list[Lig | None] = [None] * tail
+    trace: list[Vec] = []
+    entry, exit_ = cofs[0].sub(cofs[0].redox).mean(0), cofs[-1].sub(cofs[-1].redox).mean(0)
+    first = blocks[0][1][0]
+    q = _prev_ca(first)
+    start = entry + 8.0 * wire_frame(0.0)[1][:, 2]
+    trace.extend(_zigzag(np.linspace(start, q, tail), unit(q - entry)))
+    for bi, (k, mine) in enumerate(blocks):
+        centre = cofs[k].sub([n for n, e in zip(cofs[k].names, cofs[k].elems) if e in ("Fe", "S")]).mean(0)
+        length = mine[-1].offset + 1
+        for off in range(length):
+            g = next((x for x in mine if x.offset == off), None)
+            if g is not None:
+                slots.append(g)
+                trace.append(g.atoms["CA"])
+                continue
+            slots.append(None)
+            trace.append(np.zeros(3))
+        # fill the motif loops
+        for a, b in zip(mine, mine[1:]):
+            n_free = b.offset - a.offset - 1
+            p, q = _next_ca(a), _prev_ca(b)
+            mid = (p + q) / 2
+            rad = max(np.linalg.norm(p - centre), np.linalg.norm(q - centre)) + 1.0 + 0.35 * n_free
+            w = centre + rad * unit(mid - centre)
+            pts = _zigzag(_bezier_points(p, q, w, n_free), unit(mid - centre))
+            base = len(slots) - length + a.offset + 1
+            for i, pt in enumerate(pts):
+                trace[base + i] = pt
+        if bi + 1 < len(blocks):
+            a, b = mine[-1], blocks[bi + 1][1][0]
+            p, q = _next_ca(a), _prev_ca(b)
+            mid = (p + q) / 2
+            wp = _wire_point(mid)
+            out = unit(mid - wp) if np.linalg.norm(mid - wp) > 2.0 else np.array([0.0, 0.0, 1.0])
+            w = wp + (np.linalg.norm(mid - wp) + 6.0) * out
+            approx = np.linalg.norm(w - p) + np.linalg.norm(q - w)
+            n_free = max(3, int(np.ceil(approx / 3.1)) + 1)
+            slots.extend([None] * n_free)
+            trace.extend(_zigzag(_bezier_points(p, q, w, n_free), out))
+    last = blocks[-1][1][-1]
+    p = _next_ca(last)
+    end = exit_ + 8.0 * wire_frame(60.0)[1][:, 2]
+    slots.extend([None] * tail)
+    trace.extend(_zigzag(np.linspace(p, end, tail), unit(p - exit_)))
+    return slots, np.array(trace)
+
+
+def _fb(x: np.ndarray, y: np.ndarray, lo: np.ndarray, hi: np.ndarray, w: np.ndarray) -> tuple[float, np.ndarray]:
+    """Flat-bottom restraint energy and its gradient with respect to x (rows are pairs)."""
+    v = x - y
+    d = np.maximum(np.linalg.norm(v, axis=1), 1e-9)
+    viol = np.where(d < lo, d - lo, np.where(d > hi, d - hi, 0.0))
+    return float((w * viol**2).sum()), (2 * w * viol / d)[:, None] * v
+
+
+def relax_trace(x: np.ndarray, slots: list, obst: np.ndarray, obst_thr: np.ndarray, obst_res: np.ndarray,
+                n_iter: int = 6000) -> np.ndarray:
+    """Move the free CA atoms until spacing, virtual angles and clearances are satisfied.
+
+    Restraints: CA-CA 3.80 A; CA(i)-CA(i+2) 5.4-7.0 A (virtual angle ~90-135 deg); CA pairs three or
+    more apart >= 4.8 A; CA to cofactor/ligand atoms >= the per-atom threshold; next to a ligand
+    residue, the CA sits where an ideal trans peptide reaches the fixed N or C.
+    """
+    rng = np.random.default_rng(SEED)
+    n = len(x)
+    free = np.array([s is None for s in slots])
+    i1 = np.arange(n - 1)
+    i2 = np.arange(n - 2)
+    ii, jj = np.triu_indices(n, 3)
+    pi, pp, plo, phi, pw = [], [], [], [], []
+    for r, g in enumerate(slots):
+        if g is None:
+            continue
+        for nb, key, dd in ((r + 1, "C", D_C_CA), (r - 1, "N", D_N_CA)):
+            if 0 <= nb < n and slots[nb] is None:
+                pi.append(nb), pp.append(g.atoms[key]), plo.append(dd), phi.append(dd), pw.append(20.0)
+                for name, pos in g.atoms.items():
+                    if name not in ("N", "CA", "C"):
+                        lo = 3.3 if name == "CB" else 3.6
+                        pi.append(nb), pp.append(pos), plo.append(lo), phi.append(99.0), pw.append(5.0)
+    pi, pp = np.array(pi, int), np.array(pp)
+    plo, phi, pw = np.array(plo), np.array(phi), np.array(pw)
+    res_idx = np.arange(n)
+    near = np.abs(res_idx[:, None] - obst_res[None, :]) <= 1
+    vel = np.zeros_like(x)
+    for it in range(n_iter):
+        g = np.zeros_like(x)
+        _, gr = _fb(x[i1], x[i1 + 1], D_CA, D_CA, np.full(n - 1, 20.0))
+        np.add.at(g, i1, gr)
+        np.add.at(g, i1 + 1, -gr)
+        _, gr = _fb(x[i2], x[i2 + 2], 5.4, 7.0, np.full(n - 2, 5.0))
+        np.add.at(g, i2, gr)
+        np.add.at(g, i2 + 2, -gr)
+        _, gr = _fb(x[ii], x[jj], 4.8, 1e9, np.full(len(ii), 5.0))
+        np.add.at(g, ii, gr)
+        np.add.at(g, jj, -gr)
+        if len(pi):
+            _, gr = _fb(x[pi], pp, plo, phi, pw)
+            np.add.at(g, pi, gr)
+        diff = x[:, None, :] - obst[None, :, :]
+        d = np.maximum(np.linalg.norm(diff, axis=2), 1e-9)
+        viol = np.where((d < obst_thr[None, :]) & ~near, d - obst_thr[None, :], 0.0)
+        g += ((10.0 * viol / d)[:, :, None] * diff).sum(1)
+        g[~free] = 0.0
+        vel = 0.85 * vel - 0.01 * g
+        step = np.linalg.norm(vel, axis=1, keepdims=True)
+        vel = np.where(step > 0.2, vel * 0.2 / np.maximum(step, 1e-9), vel)
+        x = x + vel
+        if it < n_iter // 3:
+            x[free] += rng.normal(0.0, 0.01, size=(int(free.sum()), 3))
+    return x
+
+
+def _clash_pen(pts: np.ndarray, obst: np.ndarray, thr: np.ndarray, mask: np.ndarray) -> np.ndarray:
+    """Sum of squared intrusions of each point (last axis = xyz) into the masked obstacles."""
+    d = np.sqrt(((pts[..., None, :] - obst[mask]) ** 2).sum(-1))
+    return (np.clip(thr[mask] - d, 0.0, None) ** 2).sum(-1)
+
+
+def ideal_cb(n: np.ndarray, ca: np.ndarray, c: np.ndarray) -> np.ndarray:
+    """Ideal L-amino-acid CB (1.53 A) from N, CA, C (broadcasts over leading axes)."""
+    b, cc = ca - n, c - ca
+    a = np.cross(b, cc)
+    cb = -0.58273431 * a + 0.56802827 * b - 0.54067466 * cc
+    return ca + B_CA_CB * cb / np.linalg.norm(cb, axis=-1, keepdims=True)
+
+
+def backbone(ca: np.ndarray, slots: list, obst: np.ndarray, obst_thr: np.ndarray,
+             obst_res: np.ndarray) -> dict[int, dict[str, Vec]]:
+    """Place N, C, O of every residue: rigid ideal peptides, rotations chosen by dynamic programming."""
+    n = len(ca)
+    states = []
+    for p in range(n - 1):
+        a, b = ca[p], ca[p + 1]
+        if slots[p] is not None or slots[p + 1] is not None:
+            if slots[p] is not None:
+                src = np.array([PEP["CA0"], PEP["C"], PEP["CA1"]])
+                dst = np.array([a, slots[p].atoms["C"], b])
+            else:
+                src = np.array([PEP["CA0"], PEP["N"], PEP["CA1"]])
+                dst = np.array([a, slots[p + 1].atoms["N"], b])
+            r, t = kabsch(src, dst)
+            st = np.array([[PEP[k] @ r.T + t for k in ("C", "O", "N")]])
+            if slots[p] is not None:
+                st[0, 0] = slots[p].atoms["C"]
+            if slots[p + 1] is not None:
+                st[0, 2] = slots[p + 1].atoms["N"]
+        else:
+            ex = unit(b - a)
+            ey = unit(np.cross(ex, [0.3, 0.4, 0.87]))
+            shift = a + (np.linalg.norm(b - a) - D_CA) / 2 * ex
+            st = []
+            for ang in range(0, 360, 10):
+                rot = rotmat(ex, ang)
+                frame = np.column_stack([ex, rot @ ey, np.cross(ex, rot @ ey)])
+                st.append([frame @ PEP[k] + shift for k in ("C", "O", "N")])
+            st = np.array(st)
+        states.append(st)
+    unary = []
+    for p, st in enumerate(states):
+        mask = (np.abs(obst_res - p) > 1) & (np.abs(obst_res - p - 1) > 1)
+        unary.append(_clash_pen(st, obst, obst_thr, mask).sum(1) * 10.0)
+    cost = unary[0]
+    back = []
+    for r in range(1, n - 1):
+        nn = states[r - 1][:, 2]
+        cc = states[r][:, 0]
+        if slots[r] is not None:
+            pair = np.zeros((len(nn), len(cc)))
+        else:
+            u = nn[:, None, :] - ca[r]
+            v = cc[None, :, :] - ca[r]
+            cosang = (u * v).sum(-1) / (np.linalg.norm(u, axis=-1) * np.linalg.norm(v, axis=-1))
+            ang = np.degrees(np.arccos(np.clip(cosang, -1, 1)))
+            pair = ((ang - 111.0) / 4.0) ** 2
+            cb = ideal_cb(nn[:, None, :], ca[r], cc[None, :, :])
+            mask = np.abs(obst_res - r) > 1
+            pair += 10.0 * _clash_pen(cb, obst, obst_thr + 0.1, mask)
+            oo = np.linalg.norm(states[r - 1][:, 1][:, None] - states[r][:, 1][None], axis=-1)
+            pair += 10.0 * np.clip(3.0 - oo, 0, None) ** 2
+        tot = cost[:, None] + pair + unary[r][None, :]
+        back.append(tot.argmin(0))
+        cost = tot.min(0)
+    j = int(cost.argmin())
+    pick = [j]
+    for bp in reversed(back):
+        j = int(bp[j])
+        pick.append(j)
+    pick = pick[::-1]
+    atoms: dict[int, dict[str, Vec]] = {r: {"CA": ca[r]} for r in range(n)}
+    for p, st in enumerate(states):
+        c, o, nn = st[pick[p]]
+        atoms[p]["C"], atoms[p]["O"] = c, o
+        atoms[p + 1]["N"] = nn
+    # termini: N of the first residue, C/O/OXT of the last
+    first, last = atoms[0], atoms[n - 1]
+    first["N"] = _best(lambda t: place(atoms[1]["N"], first["C"], first["CA"], B_N_CA, 111.0, t),
+                       (150, 120, 180, -60), obst, obst_thr, obst_res, 0)
+    last["C"] = _best(lambda t: place(atoms[n - 2]["C"], last["N"], last["CA"], B_CA_C, 111.0, t),
+                      (-120, -70, -150, 60), obst, obst_thr, obst_res, n - 1)
+    last["O"] = place(last["N"], last["CA"], last["C"], B_C_O, 120.5, -40.0)
+    last["OXT"] = place(last["N"], last["CA"], last["C"], 1.25, 117.0, 140.0)
+    return atoms
+
+
+def _best(make, torsions: tuple[float, ...], obst: np.ndarray, thr: np.ndarray, res: np.ndarray, r: int) -> Vec:
+    """The first candidate position with the least clash."""
+    mask = np.abs(res - r) > 1
+    cands = [make(t) for t in torsions]
+    pens = [float(_clash_pen(c[None], obst, thr, mask)[0]) for c in cands]
+    return cands[int(np.argmin(pens))]
+
+
+SIDE_BONDS = {  # side-chain bonds (atom, atom, class, nominal length)
+    "ALA": [("CA", "CB", "CA-CB", B_CA_CB)],
+    "LEU": [("CA", "CB", "CA-CB", B_CA_CB), ("CB", "CG", "side-chain C-C", 1.53),
+            ("CG", "CD1", "side-chain C-C", 1.52), ("CG", "CD2", "side-chain C-C", 1.52)],
+    "LYS": [("CA", "CB", "CA-CB", B_CA_CB), ("CB", "CG", "side-chain C-C", 1.52),
+            ("CG", "CD", "side-chain C-C", 1.52), ("CD", "CE", "side-chain C-C", 1.52),
+            ("CE", "NZ", "Lys CE-NZ", 1.49)],
+    "GLU": [("CA", "CB", "CA-CB", B_CA_CB), ("CB", "CG", "side-chain C-C", 1.52),
+            ("CG", "CD", "side-chain C-C", 1.52), ("CD", "OE1", "Glu C-O", 1.25), ("CD", "OE2", "Glu C-O", 1.25)],
+    "CYS": [("CA", "CB", "CA-CB", B_CA_CB), ("CB", "SG", "CB-SG", B_CB_SG)],
+    "HIS": [("CA", "CB", "CA-CB", B_CA_CB), ("CB", "CG", "His CB-CG", 1.50)] + [
+        (a, b, "His ring", 1.37) for a, b in
+        (("CG", "ND1"), ("ND1", "CE1"), ("CE1", "NE2"), ("NE2", "CD2"), ("CD2", "CG"))],
+    "GLY": [],
+}
+ATOM_ORDER = ["N", "CA", "C", "O", "CB", "SG", "CG", "ND1", "CD", "CD1", "CD2", "CE", "CE1", "NE2", "OE1",
+              "OE2", "NZ", "OXT"]
+
+
+def side_chain(name: str, bb: dict[str, Vec], chi1: float, chi2: float) -> dict[str, Vec]:
+    """Side-chain atoms of ALA/LEU/LYS/GLU with the given chi angles (GLY: none)."""
+    if name == "GLY":
+        return {}
+    n, ca, c = bb["N"], bb["CA"], bb["C"]
+    cb = ideal_cb(n, ca, c)
+    out = {"CB": cb}
+    if name == "ALA":
+        return out
+    if name == "LEU":
+        cg = place(n, ca, cb, 1.53, 116.3, chi1)
+        out.update(CG=cg, CD1=place(ca, cb, cg, 1.52, 110.5, chi2), CD2=place(ca, cb, cg, 1.52, 110.5, chi2 + 120))
+    elif name == "LYS":
+        cg = place(n, ca, cb, 1.52, 114.0, chi1)
+        cd = place(ca, cb, cg, 1.52, 111.5, chi2)
+        ce = place(cb, cg, cd, 1.52, 111.5, 180.0)
+        out.update(CG=cg, CD=cd, CE=ce, NZ=place(cg, cd, ce, 1.49, 111.7, 180.0))
+    elif name == "GLU":
+        cg = place(n, ca, cb, 1.52, 114.0, chi1)
+        cd = place(ca, cb, cg, 1.52, 113.0, chi2)
+        out.update(CG=cg, CD=cd, OE1=place(cb, cg, cd, 1.25, 117.0, 0.0),
+                   OE2=place(cb, cg, cd, 1.25, 117.0, 180.0))
+    return out
+
+
+@dataclass
+class Res:
+    """One residue as written to the file."""
+
+    chain: str
+    seq: int
+    name: str
+    het: bool
+    atoms: list[tuple[str, str, Vec]]  # (name, element, xyz)
+
+
+Key = tuple[str, int, str]
+
+
+@dataclass
+class Model:
+    """A complete example: residues, bonds (with classes), cofactor table and design notes."""
+
+    name: str
+    title: str
+    residues: list[Res]
+    bonds: list[tuple[Key, Key, str, float]]
+    cofactors: list[dict]
+    hop_rule: list[tuple[float, float]]
+    notes: dict = field(default_factory=dict)
+
+
+def dress(ca: np.ndarray, slots: list, bb: dict[int, dict[str, Vec]], cof_atoms: np.ndarray,
+          cluster_mask: np.ndarray) -> tuple[list[Res], list[tuple[Key, Key, str, float]]]:
+    """Give every position a residue type and side chain (greedy, clash-checked), return residues + bonds."""
+    n = len(ca)
+    placed = [(pos, -10, "cof", bool(cl)) for pos, cl in zip(cof_atoms, cluster_mask)]
+    for r in range(n):
+        for nm, pos in bb[r].items():
+            placed.append((pos, r, nm, False))
+        if slots[r] is not None:
+            for nm, pos in slots[r].atoms.items():
+                if nm not in ("N", "CA", "C"):
+                    placed.append((pos, r, nm, False))
+    residues, bonds = [], []
+    for r in range(n):
+        seq = r + 1
+        if slots[r] is not None:
+            name, atoms = slots[r].resname, {**bb[r], **slots[r].atoms}
+        else:
+            want = AA3[FREE_PATTERN[r % len(FREE_PATTERN)]]
+            atoms = None
+            for name in (want, "ALA", "GLY"):
+                for chi1, chi2 in itertools.product((-60, 180, 60), (180, 60, -60)):
+                    sc = side_chain(name, bb[r], chi1, chi2)
+                    if _room(sc, r, placed):
+                        atoms = {**bb[r], **sc}
+                        break
+                if atoms is not None:
+                    break
+            for nm, pos in atoms.items():
+                if nm in ("CB", "CG", "CD", "CD1", "CD2", "CE", "NZ", "OE1", "OE2"):
+                    placed.append((pos, r, nm, False))
+        order = sorted(atoms, key=ATOM_ORDER.index)
+        residues.append(Res("A", seq, name, False, [(k, k[0], atoms[k]) for k in order]))
+        for a, b, cls, d0 in [("N", "CA", "N-CA", B_N_CA), ("CA", "C", "CA-C", B_CA_C), ("C", "O", "C=O", B_C_O)] + \
+                SIDE_BONDS[name] + ([("C", "OXT", "C-OXT", 1.25)] if "OXT" in atoms else []):
+            bonds.append((("A", seq, a), ("A", seq, b), cls, d0))
+        if r > 0:
+            bonds.append((("A", seq - 1, "C"), ("A", seq, "N"), "C-N peptide", B_C_N))
+    return residues, bonds
+
+
+def _room(sc: dict[str, Vec], r: int, placed: list) -> bool:
+    """True when new side-chain atoms keep >= 3.0 A (3.4 A from clusters) from other residues."""
+    for nm, pos in sc.items():
+        for other, rr, onm, cl in placed:
+            if rr == r:
+                continue
+            if nm == "CB" and abs(rr - r) == 1 and onm in ("N", "C", "CA", "O"):
+                continue
+            thr = 3.4 if cl else 3.0
+            if float(np.linalg.norm(pos - other)) < thr:
+                return False
+    return True

@@ -1,0 +1,190 @@
+"""Ring perception on one residue: isoalloxazine, quinone ring, porphyrin macrocycle.
+
+Works from coordinates and elements only, so it finds the redox-active atoms
+whatever the atom names are (predicted or hand-built models rename atoms).
+"""
+
+from __future__ import annotations
+
+import networkx as nx
+import numpy as np
+from scipy.spatial import cKDTree
+
+__all__ = ["bond_graph", "small_rings", "isoalloxazine_atoms", "quinone_ring_atoms", "porphyrin_atoms"]
+
+_ORGANIC = frozenset({"C", "N", "O", "S", "P", "SE"})
+_MAX_BOND = 1.9  # Å between heavy organic atoms (C-S 1.82 is the longest we need)
+
+
+def bond_graph(xyz: np.ndarray, element: np.ndarray) -> nx.Graph:
+    """Covalent bond graph of organic heavy atoms (metals left out).
+
+    Parameters
+    ----------
+    xyz : ndarray, shape=(n, 3)
+        Coordinates in Å.
+    element : ndarray of str, shape=(n,)
+        Upper-case element symbols.
+
+    Returns
+    -------
+    networkx.Graph
+        Nodes are row indices of organic atoms; an edge joins atoms closer than
+        a distance that depends on the pair (1.9 Å with S or P, 1.75 Å otherwise).
+    """
+    g = nx.Graph()
+    idx = [i for i, e in enumerate(element) if e in _ORGANIC]
+    g.add_nodes_from(idx)
+    if len(idx) < 2:
+        return g
+    sub = np.asarray(xyz, dtype=float)[idx]
+    pairs = cKDTree(sub).query_pairs(_MAX_BOND, output_type="ndarray")
+    for a, b in pairs:
+        i, j = idx[a], idx[b]
+        d = float(np.linalg.norm(sub[a] - sub[b]))
+        heavy = element[i] in ("S", "P", "SE") or element[j] in ("S", "P", "SE")
+        if d < (1.9 if heavy else 1.75) and d > 0.9:
+            g.add_edge(i, j)
+    return g
+
+
+def small_rings(g: nx.Graph, sizes: tuple[int, ...] = (5, 6)) -> list[frozenset[int]]:
+    """Smallest ring through each bond, kept when its size is in ``sizes``.
+
+    For every edge (u, v) a breadth-first search from u to v that avoids the
+    edge itself finds the smallest ring containing it; every ring of a fused
+    system (naphthalene, isoalloxazine, pyrroles of a porphyrin) is found.
+    """
+    max_size = max(sizes)
+    rings: set[frozenset[int]] = set()
+    adj = {n: set(g.neighbors(n)) for n in g.nodes}
+    for u, v in g.edges:
+        parent = {u: None}
+        frontier = [u]
+        found = None
+        for _depth in range(max_size - 1):
+            nxt = []
+            for a in frontier:
+                for b in adj[a]:
+                    if a == u and b == v:
+                        continue
+                    if b in parent:
+                        continue
+                    parent[b] = a
+                    if b == v:
+                        found = b
+                        break
+                    nxt.append(b)
+                if found is not None:
+                    break
+            if found is not None or not nxt:
+                break
+            frontier = nxt
+        if found is None:
+            continue
+        ring = []
+        node = found
+        while node is not None:
+            ring.append(node)
+            node = parent[node]
+        if len(ring) in sizes:
+            rings.add(frozenset(ring))
+    return sorted(rings, key=lambda r: sorted(r))
+
+
+def _count(element: np.ndarray, ring: frozenset[int], el: str) -> int:
+    return sum(1 for i in ring if element[i] == el)
+
+
+def isoalloxazine_atoms(xyz: np.ndarray, element: np.ndarray) -> list[int] | None:
+    """Atoms of an isoalloxazine (flavin) ring system with its two carbonyl O.
+
+    The ring system is three fused six-membered rings in a row: a carbocycle, a
+    ring with two N (pyrazine) and a ring with two N (pyrimidine) bearing
+    exocyclic oxygens.
+
+    Returns
+    -------
+    list of int or None
+        Sorted row indices (14 ring atoms + carbonyl O), or None when absent.
+    """
+    g = bond_graph(xyz, element)
+    rings = small_rings(g, (6,))
+    for mid in rings:
+        if _count(element, mid, "N") != 2:
+            continue
+        fused = [r for r in rings if r is not mid and len(r & mid) == 2]
+        benzo = [r for r in fused if _count(element, r, "N") == 0]
+        pyrim = [r for r in fused if _count(element, r, "N") == 2]
+        for a in benzo:
+            for c in pyrim:
+                if a & c:
+                    continue
+                system = set(a | mid | c)
+                oxy = {
+                    nb
+                    for i in c
+                    for nb in g.neighbors(i)
+                    if element[nb] == "O" and nb not in system and g.degree(nb) == 1
+                }
+                if len(oxy) >= 1:
+                    return sorted(system | oxy)
+    return None
+
+
+def quinone_ring_atoms(xyz: np.ndarray, element: np.ndarray) -> list[int] | None:
+    """Atoms of a quinone/quinol ring: the six ring carbons and their terminal O.
+
+    Terminal O means an oxygen bonded to nothing but the ring carbon (carbonyl or
+    hydroxyl); methoxy oxygens are left out.
+
+    Returns
+    -------
+    list of int or None
+        Sorted row indices, or None when no six-carbon ring carries two such O.
+    """
+    g = bond_graph(xyz, element)
+    best: list[int] | None = None
+    for ring in small_rings(g, (6,)):
+        if _count(element, ring, "C") != 6:
+            continue
+        oxy = {
+            nb
+            for i in ring
+            for nb in g.neighbors(i)
+            if element[nb] == "O" and nb not in ring and g.degree(nb) == 1
+        }
+        if len(oxy) >= 2 and (best is None or len(oxy) + 6 > len(best)):
+            best = sorted(set(ring) | oxy)
+    return best
+
+
+def porphyrin_atoms(xyz: np.ndarray, element: np.ndarray, metal: int) -> list[int] | None:
+    """Atoms of the porphyrin macrocycle around a metal, with the metal.
+
+    The macrocycle is the four five-membered rings whose N binds the metal plus
+    the meso carbons that bridge them (24 atoms for a porphyrin).
+
+    Returns
+    -------
+    list of int or None
+        Sorted row indices including ``metal``, or None with fewer than 4 pyrroles.
+    """
+    xyz = np.asarray(xyz, dtype=float)
+    g = bond_graph(xyz, element)
+    pyrroles = []
+    for ring in small_rings(g, (5,)):
+        ns = [i for i in ring if element[i] == "N"]
+        if len(ns) == 1 and np.linalg.norm(xyz[ns[0]] - xyz[metal]) < 2.6:
+            pyrroles.append(ring)
+    if len(pyrroles) < 4:
+        return None
+    ring_atoms = set().union(*pyrroles)
+    meso = set()
+    for i in g.nodes:
+        if i in ring_atoms or element[i] != "C":
+            continue
+        touched = {k for k, r in enumerate(pyrroles) if any(nb in r for nb in g.neighbors(i))}
+        if len(touched) >= 2:
+            meso.add(i)
+    return sorted(ring_atoms | meso | {metal})

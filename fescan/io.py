@@ -1,0 +1,724 @@
+"""Read one structure file (PDB, mmCIF or mmJSON, optionally gzipped) into gemmi.
+
+:func:`read_structure` is the only way fescan opens coordinate files. It returns a
+:class:`LoadedStructure`: the gemmi structure reduced to one model, with the
+alternative-location and hydrogen policies applied, plus a :class:`StructureInfo`
+summary of the entry.
+
+Format and compression are told from the content, never from the file name:
+gzip by its magic bytes (``1f 8b``), mmCIF by a leading ``data_`` (after blank
+lines and ``#`` comments), mmJSON by a leading ``{"data_``, PDB by ATOM, HETATM,
+HEADER, CRYST1 or MODEL records. A file named ``.gz`` that is not gzip data is
+read as plain text.
+
+Alternative locations (``altloc``)
+----------------------------------
+``"occupancy"`` (default)
+    Per residue, keep the alternative location whose atoms have the highest
+    summed occupancy; on a tie (within 1e-6) keep the label that comes first
+    alphabetically. Atoms without an altloc label are always kept. The sums are
+    taken after hydrogens are removed (unless they are kept).
+``"first"``
+    Per residue, keep the first alternative location met in the file (what
+    gemmi's ``remove_alternative_conformations`` keeps).
+``"all"``
+    Keep every atom of every alternative location.
+
+Kept atoms keep their altloc label, so one can tell which conformer was chosen;
+after ``"occupancy"`` or ``"first"`` each residue holds at most one label.
+Adjacent residues that share a sequence number in one chain (microheterogeneity,
+e.g. SER altloc A / THR altloc B) are variants of one residue: only one is kept,
+the one with the highest summed altloc occupancy (``"occupancy"``) or the first.
+
+Hydrogen (H) and deuterium (D) atoms are removed unless ``keep_hydrogens=True``;
+residues left without atoms are removed with them.
+
+Bad input always raises a :class:`~fescan.errors.FescanError` subclass whose
+message starts with the path. gemmi accepts several kinds of damage silently
+(an empty file gives one empty model, ``abc.de`` or a blank coordinate field in a
+PDB file reads as 0.0, ``nan`` reads as NaN, an mmCIF ``?`` coordinate reads as
+NaN), so this module checks for them itself:
+
+- the ATOM/HETATM coordinate columns 31-54 of PDB text are screened by one regular
+  expression over the whole text; only the lines it flags are parsed in Python;
+- non-finite coordinates of every model are caught by gemmi's centre of mass,
+  which is NaN or infinite as soon as one coordinate is; the offending atom is
+  then looked up to name it in the message.
+"""
+
+from __future__ import annotations
+
+import gzip
+import logging
+import math
+import os
+import re
+import zlib
+from dataclasses import asdict, dataclass
+from pathlib import Path
+from typing import Any
+
+import gemmi
+
+from fescan.errors import (
+    ConfigError,
+    CoordinateError,
+    EmptyStructureError,
+    StructureFileError,
+    StructureNotFound,
+)
+
+__all__ = [
+    "ALTLOC_POLICIES",
+    "FORMATS",
+    "LoadedStructure",
+    "StructureInfo",
+    "detect_format",
+    "read_structure",
+]
+
+logger = logging.getLogger(__name__)
+
+#: Accepted values of the ``altloc`` argument of :func:`read_structure`.
+ALTLOC_POLICIES: tuple[str, ...] = ("occupancy", "first", "all")
+
+#: File formats :func:`detect_format` can report (besides ``"unknown"``).
+FORMATS: tuple[str, ...] = ("pdb", "mmcif", "mmjson")
+
+_GZIP_MAGIC = b"\x1f\x8b"
+_UTF8_BOM = b"\xef\xbb\xbf"
+_HEAD = 65536  # bytes looked at to tell text from binary data
+# Bytes that may appear in a text file; anything else (NUL, most C0 controls) means binary.
+_TEXT_BYTES = bytes(range(32, 256)) + b"\t\n\r\f\v\x1a"
+
+_BLANK = re.compile(rb"\s*\Z")
+_CIF_START = re.compile(rb"(?:\s|#[^\n]*)*data_", re.IGNORECASE)
+_JSON_START = re.compile(rb'\s*\{\s*"data_')
+_PDB_RECORD = re.compile(rb"^(?:ATOM|HETA|HEADER|CRYST1|MODEL)", re.MULTILINE)
+_PDB_ATOM_START = re.compile(rb"ATOM|HETA", re.IGNORECASE)
+# An ATOM/HETATM line (gemmi looks at the first four letters, in any case) whose
+# columns 31-54 are not three 8-column fields made of blanks, digits, '.', '+', '-'
+# and ending in a digit. This is a coarse, fast screen: each line it flags is then
+# checked exactly by _coordinate_problem(), and only a real problem raises.
+_SUSPECT_PDB_LINE = re.compile(
+    rb"\n(?:ATOM|HETA|atom|heta).{26}"
+    rb"(?![ \d.+\-]{7}\d[ \d.+\-]{7}\d[ \d.+\-]{7}\d)"
+)
+_NUMBER = re.compile(rb"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
+# gemmi stops reading PDB text at an END record ("END" not followed by a letter or digit).
+_PDB_END = re.compile(rb"(?:\A|\n)END(?![A-Za-z0-9])", re.IGNORECASE)
+_GEMMI_LOCATION = re.compile(r"^\S*?:(\d+):\S*\s+")
+_PDB_ID_STEM = re.compile(r"(?:pdb)?([0-9][A-Za-z0-9]{3})", re.IGNORECASE)
+_WITH_ALTLOC = gemmi.Selection(":!")  # atoms with one (gemmi: "!" negates the list)
+_MISSING_IDS = {"", "?", ".", "XXXX"}
+_TIE = 1e-6
+_CARTN = ("_atom_site.Cartn_x", "_atom_site.Cartn_y", "_atom_site.Cartn_z")
+
+
+@dataclass(frozen=True, slots=True)
+class StructureInfo:
+    """Summary of a structure file, as read.
+
+    Attributes
+    ----------
+    entry_id : str
+        PDB ID from the header (``HEADER`` / ``_entry.id``); the file name stem
+        when the header has none or the placeholder ``XXXX``.
+    title : str or None
+        Title of the entry (``TITLE`` / ``_struct.title``).
+    method : str or None
+        Experimental method as written, e.g. ``"X-RAY DIFFRACTION"``,
+        ``"ELECTRON MICROSCOPY"``, ``"SOLUTION NMR"``.
+    resolution : float or None
+        Resolution in Å, ``None`` when the file gives none.
+    n_models : int
+        Number of models in the file (before one is chosen).
+    file_format : str
+        ``"pdb"``, ``"mmcif"`` or ``"mmjson"`` (told from the content).
+    compressed : bool
+        Whether the file was gzip data.
+    n_atoms : int
+        Atoms of the chosen model after the altloc and hydrogen policies.
+    altloc_policy : str
+        The altloc policy applied (one of :data:`ALTLOC_POLICIES`).
+    cell : tuple of float or None
+        Unit cell ``(a, b, c, alpha, beta, gamma)`` in Å and degrees; ``None``
+        when the file has no crystal cell (NMR, EM: 1 Å cubic placeholder).
+    spacegroup : str or None
+        Hermann-Mauguin space group symbol; ``None`` without a crystal cell.
+    """
+
+    entry_id: str
+    title: str | None
+    method: str | None
+    resolution: float | None
+    n_models: int
+    file_format: str
+    compressed: bool
+    n_atoms: int
+    altloc_policy: str
+    cell: tuple[float, float, float, float, float, float] | None
+    spacegroup: str | None
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return the fields as a plain dict (``cell`` as a list), ready for JSON.
+
+        Returns
+        -------
+        dict
+            Field name to value.
+        """
+        out = asdict(self)
+        if self.cell is not None:
+            out["cell"] = list(self.cell)
+        return out
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class LoadedStructure:
+    """A structure file read by :func:`read_structure`.
+
+    Attributes
+    ----------
+    path : str
+        The path as given.
+    structure : gemmi.Structure
+        The structure, holding only the chosen model.
+    model : gemmi.Model
+        The chosen model (``structure[0]``). It is a view into ``structure``:
+        adding or removing models of ``structure`` invalidates it.
+    model_number : int
+        Number of the chosen model as written in the file (its 1-based index
+        when the file's model numbers are missing, repeated or not positive).
+    info : StructureInfo
+        Summary of the entry.
+    """
+
+    path: str
+    structure: gemmi.Structure
+    model: gemmi.Model
+    model_number: int
+    info: StructureInfo
+
+
+def detect_format(data: str | bytes) -> str:
+    """Tell the format of uncompressed structure text from its content.
+
+    Parameters
+    ----------
+    data : str or bytes
+        Content of the file, already decompressed.
+
+    Returns
+    -------
+    str
+        ``"mmcif"`` when the text starts with ``data_`` (after blank lines and
+        ``#`` comments), ``"mmjson"`` when it starts with ``{"data_``, ``"pdb"``
+        when a line starts with ATOM, HETATM, HEADER, CRYST1 or MODEL, and
+        ``"unknown"`` otherwise.
+
+    Examples
+    --------
+    >>> detect_format("# comment\\ndata_1ABC\\n_entry.id 1ABC\\n")
+    'mmcif'
+    >>> detect_format(b"HEADER    OXIDOREDUCTASE\\nEND\\n")
+    'pdb'
+    >>> detect_format("hello")
+    'unknown'
+    """
+    raw = data.encode("utf-8", "replace") if isinstance(data, str) else bytes(data)
+    if raw.startswith(_UTF8_BOM):
+        raw = raw[len(_UTF8_BOM) :]
+    if _CIF_START.match(raw):
+        return "mmcif"
+    if _JSON_START.match(raw):
+        return "mmjson"
+    if _PDB_RECORD.search(raw):
+        return "pdb"
+    return "unknown"
+
+
+def read_structure(
+    path: str | os.PathLike[str],
+    *,
+    model: int = 1,
+    altloc: str = "occupancy",
+    keep_hydrogens: bool = False,
+) -> LoadedStructure:
+    """Read a PDB, mmCIF or mmJSON file (plain or gzipped) and keep one model.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The structure file. Format and compression are told from the content.
+    model : int, optional
+        Number of the model to keep, as numbered in the file (MODEL records,
+        ``pdbx_PDB_model_num``); 1 by default. A file with a single model gives
+        it for ``model=1`` whatever its number.
+    altloc : {"occupancy", "first", "all"}, optional
+        Alternative-location policy (see the module docstring).
+    keep_hydrogens : bool, optional
+        Keep H and D atoms (removed by default).
+
+    Returns
+    -------
+    LoadedStructure
+        The structure reduced to the chosen model, and its summary.
+
+    Raises
+    ------
+    StructureNotFound
+        The path does not exist or is a directory.
+    EmptyStructureError
+        The file is empty or whitespace only, holds no atoms, or the chosen
+        model has none (after hydrogen removal).
+    CoordinateError
+        A coordinate is blank, not a number, or not finite (NaN, inf).
+    StructureFileError
+        The file cannot be read, is not a PDB/mmCIF/mmJSON file, is damaged
+        (bad gzip data, a truncated mmCIF loop, ...) or lacks the chosen model.
+    ConfigError
+        ``model`` or ``altloc`` is not a valid option.
+
+    Examples
+    --------
+    >>> loaded = read_structure("1FDN.pdb")  # doctest: +SKIP
+    >>> loaded.info.resolution, loaded.info.method  # doctest: +SKIP
+    (1.84, 'X-RAY DIFFRACTION')
+    """
+    name = os.fspath(path)
+    if isinstance(model, bool) or not isinstance(model, int) or model < 1:
+        raise ConfigError(f"model must be a positive integer, not {model!r}")
+    if altloc not in ALTLOC_POLICIES:
+        raise ConfigError(f"altloc must be one of {', '.join(ALTLOC_POLICIES)}, not {altloc!r}")
+
+    data, compressed = _read_bytes(name)
+    file_format = _check_text(name, data)
+    st, block = _parse(name, data, file_format)
+    del data
+
+    n_models = len(st)
+    numbers = _model_numbers(st)
+    counts = [m.count_atom_sites() for m in st]
+    if n_models == 0:
+        raise EmptyStructureError(f"{name}: no atoms (the file has 0 models)")
+    if not any(counts):
+        raise EmptyStructureError(f"{name}: no atoms in any of its {n_models} model(s)")
+    for index, m in enumerate(st):
+        if counts[index]:
+            _check_finite(name, m, numbers[index], block)
+
+    index = _choose_model(name, numbers, counts, model)
+    for i in range(n_models - 1, -1, -1):
+        if i != index:
+            del st[i]
+    chosen = st[0]
+
+    if not keep_hydrogens and chosen.has_hydrogen():
+        chosen.remove_hydrogens()
+        _remove_empty_residues(chosen)
+        if chosen.count_atom_sites() == 0:
+            raise EmptyStructureError(
+                f"{name}: model {numbers[index]} has only hydrogen atoms"
+                " (pass keep_hydrogens=True to keep them)"
+            )
+    _apply_altloc_policy(chosen, altloc)
+
+    entry_id = _entry_id(st, name)
+    st.name = entry_id
+    info = StructureInfo(
+        entry_id=entry_id,
+        title=_info_value(st, "_struct.title"),
+        method=_info_value(st, "_exptl.method"),
+        resolution=_resolution(st),
+        n_models=n_models,
+        file_format=file_format,
+        compressed=compressed,
+        n_atoms=chosen.count_atom_sites(),
+        altloc_policy=altloc,
+        cell=_cell(st),
+        spacegroup=(st.spacegroup_hm or None) if st.cell.is_crystal() else None,
+    )
+    logger.debug(
+        "%s: %s%s, model %d of %d, %d atoms",
+        name,
+        file_format,
+        " (gzip)" if compressed else "",
+        numbers[index],
+        n_models,
+        info.n_atoms,
+    )
+    return LoadedStructure(
+        path=name, structure=st, model=chosen, model_number=numbers[index], info=info
+    )
+
+
+# --- reading and recognising the bytes -------------------------------------------------
+
+
+def _read_bytes(name: str) -> tuple[bytes, bool]:
+    """Return the (decompressed) content of the file and whether it was gzip."""
+    p = Path(name)
+    if p.is_dir():
+        raise StructureNotFound(f"{name}: is a directory, not a structure file")
+    if not p.exists():
+        raise StructureNotFound(f"{name}: no such file")
+    if not p.is_file():
+        raise StructureNotFound(f"{name}: not a regular file")
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise StructureFileError(f"{name}: cannot be read ({exc.strerror or exc})") from exc
+    if not raw.startswith(_GZIP_MAGIC):
+        return raw, False
+    try:
+        return gzip.decompress(raw), True
+    except (OSError, EOFError, zlib.error) as exc:
+        raise StructureFileError(f"{name}: damaged gzip data ({exc})") from exc
+
+
+def _check_text(name: str, data: bytes) -> str:
+    """Check the content is non-empty structure text; return its format."""
+    if _BLANK.match(data):
+        what = "0 bytes" if not data else "whitespace only"
+        raise EmptyStructureError(f"{name}: empty file ({what})")
+    if data[:_HEAD].translate(None, _TEXT_BYTES):
+        raise StructureFileError(f"{name}: not a PDB or mmCIF file (binary data)")
+    file_format = detect_format(data)
+    if file_format == "unknown":
+        raise StructureFileError(
+            f"{name}: not a PDB or mmCIF file (no data_ block and no ATOM, HETATM,"
+            " HEADER, CRYST1 or MODEL records)"
+        )
+    return file_format
+
+
+def _parse(
+    name: str, data: bytes, file_format: str
+) -> tuple[gemmi.Structure, gemmi.cif.Block | None]:
+    """Parse with gemmi; return the structure and, for mmCIF/mmJSON, the block."""
+    if data.startswith(_UTF8_BOM):
+        data = data[len(_UTF8_BOM) :]
+    if file_format == "pdb":
+        _check_pdb_coordinates(name, data)
+        try:
+            st = gemmi.read_pdb_string(data)
+        except Exception as exc:  # gemmi raises RuntimeError/ValueError with its own text
+            raise StructureFileError(f"{name}: malformed PDB file ({_gemmi_text(exc)})") from exc
+        block = None
+    else:
+        label = "mmCIF" if file_format == "mmcif" else "mmJSON"
+        try:
+            if file_format == "mmcif":
+                doc = gemmi.cif.read_string(data)
+            else:
+                doc = gemmi.cif.read_mmjson_string(data)
+            block = _atom_block(doc)
+        except Exception as exc:
+            text = _gemmi_text(exc)
+            hint = " (truncated or damaged file?)" if "number of values" in text else ""
+            raise StructureFileError(f"{name}: malformed {label} file ({text}){hint}") from exc
+        sizes = {tag: len(block.find_values(tag)) for tag in _CARTN}
+        if any(sizes.values()) and not all(sizes.values()):
+            missing = ", ".join(tag for tag, size in sizes.items() if not size)
+            raise StructureFileError(f"{name}: malformed {label} file (no {missing} values)")
+        try:
+            st = gemmi.make_structure_from_block(block)
+        except Exception as exc:
+            raise StructureFileError(
+                f"{name}: malformed {label} file ({_gemmi_text(exc)})"
+            ) from exc
+    st.merge_chain_parts()  # as gemmi.read_structure does
+    return st, block
+
+
+def _gemmi_text(exc: BaseException) -> str:
+    """gemmi's error text on one line, with its 'source:line:col' prefix made plain."""
+    text = " ".join(str(exc).split()) or type(exc).__name__
+    m = _GEMMI_LOCATION.match(text)
+    if m:
+        text = f"line {m.group(1)}: {text[m.end() :]}"
+    return text[:300]
+
+
+def _atom_block(doc: gemmi.cif.Document) -> gemmi.cif.Block:
+    """The first data block with atom_site coordinates (or the first block)."""
+    if len(doc) == 0:
+        raise ValueError("no data block")
+    for block in doc:
+        if len(block.find_values(_CARTN[0])):
+            return block
+    return doc[0]
+
+
+# --- coordinate checks ------------------------------------------------------------------
+
+
+def _check_pdb_coordinates(name: str, data: bytes) -> None:
+    """Raise CoordinateError for the first ATOM/HETATM line with bad coordinates."""
+    if _PDB_ATOM_START.match(data):  # the first line has no newline before it
+        _check_pdb_line(name, data, 0)
+    search = _SUSPECT_PDB_LINE.search
+    match = search(data)
+    while match is not None:
+        end = _check_pdb_line(name, data, match.start() + 1)
+        match = search(data, end)
+
+
+def _check_pdb_line(name: str, data: bytes, start: int) -> int:
+    """Check the line starting at ``start``; return the offset of its newline."""
+    end = data.find(b"\n", start)
+    if end < 0:
+        end = len(data)
+    line = data[start:end]
+    problem = _coordinate_problem(line)
+    if problem is not None and not _PDB_END.search(data, 0, start):  # gemmi stops at END
+        lineno = data.count(b"\n", 0, start) + 1
+        shown = line.rstrip().decode("ascii", "replace")[:80]
+        raise CoordinateError(f"{name}: line {lineno}: {problem}: {shown!r}")
+    return end
+
+
+def _coordinate_problem(line: bytes) -> str | None:
+    """Describe what is wrong with the coordinates of one ATOM/HETATM line, or None."""
+    if len(line.rstrip(b"\r")) < 54:
+        return "record too short to hold coordinates (columns 31-54)"
+    for axis, first in (("x", 30), ("y", 38), ("z", 46)):
+        field = line[first : first + 8].strip()
+        columns = f"columns {first + 1}-{first + 8}"
+        if not field:
+            return f"{axis} coordinate is blank ({columns})"
+        text = field.decode("ascii", "replace")
+        try:
+            value = float(field)
+        except ValueError:
+            value = None
+        if value is not None and not math.isfinite(value):
+            return f"{axis} coordinate {text!r} is not finite ({columns})"
+        if value is None or not _NUMBER.fullmatch(field):
+            return f"{axis} coordinate {text!r} is not a number ({columns})"
+    return None
+
+
+def _check_finite(name: str, m: gemmi.Model, number: int, block: gemmi.cif.Block | None) -> None:
+    """Raise CoordinateError when a coordinate of the model is NaN or infinite.
+
+    gemmi's centre of mass is computed in C++ and becomes NaN/inf as soon as one
+    coordinate is (0 * NaN is NaN, so even massless or unoccupied atoms count);
+    only then are the atoms looked at one by one, to name the culprit.
+    """
+    com = m.calculate_center_of_mass()
+    if math.isfinite(com.x) and math.isfinite(com.y) and math.isfinite(com.z):
+        return
+    if block is not None:
+        try:
+            problem = _cif_coordinate_problem(block, number)
+        except (RuntimeError, ValueError, IndexError):  # unusual layout: name the atom instead
+            problem = None
+        if problem is not None:
+            raise CoordinateError(f"{name}: {problem}")
+    for ch in m:
+        for res in ch:
+            for atom in res:
+                p = atom.pos
+                if not (math.isfinite(p.x) and math.isfinite(p.y) and math.isfinite(p.z)):
+                    raise CoordinateError(
+                        f"{name}: model {number}: atom {atom.name} of {res.name}"
+                        f" {ch.name}/{res.seqid} has a non-finite coordinate"
+                        f" ({p.x}, {p.y}, {p.z})"
+                    )
+    # Finite coordinates, zero total mass x occupancy: nothing wrong.
+
+
+def _cif_coordinate_problem(block: gemmi.cif.Block, number: int) -> str | None:
+    """Describe the first missing / non-numeric / non-finite _atom_site.Cartn value."""
+    tags = ["Cartn_x", "Cartn_y", "Cartn_z", "?id", "?pdbx_PDB_model_num"]
+    table = block.find("_atom_site.", tags)
+    has_id, has_model = table.has_column(3), table.has_column(4)
+    for i, row in enumerate(table):
+        if has_model and gemmi.cif.as_string(row[4]) not in ("", str(number)):
+            continue
+        for axis, col in (("x", 0), ("y", 1), ("z", 2)):
+            raw = row[col]
+            if math.isfinite(gemmi.cif.as_number(raw)):
+                continue
+            atom = f"id {gemmi.cif.as_string(row[3])}" if has_id else f"row {i + 1}"
+            where = f"_atom_site {atom}: Cartn_{axis}"
+            if gemmi.cif.is_null(raw):
+                return f"{where} is missing ({raw!r})"
+            value = gemmi.cif.as_string(raw)
+            try:
+                float(value)
+            except ValueError:
+                return f"{where} {value!r} is not a number"
+            return f"{where} {value!r} is not finite"
+    return None
+
+
+# --- models, altlocs, hydrogens ------------------------------------------------------------
+
+
+def _model_numbers(st: gemmi.Structure) -> list[int]:
+    """Model numbers as in the file, or 1-based indices when those are unusable."""
+    nums = [m.num for m in st]
+    if all(n > 0 for n in nums) and len(set(nums)) == len(nums):
+        return nums
+    return list(range(1, len(nums) + 1))
+
+
+def _choose_model(name: str, numbers: list[int], counts: list[int], model: int) -> int:
+    """Index of the requested model; raise when it is absent or empty."""
+    if model in numbers:
+        index = numbers.index(model)
+    elif model == 1 and len(numbers) == 1:
+        index = 0
+    else:
+        raise StructureFileError(
+            f"{name}: no model {model}; the file has {len(numbers)} model(s):"
+            f" {_number_ranges(numbers)}"
+        )
+    if counts[index] == 0:
+        raise EmptyStructureError(
+            f"{name}: model {numbers[index]} has no atoms (the file has {len(numbers)}"
+            f" model(s): {_number_ranges(numbers)})"
+        )
+    return index
+
+
+def _number_ranges(numbers: list[int]) -> str:
+    """Compact list of model numbers, e.g. ``"1-16"`` or ``"1, 3-5"``."""
+    parts: list[str] = []
+    start = prev = numbers[0]
+    for n in [*numbers[1:], None]:
+        if n is not None and n == prev + 1:
+            prev = n
+            continue
+        parts.append(str(start) if start == prev else f"{start}-{prev}")
+        if n is not None:
+            start = prev = n
+    return ", ".join(parts)
+
+
+def _remove_empty_residues(m: gemmi.Model) -> None:
+    """Drop residues (then chains) left without atoms, e.g. after hydrogen removal."""
+    for ch in m:
+        for i in range(len(ch) - 1, -1, -1):
+            if len(ch[i]) == 0:
+                del ch[i]
+    for i in range(len(m) - 1, -1, -1):
+        if len(m[i]) == 0:
+            del m[i]
+
+
+def _apply_altloc_policy(m: gemmi.Model, policy: str) -> None:
+    """Keep one alternative location per residue, in place (see the module docstring).
+
+    The atoms that carry an altloc label are copied out in C++ (the copy keeps
+    every chain and residue, so its indices match the model's); only residues
+    holding such atoms are then visited in Python.
+    """
+    if policy == "all":
+        return
+    labelled = _WITH_ALTLOC.copy_model_selection(m)
+    if labelled.count_atom_sites() == 0:
+        return
+    if len(labelled) != len(m):  # not expected: let gemmi keep the first altloc
+        m.remove_alternative_conformations()
+        return
+    for ch, ch_labelled in zip(m, labelled):
+        if ch_labelled.count_atom_sites() == 0:
+            continue
+        if len(ch_labelled) != len(ch):
+            m.remove_alternative_conformations()
+            return
+        _resolve_chain(ch, ch_labelled, policy)
+
+
+def _resolve_chain(ch: gemmi.Chain, labelled: gemmi.Chain, policy: str) -> None:
+    """Resolve the altlocs of one chain; ``labelled`` holds its altloc atoms only."""
+    hits = [i for i, res in enumerate(labelled) if len(res)]
+    # Adjacent residues sharing a sequence id are variants of one residue
+    # (microheterogeneity, e.g. SER altloc A / THR altloc B): keep one of them.
+    groups: list[list[int]] = []
+    for i in hits:
+        if groups and groups[-1][-1] == i - 1 and _same_seqid(labelled[i], labelled[i - 1]):
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    dropped: list[int] = []
+    for group in groups:
+        keep = group[0]
+        if len(group) > 1:
+            if policy == "occupancy":
+                keep = min(group, key=lambda i: _variant_rank(labelled[i]))
+            dropped.extend(i for i in group if i != keep)
+        _resolve_residue(ch[keep], labelled[keep], policy)
+    for i in sorted(dropped, reverse=True):
+        del ch[i]
+
+
+def _same_seqid(a: gemmi.Residue, b: gemmi.Residue) -> bool:
+    """Whether two residues have the same sequence number and insertion code."""
+    return a.seqid.num == b.seqid.num and a.seqid.icode == b.seqid.icode
+
+
+def _variant_rank(labelled: gemmi.Residue) -> tuple[float, str]:
+    """Sort key of a residue variant: highest altloc occupancy first, then its label."""
+    total = sum(atom.occ for atom in labelled)
+    return (-round(total, 6), labelled[0].altloc)
+
+
+def _resolve_residue(res: gemmi.Residue, labelled: gemmi.Residue, policy: str) -> None:
+    """Keep one altloc of ``res``; ``labelled`` holds its altloc atoms, in file order."""
+    sums: dict[str, float] = {}
+    for atom in labelled:
+        sums[atom.altloc] = sums.get(atom.altloc, 0.0) + atom.occ
+    if len(sums) < 2:
+        return
+    keep = labelled[0].altloc  # the first label met in the file
+    if policy == "occupancy":
+        top = max(sums.values())
+        keep = min(label for label, total in sums.items() if total >= top - _TIE)
+    for i in range(len(res) - 1, -1, -1):
+        label = res[i].altloc
+        if label != "\0" and label != keep:
+            del res[i]
+
+
+# --- summary ---------------------------------------------------------------------------
+
+
+def _info_value(st: gemmi.Structure, key: str) -> str | None:
+    """A value of gemmi's info map, stripped; None when absent or null."""
+    for k, v in st.info.items():
+        if k == key:
+            v = " ".join(v.split())
+            return v if v and v not in ("?", ".") else None
+    return None
+
+
+def _entry_id(st: gemmi.Structure, name: str) -> str:
+    """PDB ID from the header, else from the file name (``2fug.pdb1`` -> ``2FUG``)."""
+    entry = _info_value(st, "_entry.id") or ""
+    if entry.upper() not in _MISSING_IDS:
+        return entry
+    base = Path(name).name
+    if base.lower().endswith(".gz"):
+        base = base[:-3]
+    stem = base.split(".", 1)[0] or base
+    m = _PDB_ID_STEM.fullmatch(stem)
+    return m.group(1).upper() if m else stem
+
+
+def _resolution(st: gemmi.Structure) -> float | None:
+    """Resolution in Å, or None when missing."""
+    res = st.resolution
+    return float(res) if math.isfinite(res) and res > 0 else None
+
+
+def _cell(st: gemmi.Structure) -> tuple[float, float, float, float, float, float] | None:
+    """Unit cell parameters, or None without a crystal cell."""
+    c = st.cell
+    if not c.is_crystal():
+        return None
+    return (c.a, c.b, c.c, c.alpha, c.beta, c.gamma)

@@ -1,0 +1,268 @@
+"""The electron wire: entry and exit, fastest path, bottleneck, gaps, transfer times.
+
+Two transfer times are reported (both model estimates):
+
+* the **summed hop time**, Σ 1/k_forward along the fastest path: what an
+  electron needs if it only ever steps forward along that path;
+* the **mean first-passage time** (MFPT) from entry to exit over the whole
+  connected component, with forward and back hops between every pair within
+  the cutoff and the exit absorbing: a master-equation answer that counts back
+  steps, detours into side branches and parallel routes. Uphill hops make the
+  MFPT longer than the sum; parallel routes can make it shorter.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import networkx as nx
+import numpy as np
+
+from fescan.errors import CofactorNotFound, ConfigError
+from fescan.graph import Hop
+from fescan.kinetics import mean_first_passage_time
+from fescan.model import Cofactor
+from fescan.options import ScanOptions
+
+__all__ = ["Wire", "parse_selector", "find_cofactor", "choose_endpoints", "trace_wire", "all_pair_paths"]
+
+_SELECTOR = re.compile(r"^\s*([^/\s]+)\s*/\s*(-?\d+)\s*([A-Za-z]?)\s*$")
+
+
+@dataclass
+class Wire:
+    """The wire of one structure from entry to exit.
+
+    Attributes
+    ----------
+    entry, exit : str or None
+        Uids of the entry and exit cofactors.
+    how_chosen : str
+        Why these endpoints (user choice or which default rule).
+    path : list of str
+        Uids along the fastest path (empty when no path).
+    hops : list of Hop
+        Hops along the path, in order.
+    bottleneck : Hop or None
+        The slowest hop of the path.
+    gaps : list of Hop
+        Hops of the path longer than the gap limit or slower than the threshold.
+    isolated : list of str
+        Cofactors with no partner inside the gap limit.
+    branches : list of dict
+        Cofactors connected to the path within the gap limit but not on it,
+        with the path cofactor they attach to and the distance.
+    summed_hop_time : float or None
+        Σ 1/k_forward along the path (s).
+    mean_first_passage_time : float or None
+        Mean first-passage time entry → exit over the connected component (s).
+    notes : list of str
+    """
+
+    entry: str | None = None
+    exit: str | None = None
+    how_chosen: str = ""
+    path: list[str] = field(default_factory=list)
+    hops: list[Hop] = field(default_factory=list)
+    bottleneck: Hop | None = None
+    gaps: list[Hop] = field(default_factory=list)
+    isolated: list[str] = field(default_factory=list)
+    branches: list[dict] = field(default_factory=list)
+    summed_hop_time: float | None = None
+    mean_first_passage_time: float | None = None
+    notes: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict:
+        """JSON-ready record (times in s; ``None`` where undefined, never inf/NaN)."""
+
+        def t(x):
+            return None if x is None or not math.isfinite(x) else x
+
+        return {
+            "entry": self.entry,
+            "exit": self.exit,
+            "how_chosen": self.how_chosen,
+            "path": list(self.path),
+            "hops": [h.to_dict() for h in self.hops],
+            "bottleneck": self.bottleneck.to_dict() if self.bottleneck else None,
+            "gaps": [h.to_dict() for h in self.gaps],
+            "isolated": list(self.isolated),
+            "branches": list(self.branches),
+            "summed_hop_time_s": t(self.summed_hop_time),
+            "mean_first_passage_time_s": t(self.mean_first_passage_time),
+            "connected": bool(self.path),
+            "notes": list(self.notes),
+        }
+
+
+def parse_selector(text: str) -> tuple[str, int, str]:
+    """Parse ``CHAIN/RESNUM[ICODE]`` into (chain, number, insertion code).
+
+    Examples
+    --------
+    >>> parse_selector("B/245")
+    ('B', 245, '')
+    >>> parse_selector("A/52A")
+    ('A', 52, 'A')
+    """
+    m = _SELECTOR.match(text or "")
+    if not m:
+        raise ConfigError(f"cannot read cofactor selector {text!r}: write CHAIN/RESNUM, e.g. B/245 or A/52A")
+    return m.group(1), int(m.group(2)), m.group(3)
+
+
+def find_cofactor(cofactors: Sequence[Cofactor], selector: str) -> Cofactor:
+    """The cofactor a selector names (its naming residue or any residue it spans)."""
+    chain, num, icode = parse_selector(selector)
+    key = f"{chain}/{num}{icode}"
+    for c in cofactors:
+        if c.key == key:
+            return c
+    for c in cofactors:
+        if any(r.split()[0] == key for r in c.residues):
+            return c
+    avail = ", ".join(f"{c.key} ({c.cls})" for c in cofactors) or "none"
+    raise CofactorNotFound(f"no cofactor at {key}; cofactors found: {avail}")
+
+
+def _undirected_within(g: nx.DiGraph, limit: float) -> nx.Graph:
+    u = nx.Graph()
+    u.add_nodes_from(g.nodes)
+    u.add_edges_from((a, b) for a, b, d in g.edges(data="edge") if d <= limit)
+    return u
+
+
+def _farthest(u: nx.Graph, g: nx.DiGraph, source: str) -> str | None:
+    """Cofactor of the source's component that is most hops (then most Å) away."""
+    lengths = nx.single_source_shortest_path_length(u, source)
+    if len(lengths) < 2:
+        return None
+    src = np.asarray(g.nodes[source]["cofactor"].centroid)
+
+    def score(n):
+        return (lengths[n], float(np.linalg.norm(np.asarray(g.nodes[n]["cofactor"].centroid) - src)))
+
+    return max((n for n in lengths if n != source), key=score)
+
+
+def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOptions) -> tuple[str | None, str | None, str]:
+    """Pick entry and exit: the user's, else a flavin → quinone/heme, else the longest chain.
+
+    Returns
+    -------
+    entry, exit : str or None
+    how : str
+        Plain-words reason.
+    """
+    if options.entry or options.exit:
+        entry = find_cofactor(cofactors, options.entry).uid if options.entry else None
+        exit_ = find_cofactor(cofactors, options.exit).uid if options.exit else None
+        u = _undirected_within(g, options.gap_limit)
+        if entry and not exit_:
+            exit_ = _farthest(u, g, entry)
+        if exit_ and not entry:
+            entry = _farthest(u, g, exit_)
+        return entry, exit_, "chosen by the user"
+    if len(cofactors) < 2:
+        return None, None, "fewer than two cofactors"
+    u = _undirected_within(g, options.gap_limit)
+    flavins = [c.uid for c in cofactors if c.category == "flavin"]
+    quinones = [c.uid for c in cofactors if c.category == "quinone"]
+    hemes = [c.uid for c in cofactors if c.category == "heme"]
+    for entry in flavins:
+        comp = nx.node_connected_component(u, entry)
+        for kind, group in (("quinone", quinones), ("heme", hemes)):
+            reach = [x for x in group if x in comp]
+            if reach:
+                best = min(reach, key=lambda x: nx.dijkstra_path_length(g, entry, x, weight="hop_time"))
+                return entry, best, f"default: flavin entry, fastest-reached {kind} exit"
+    if flavins:
+        entry = flavins[0]
+        far = _farthest(u, g, entry)
+        if far is not None:
+            return entry, far, "default: flavin entry, farthest cofactor of its chain as exit"
+    # longest chain: the component with most cofactors, its two most distant ends (in hops)
+    comps = sorted(nx.connected_components(u), key=lambda c: (-len(c), sorted(c)))
+    if not comps or len(comps[0]) < 2:
+        return None, None, "no two cofactors within the gap limit"
+    sub = u.subgraph(comps[0])
+    order = sorted(sub.nodes, key=lambda n: [c.uid for c in cofactors].index(n))
+    a = _farthest(sub, g, order[0])
+    b = _farthest(sub, g, a)
+    first, second = sorted((a, b), key=lambda n: [c.uid for c in cofactors].index(n))
+    return first, second, "default: the two ends of the longest chain"
+
+
+def _mfpt(g: nx.DiGraph, entry: str, exit_: str) -> float:
+    comp = nx.node_connected_component(g.to_undirected(as_view=True), entry)
+    if exit_ not in comp:
+        return math.inf
+    nodes = sorted(comp)
+    ix = {n: k for k, n in enumerate(nodes)}
+    rates = np.zeros((len(nodes), len(nodes)))
+    for a, b, k in g.subgraph(nodes).edges(data="hop"):
+        rates[ix[a], ix[b]] = k.k_forward
+    return float(mean_first_passage_time(rates, ix[entry], ix[exit_]))
+
+
+def trace_wire(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOptions) -> Wire:
+    """Trace the wire of one structure (see the module docstring).
+
+    Parameters
+    ----------
+    g : networkx.DiGraph
+        From :func:`fescan.graph.build_cofactor_graph`.
+    cofactors : sequence of Cofactor
+    options : ScanOptions
+
+    Returns
+    -------
+    Wire
+    """
+    w = Wire()
+    u = _undirected_within(g, options.gap_limit)
+    w.isolated = [n for n in g.nodes if u.degree(n) == 0] if len(g) > 1 else []
+    entry, exit_, how = choose_endpoints(g, cofactors, options)
+    w.entry, w.exit, w.how_chosen = entry, exit_, how
+    if entry is None or exit_ is None or entry == exit_:
+        w.notes.append("no wire: " + how)
+        return w
+    try:
+        path = nx.dijkstra_path(g, entry, exit_, weight="hop_time")
+    except nx.NetworkXNoPath:
+        w.notes.append(f"no chain of hops within {options.cutoff:g} Å joins entry and exit")
+        w.mean_first_passage_time = math.inf
+        return w
+    w.path = path
+    w.hops = [g.edges[a, b]["hop"] for a, b in zip(path, path[1:])]
+    w.bottleneck = max(w.hops, key=lambda h: h.hop_time)
+    w.gaps = [h for h in w.hops if h.gap or h.slow]
+    w.summed_hop_time = float(sum(h.hop_time for h in w.hops))
+    w.mean_first_passage_time = _mfpt(g, entry, exit_)
+    on_path = set(path)
+    comp = set().union(*(nx.node_connected_component(u, n) for n in path))
+    for n in sorted(comp - on_path, key=lambda n: [c.uid for c in cofactors].index(n)):
+        near = [(g.edges[n, p]["edge"], p) for p in path if g.has_edge(n, p)]
+        if near:
+            d, p = min(near)
+            w.branches.append({"cofactor": n, "attached_to": p, "edge_distance": d})
+    return w
+
+
+def all_pair_paths(g: nx.DiGraph, options: ScanOptions) -> list[dict]:
+    """Fastest path and its summed hop time for every ordered pair joined by hops."""
+    out = []
+    for src, (times, paths) in nx.all_pairs_dijkstra(g, weight="hop_time"):
+        for dst, t in times.items():
+            if dst == src:
+                continue
+            hops = [g.edges[a, b]["hop"] for a, b in zip(paths[dst], paths[dst][1:])]
+            out.append({
+                "entry": src, "exit": dst, "path": paths[dst], "summed_hop_time_s": t,
+                "max_edge_distance": max(h.edge for h in hops),
+                "has_gap": any(h.gap or h.slow for h in hops),
+            })
+    return out
