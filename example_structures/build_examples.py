@@ -1030,13 +1030,136 @@ def dress(ca: np.ndarray, slots: list, bb: dict[int, dict[str, Vec]], cof_atoms:
 
 def _room(sc: dict[str, Vec], r: int, placed: list) -> bool:
     """True when new side-chain atoms keep >= 3.0 A (3.4 A from clusters) from other residues."""
-    for nm, pos in sc.items():
-        for other, rr, onm, cl in placed:
-            if rr == r:
-                continue
-            if nm == "CB" and abs(rr - r) == 1 and onm in ("N", "C", "CA", "O"):
-                continue
-            thr = 3.4 if cl else 3.0
-            if float(np.linalg.norm(pos - other)) < thr:
-                return False
+    if not sc:
+        return True
+    pos = np.array([p[0] for p in placed])
+    res = np.array([p[1] for p in placed])
+    bbn = np.array([p[2] in ("N", "CA", "C", "O") for p in placed])
+    thr = np.where(np.array([p[3] for p in placed]), 3.4, 3.0)
+    for nm, x in sc.items():
+        d = np.linalg.norm(pos - x, axis=1)
+        skip = (res == r) | ((np.abs(res - r) == 1) & bbn & (nm == "CB"))
+        if np.any((d < thr) & ~skip):
+            return False
     return True
+
+
+# ----------------------------------------------------------------------------- designs
+LINK_CLASS = {"SF4": "Fe-SG [4Fe-4S]", "F3S": "Fe-SG [3Fe-4S]", "FES": "Fe-SG [2Fe-2S]",
+              "RSK": "Fe-SG [2Fe-2S]", "HEM": "Fe-NE2 His (heme)"}
+
+
+def _slot_index(slots: list, lig: Lig) -> int:
+    """Position of a ligand object in the slot list (identity, not equality)."""
+    return next(i for i, s in enumerate(slots) if s is lig)
+
+
+def build_design(name: str, title: str, sites: list[Site], hop_rule: list[tuple[float, float]]) -> Model:
+    """Lay out cofactors, thread the chain, and return the complete model."""
+    cofs, ligs, poses = place_sites(sites)
+    slots, trace = chain_plan(sites, cofs, ligs)
+    cof_xyz = np.vstack([c.xyz for c in cofs])
+    is_cluster = np.concatenate([[c.code in ("SF4", "F3S", "FES") for _ in c.names] for c in cofs])
+    obst, thr, ores, dp_thr = [], [], [], []
+    for pos, cl in zip(cof_xyz, is_cluster):
+        obst.append(pos), thr.append(4.2 if cl else 4.0), ores.append(-10), dp_thr.append(3.3 if cl else 3.1)
+    for g in ligs:
+        r = _slot_index(slots, g)
+        for nm, pos in g.atoms.items():
+            if nm != "CA":
+                obst.append(pos), thr.append(3.6 if nm in ("N", "C") else 3.8), ores.append(r), dp_thr.append(3.0)
+    obst, thr, ores, dp_thr = np.array(obst), np.array(thr), np.array(ores), np.array(dp_thr)
+    ca = relax_trace(trace, slots, obst, thr, ores)
+    dp_obst = np.vstack([obst, ca])
+    dp_res = np.concatenate([ores, np.arange(len(ca))])
+    bb = backbone(ca, slots, dp_obst, np.concatenate([dp_thr, np.full(len(ca), 3.3)]), dp_res)
+    residues, bonds = dress(ca, slots, bb, cof_xyz, is_cluster)
+    table = []
+    for k, (site, cof) in enumerate(zip(sites, cofs)):
+        residues.append(Res("A", cof.seq, cof.code, True, list(zip(cof.names, cof.elems, cof.xyz))))
+        bonds.extend((("A", cof.seq, a), ("A", cof.seq, b), cls, d0) for a, b, cls, d0 in cof.bonds)
+        table.append({"kind": site.kind, "code": cof.code, "cls": cof.cls, "keys": [("A", cof.seq, n) for n in cof.names],
+                      "redox": [("A", cof.seq, n) for n in cof.redox],
+                      "role": "entry" if k == 0 else ("exit" if k == len(sites) - 1 else "relay"),
+                      "pose": tuple(round(v, 3) for v in poses[k])})
+    for g in ligs:
+        seq = _slot_index(slots, g) + 1
+        kind = sites[g.cof].kind
+        cls = "Fe-ND1 His (Rieske)" if g.lig_atom == "ND1" else LINK_CLASS[kind]
+        bonds.append((("A", seq, g.lig_atom), ("A", cofs[g.cof].seq, g.metal), cls, g.dist))
+    model = Model(name, title, residues, bonds, table, hop_rule)
+    model.notes["motifs"] = {cofs[k].seq: [_slot_index(slots, g) + 1 for g in ligs if g.cof == k]
+                             for k in range(len(cofs)) if any(g.cof == k for g in ligs)}
+    return model
+
+
+def recentre(model: Model, margin: float = 12.0) -> tuple[float, float, float]:
+    """Shift all atoms into a positive P1 box; return the box edges."""
+    allxyz = np.array([a[2] for r in model.residues for a in r.atoms])
+    lo, hi = allxyz.min(0), allxyz.max(0)
+    shift = margin - lo
+    for r in model.residues:
+        r.atoms = [(n, e, np.round(x + shift, 3)) for n, e, x in r.atoms]
+    box = np.ceil(hi - lo + 2 * margin)
+    return float(box[0]), float(box[1]), float(box[2])
+
+
+def variant_misligated(base: Model) -> Model:
+    """rb3: [4Fe-4S] #1 keeps 3 Cys (4th -> Ala), one Fe-SG of the [2Fe-2S] at 2.80 A, [4Fe-4S] #2 loses S3."""
+    m = Model("rb3", "", [Res(r.chain, r.seq, r.name, r.het, list(r.atoms)) for r in base.residues],
+              list(base.bonds), [dict(c) for c in base.cofactors], base.hop_rule, dict(base.notes))
+    by_seq = {r.seq: r for r in m.residues}
+    sf4a, sf4b, fes = 503, 504, 502
+    ala = m.notes["motifs"][sf4a][-1]
+    r = by_seq[ala]
+    r.name, r.atoms = "ALA", [a for a in r.atoms if a[0] != "SG"]
+    m.bonds = [b for b in m.bonds if ("A", ala, "SG") not in (b[0], b[1])]
+    # stretched bond: turn SG about CA-CB (chi1) until Fe-SG = 2.80 A
+    cys = by_seq[m.notes["motifs"][fes][0]]
+    link = next(b for b in m.bonds if b[0] == ("A", cys.seq, "SG"))
+    fe = dict((a[0], a[2]) for a in by_seq[fes].atoms)[link[1][2]]
+    at = dict((a[0], a[2]) for a in cys.atoms)
+    others = np.array([a[2] for rr in m.residues if rr is not cys for a in rr.atoms if not np.allclose(a[2], fe)])
+
+    def sg_at(t: float) -> Vec:
+        return at["CB"] + rotmat(at["CB"] - at["CA"], t) @ (at["SG"] - at["CB"])
+
+    grid = np.arange(0.0, 360.0, 0.5)
+    dist = np.array([np.linalg.norm(sg_at(t) - fe) for t in grid])
+    ok = [t for t, d in zip(grid, dist) if abs(d - 2.80) < 0.01]
+    best = max(ok, key=lambda t: (round(float(np.linalg.norm(others - sg_at(t), axis=1).min()), 3), -t))
+    new_sg = np.round(sg_at(best), 3)
+    cys.atoms = [(n, e, new_sg if n == "SG" else x) for n, e, x in cys.atoms]
+    m.bonds = [(b[0], b[1], "Fe-SG stretched (intended)", 2.80) if b is link else b for b in m.bonds]
+    r = by_seq[sf4b]
+    r.atoms = [a for a in r.atoms if a[0] != "S3"]
+    m.bonds = [b for b in m.bonds if ("A", sf4b, "S3") not in (b[0], b[1])]
+    for c in m.cofactors:
+        c["keys"] = [k for k in c["keys"] if k != ("A", sf4b, "S3")]
+        c["redox"] = [k for k in c["redox"] if k != ("A", sf4b, "S3")]
+    m.notes.update(mutated_to_ala=ala, mutated_metal=next(b[1] for b in base.bonds if b[0] == ("A", ala, "SG")),
+                   stretched=(cys.seq, link[1][2]), missing_sulfide=(sf4b, "S3"))
+    return m
+
+
+def variant_split(base: Model) -> Model:
+    """rb4: cluster atoms written as single-atom FE / S residues in chain B, numbered 1, 2, 3 ..."""
+    m = Model("rb4", "", [], [], [], base.hop_rule, dict(base.notes))
+    remap: dict[Key, Key] = {}
+    nxt = 1
+    for r in base.residues:
+        if r.name in ("SF4", "F3S", "FES"):
+            for nm, el, x in sorted(r.atoms, key=lambda a: (a[1] != "Fe", a[0])):
+                resname = "FE" if el == "Fe" else "S"
+                m.residues.append(Res("B", nxt, resname, True, [(resname, el, x)]))
+                remap[(r.chain, r.seq, nm)] = ("B", nxt, resname)
+                nxt += 1
+        else:
+            m.residues.append(r)
+    m.bonds = [(remap.get(a, a), remap.get(b, b), cls, d) for a, b, cls, d in base.bonds]
+    for c in base.cofactors:
+        c2 = dict(c)
+        c2["keys"] = [remap.get(k, k) for k in c["keys"]]
+        c2["redox"] = [remap.get(k, k) for k in c["redox"]]
+        m.cofactors.append(c2)
+    return m

@@ -1,5 +1,37 @@
-"""fescan: redox cofactors, Fe-S cluster checks and electron-transfer wires in protein structures."""
+"""fescan: redox cofactors, Fe-S cluster checks and electron-transfer wires in protein structures.
+
+Public API::
+
+    fescan.scan(path, entry=None, exit=None, **options) -> ScanResult
+    fescan.log10_hop_rate(distance, dg, reorg=0.7, packing_density=0.76)
+
+Rates and times are estimates from the empirical Moser-Dutton law, not measurements.
+"""
 
 from __future__ import annotations
 
 __version__ = "0.1.0"
+
+from fescan.errors import (  # noqa: E402
+    CofactorNotFound,
+    ConfigError,
+    FescanError,
+    FescanWarning,
+    StructureFileError,
+)
+from fescan.kinetics import log10_hop_rate  # noqa: E402
+from fescan.options import ScanOptions  # noqa: E402
+from fescan.scan import ScanResult, scan  # noqa: E402
+
+__all__ = [
+    "__version__",
+    "scan",
+    "ScanResult",
+    "ScanOptions",
+    "log10_hop_rate",
+    "FescanError",
+    "StructureFileError",
+    "CofactorNotFound",
+    "ConfigError",
+    "FescanWarning",
+]
