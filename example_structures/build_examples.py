@@ -19,6 +19,7 @@ byte-identical files.  The check exits non-zero when a design constraint fails.
 from __future__ import annotations
 
 import argparse
+import functools
 import gzip
 import hashlib
 import io
@@ -313,6 +314,7 @@ def build_heme() -> Cof:
     return cof
 
 
+@functools.lru_cache(maxsize=None)
 def template(kind: str) -> Cof:
     """Local-frame cofactor of a site kind (x = wire direction, redox edge facing -x/+x)."""
     if kind == "FMN":
@@ -601,6 +603,15 @@ def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray
         d = np.sqrt(((nxt[:, None, :, None, :] - prv[None, :, None, :, :]) ** 2).sum(-1))
         tot = _closure(k, d) + np.array([c[3] for c in a])[:, None, :, None] + \
             np.array([c[4] for c in b])[None, :, None, :]
+        ca_a = np.array([c[0]["CA"] for c in a])
+        ca_b = np.array([c[0]["CA"] for c in b])
+        if k == 2:  # virtual angle at the single residue in between
+            tot += 4 * _flat(np.linalg.norm(ca_a[:, None] - ca_b[None], axis=-1), 5.5, 6.9)[:, :, None, None]
+        if k == 3:  # virtual angles at both residues in between
+            tot += 4 * _flat(np.linalg.norm(ca_a[:, None, None, :] - prv[None, :, :, :], axis=-1),
+                             5.5, 6.9)[:, :, None, :]
+            tot += 4 * _flat(np.linalg.norm(nxt[:, None, :, :] - ca_b[None, :, None, :], axis=-1),
+                             5.5, 6.9)[:, :, :, None]
         pair = tot.min(axis=(2, 3))
         xa = np.array([list(c[0].values()) for c in a])
         xb = np.array([list(c[0].values()) for c in b])
@@ -1117,8 +1128,8 @@ def variant_misligated(base: Model) -> Model:
     # stretched bond: turn SG about CA-CB (chi1) until Fe-SG = 2.80 A
     cys = by_seq[m.notes["motifs"][fes][0]]
     link = next(b for b in m.bonds if b[0] == ("A", cys.seq, "SG"))
-    fe = dict((a[0], a[2]) for a in by_seq[fes].atoms)[link[1][2]]
-    at = dict((a[0], a[2]) for a in cys.atoms)
+    fe = {a[0]: a[2] for a in by_seq[fes].atoms}[link[1][2]]
+    at = {a[0]: a[2] for a in cys.atoms}
     others = np.array([a[2] for rr in m.residues if rr is not cys for a in rr.atoms if not np.allclose(a[2], fe)])
 
     def sg_at(t: float) -> Vec:
@@ -1163,3 +1174,302 @@ def variant_split(base: Model) -> Model:
         c2["redox"] = [remap.get(k, k) for k in c["redox"]]
         m.cofactors.append(c2)
     return m
+
+
+# ----------------------------------------------------------------------------- output
+def _labels():
+    """A, B, ..., Z, AA, BA, ... (label_asym_id generator)."""
+    for n in itertools.count(1):
+        for combo in itertools.product("ABCDEFGHIJKLMNOPQRSTUVWXYZ", repeat=n):
+            yield "".join(reversed(combo))
+
+
+def to_structure(model: Model, box: tuple[float, float, float], method: str, resolution: float | None) -> gemmi.Structure:
+    """Convert a model into a gemmi Structure (P1 box, title, method, resolution, entities)."""
+    st = gemmi.Structure()
+    st.name = model.name.upper()
+    st.cell = gemmi.UnitCell(*box, 90.0, 90.0, 90.0)
+    st.spacegroup_hm = "P 1"
+    st.info["_struct.title"] = model.title
+    st.info["_exptl.method"] = method
+    if resolution is not None:
+        st.resolution = resolution
+        ri = gemmi.RefinementInfo()
+        ri.id = "1"
+        ri.resolution_high = resolution
+        st.meta.refinement = [ri]
+    gm = gemmi.Model(1)
+    labels = _labels()
+    entities: dict[str, gemmi.Entity] = {}
+    poly_sub = next(labels)
+    for chain_name in sorted({r.chain for r in model.residues}):
+        ch = gemmi.Chain(chain_name)
+        for r in (x for x in model.residues if x.chain == chain_name):
+            res = gemmi.Residue()
+            res.name, res.seqid = r.name, gemmi.SeqId(r.seq, " ")
+            res.het_flag = "H" if r.het else "A"
+            if r.het:
+                res.subchain = next(labels)
+                res.entity_type = gemmi.EntityType.NonPolymer
+                ent = entities.setdefault(r.name, gemmi.Entity(str(len(entities) + 2)))
+                ent.entity_type = gemmi.EntityType.NonPolymer
+                ent.subchains = [*ent.subchains, res.subchain]
+            else:
+                res.subchain = poly_sub
+                res.entity_type = gemmi.EntityType.Polymer
+            for i, (nm, el, x) in enumerate(r.atoms):
+                at = gemmi.Atom()
+                at.name, at.element = nm, gemmi.Element(el)
+                at.pos = gemmi.Position(*(float(v) for v in x))
+                at.occ = 1.0
+                wave = 0.5 + 0.5 * np.sin(0.31 * r.seq)
+                at.b_iso = round(16.0 + 2.0 * wave + 0.4 * (i % 8) if r.het else
+                                 15.0 + 10.0 * wave + 0.5 * min(i, 6), 2)
+                res.add_atom(at)
+            ch.add_residue(res)
+        gm.add_chain(ch)
+    st.add_model(gm)
+    poly = gemmi.Entity("1")
+    poly.entity_type = gemmi.EntityType.Polymer
+    poly.polymer_type = gemmi.PolymerType.PeptideL
+    poly.subchains = [poly_sub]
+    poly.full_sequence = [r.name for r in model.residues if not r.het]
+    st.entities.append(poly)
+    for ent in entities.values():
+        st.entities.append(ent)
+    st.assign_label_seq_id()
+    return st
+
+
+def serialise(st: gemmi.Structure, filename: str) -> bytes:
+    """File bytes for .cif, .pdb or .pdb.gz (gzip without name and with mtime 0)."""
+    if filename.endswith(".cif"):
+        return st.make_mmcif_document().as_string().encode()
+    text = st.make_pdb_string(gemmi.PdbWriteOptions()).encode()
+    if not filename.endswith(".gz"):
+        return text
+    buf = io.BytesIO()
+    with gzip.GzipFile(filename="", mode="wb", fileobj=buf, mtime=0, compresslevel=9) as gz:
+        gz.write(text)
+    return buf.getvalue()
+
+
+# ----------------------------------------------------------------------------- check
+TOL = {"C-N peptide": 0.06, "N-CA": 0.05, "CA-C": 0.05, "C=O": 0.03, "Fe-SG [4Fe-4S]": 0.02,
+       "Fe-SG [2Fe-2S]": 0.02, "Fe-SG [3Fe-4S]": 0.02, "Fe-ND1 His (Rieske)": 0.02,
+       "Fe-NE2 His (heme)": 0.03, "Fe-SG stretched (intended)": 0.05}
+CLUSTERS = ("SF4", "F3S", "FES")
+
+
+def read_back(path: Path) -> tuple[dict[Key, Vec], dict[str, tuple[int, int]]]:
+    """Coordinates by (chain, resnum, atom) and per-chain (residues, atoms) counts, read with gemmi."""
+    st = gemmi.read_structure(str(path))
+    coords, counts = {}, {}
+    for ch in st[0]:
+        n_at = 0
+        for res in ch:
+            for at in res:
+                coords[(ch.name, res.seqid.num, at.name)] = np.array(at.pos.tolist())
+                n_at += 1
+        prev = counts.get(ch.name, (0, 0))
+        counts[ch.name] = (prev[0] + len(ch), prev[1] + n_at)
+    return coords, counts
+
+
+def check_model(model: Model, path: Path) -> list[str]:
+    """Recompute bond classes, clearances and hops from the file; return the list of failures."""
+    fails: list[str] = []
+    coords, counts = read_back(path)
+    want = {}
+    for r in model.residues:
+        n = want.get(r.chain, (0, 0))
+        want[r.chain] = (n[0] + 1, n[1] + len(r.atoms))
+    keys = [(r.chain, r.seq, a[0]) for r in model.residues for a in r.atoms]
+    if counts != want or set(keys) != set(coords):
+        fails.append(f"read-back counts {counts} != intended {want}")
+        return fails
+    print(f"\n== {path.name}: {model.title}")
+    print("   read back with gemmi: " + ", ".join(f"chain {c}: {n[0]} residues / {n[1]} atoms"
+                                                  for c, n in sorted(counts.items())))
+    classes: dict[str, list[tuple[float, float]]] = {}
+    for a, b, cls, d0 in model.bonds:
+        classes.setdefault(cls, []).append((float(np.linalg.norm(coords[a] - coords[b])), d0))
+    print(f"   {'bond class':30s} {'n':>4s} {'min':>6s} {'max':>6s} {'nominal':>8s}")
+    for cls in sorted(classes):
+        vals = classes[cls]
+        dev = max(abs(d - d0) for d, d0 in vals)
+        nominal = sorted({round(d0, 2) for _, d0 in vals})
+        nom = f"{nominal[0]:.3f}" if len(nominal) == 1 else f"{nominal[0]:.2f}-{nominal[-1]:.2f}"
+        print(f"   {cls:30s} {len(vals):4d} {min(v for v, _ in vals):6.3f} {max(v for v, _ in vals):6.3f} {nom:>8s}")
+        if dev > TOL.get(cls, 0.04):
+            fails.append(f"bond class {cls}: deviation {dev:.3f} A")
+    # Fe-SG-CB angles of intact Cys ligands, CB-Fe distances
+    angs, cbfe = [], []
+    for a, b, cls, _ in model.bonds:
+        if cls.startswith("Fe-SG") and "stretched" not in cls:
+            cb = (a[0], a[1], "CB")
+            angs.append(angle(coords[b], coords[a], coords[cb]))
+        if cls.startswith("Fe-") and a[2] in ("SG", "ND1", "NE2"):
+            cbfe.append(float(np.linalg.norm(coords[(a[0], a[1], "CB")] - coords[b])))
+    if angs:
+        print(f"   Fe-SG-CB angle {min(angs):.1f}-{max(angs):.1f} deg; ligand CB...Fe >= {min(cbfe):.2f} A")
+        if min(angs) < 105 or max(angs) > 110 or min(cbfe) < 3.0:
+            fails.append("Fe-SG-CB angle or CB...Fe distance out of range")
+    # non-bonded contacts
+    idx = {k: i for i, k in enumerate(keys)}
+    xyz = np.array([coords[k] for k in keys])
+    nb = [set() for _ in keys]
+    for a, b, *_ in model.bonds:
+        nb[idx[a]].add(idx[b])
+        nb[idx[b]].add(idx[a])
+    dmat = np.sqrt(((xyz[:, None] - xyz[None]) ** 2).sum(-1))
+    np.fill_diagonal(dmat, 99.0)
+    close = np.argwhere(np.triu(dmat < 2.2))
+    bad = [(keys[i], keys[j], dmat[i, j]) for i, j in close if j not in nb[i]]
+    for i, j in close:
+        if j in nb[i] and dmat[i, j] > 2.6:
+            bad.append((keys[i], keys[j], dmat[i, j]))
+    adj = np.zeros((len(keys), len(keys)), np.float32)
+    for i, others in enumerate(nb):
+        adj[i, list(others)] = 1.0
+    reach = np.eye(len(keys), dtype=np.float32) + adj
+    reach = reach + reach @ adj
+    reach = reach + reach @ adj
+    nonb = adj == 0
+    far = reach == 0
+    print(f"   min non-bonded distance {dmat[nonb].min():.2f} A (all pairs), "
+          f"{dmat[far].min():.2f} A (pairs > 3 bonds apart)")
+    if bad:
+        fails.append(f"{len(bad)} non-bonded pairs < 2.2 A, e.g. {bad[0]}")
+    # protein atoms near cluster atoms
+    het = {(r.chain, r.seq) for r in model.residues if r.het}
+    clus = [k for c in model.cofactors if c["code"] in CLUSTERS for k in c["keys"]]
+    prot = [i for i, k in enumerate(keys) if (k[0], k[1]) not in het]
+    worst = 99.0
+    for k in clus:
+        i = idx[k]
+        for j in prot:
+            if j not in nb[i]:
+                worst = min(worst, dmat[i, j])
+    print(f"   closest non-ligand protein atom to a cluster atom: {worst:.2f} A")
+    if worst < 3.0:
+        fails.append(f"protein atom {worst:.2f} A from a cluster atom")
+    fails += _hops(model, coords)
+    fails += _special(model, coords)
+    return fails
+
+
+def _hops(model: Model, coords: dict[Key, Vec]) -> list[str]:
+    """Edge-to-edge distances of consecutive cofactors against the design rule."""
+    fails = []
+    red = [np.array([coords[k] for k in c["redox"]]) for c in model.cofactors]
+    labels = [f"{c['cls']} {c['keys'][0][0]}/{c['keys'][0][1]}" for c in model.cofactors]
+    print(f"   {'hop':44s} {'edge (A)':>8s} {'rule':>10s} {'best bypass':>11s}")
+    for i, (lo, hi) in enumerate(model.hop_rule):
+        e = pair_min(red[i], red[i + 1])
+        cross = min(pair_min(red[a], red[b]) for a in range(i + 1) for b in range(i + 1, len(red)))
+        print(f"   {labels[i] + ' -> ' + labels[i + 1]:44s} {e:8.2f} {f'{lo:g}-{hi:g}':>10s} {cross:11.2f}")
+        if not lo <= e <= hi:
+            fails.append(f"hop {i} edge {e:.2f} outside {lo}-{hi}")
+        if cross < e - 1e-6:
+            fails.append(f"hop {i} is bypassed by a shorter cross-link ({cross:.2f} A)")
+    cen = [r.mean(0) for r in red]
+    axis = unit(cen[-1] - cen[0])
+    bend = max(np.linalg.norm((c - cen[0]) - ((c - cen[0]) @ axis) * axis) for c in cen)
+    span = float(np.linalg.norm(cen[-1] - cen[0]))
+    print(f"   span entry->exit (redox-centroid distance) {span:.1f} A; largest off-axis offset {bend:.1f} A")
+    if bend < 2.0:
+        fails.append("wire is straight")
+    return fails
+
+
+def _special(model: Model, coords: dict[Key, Vec]) -> list[str]:
+    """Checks of the deliberate defects of rb3."""
+    fails, notes = [], model.notes
+    if "mutated_to_ala" in notes:
+        fe = coords[notes["mutated_metal"]]
+        sg = min(np.linalg.norm(v - fe) for k, v in coords.items() if k[2] == "SG")
+        seq, metal = notes["stretched"]
+        st = np.linalg.norm(coords[("A", seq, "SG")] - coords[("A", 502, metal)])
+        n_sf4 = sum(1 for k in coords if k[:2] == ("A", notes["missing_sulfide"][0]))
+        print(f"   defects: A/{notes['mutated_to_ala']} ALA -> nearest SG to {notes['mutated_metal'][2]} "
+              f"{sg:.2f} A; A/{seq} SG-Fe {st:.2f} A; SF4 A/{notes['missing_sulfide'][0]} has {n_sf4} atoms")
+        if sg < 3.5 or abs(st - 2.80) > 0.05 or n_sf4 != 7:
+            fails.append("rb3 defects not as designed")
+    return fails
+
+
+# ----------------------------------------------------------------------------- the example set
+def _title(code: str, text: str) -> str:
+    """Title line naming the invented scenario."""
+    return f"{SCENARIO} {code} (invented design model): {text}"
+
+
+RB1_SITES = [Site("FMN", 501, spin=0.0), Site("FES", 502, 7.4), Site("SF4", 503, 9.2), Site("SF4", 504, 10.1),
+             Site("F3S", 505, 8.6), Site("UQ1", 506, 7.1, spin=0.0)]
+RB5_SITES = [Site("FMN", 501, spin=0.0), Site("RSK", 502, 7.6), Site("SF4", 503, 9.4), Site("HEM", 504, 8.2)]
+WIRE = (6.0, 12.0)
+
+
+def build_all() -> dict[str, tuple[bytes, Model]]:
+    """Build every example; return file name -> (bytes, model)."""
+    out: dict[str, tuple[bytes, Model]] = {}
+    rb1 = build_design("rb1", _title("RB-1", "FMN entry, [2Fe-2S]-[4Fe-4S]-[4Fe-4S]-[3Fe-4S] relay, "
+                                               "ubiquinone exit; sound wire"), RB1_SITES, [WIRE] * 5)
+    box1 = recentre(rb1)
+    rb3 = variant_misligated(rb1)
+    rb3.title = _title("RB-3", "misligated variant of RB-1 (Cys-to-Ala, stretched Fe-SG, missing sulfide)")
+    rb4 = variant_split(rb1)
+    rb4.title = _title("RB-4", "RB-1 as a hand-built model writes it, clusters as single FE/S atoms")
+    # rb2: the first [4Fe-4S] is pushed sideways until its downstream hop is an 18 A relay gap
+    gap_sites = []
+    for site, cof in zip(RB1_SITES, rb1.cofactors):
+        s, lift, spin = cof["pose"]
+        gap_sites.append(Site(site.kind, site.seq, site.edge, s, lift, spin))
+    gap_sites[2] = Site("SF4", 503, 10.4, None, 0.0, None, gap_next=18.0)
+    rb2 = build_design("rb2", _title("RB-2", "RB-1 with the middle [4Fe-4S] displaced, 18 A relay gap"),
+                       gap_sites, [WIRE, WIRE, (17.0, 19.0), WIRE, WIRE])
+    box2 = recentre(rb2)
+    rb5 = build_design("rb5", _title("RB-5", "FMN entry, Rieske [2Fe-2S], [4Fe-4S], bis-His heme b exit"),
+                       RB5_SITES, [WIRE] * 3)
+    box5 = recentre(rb5)
+    xray = "X-RAY DIFFRACTION"
+    for fname, model, box, method, res in (("rb1_sound_wire.cif", rb1, box1, xray, 1.9),
+                                           ("rb2_gap.pdb", rb2, box2, xray, 2.1),
+                                           ("rb3_misligated.pdb.gz", rb3, box1, xray, 2.4),
+                                           ("rb4_split_atoms.pdb", rb4, box1, "THEORETICAL MODEL", None),
+                                           ("rb5_rieske_heme.cif", rb5, box5, xray, 1.8)):
+        out[fname] = (serialise(to_structure(model, box, method, res), fname), model)
+    return out
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Build (or only verify) the examples; return the exit status."""
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--out", type=Path, default=Path(__file__).resolve().parent, help="output directory")
+    ap.add_argument("--check", action="store_true", help="do not write: rebuild, compare and check the files")
+    args = ap.parse_args(argv)
+    built = build_all()
+    args.out.mkdir(parents=True, exist_ok=True)
+    fails: list[str] = []
+    for fname, (data, _) in built.items():
+        path = args.out / fname
+        if args.check:
+            if not path.exists() or path.read_bytes() != data:
+                fails.append(f"{fname}: file on disk differs from a fresh build")
+        else:
+            path.write_bytes(data)
+    for fname, (data, model) in built.items():
+        fails += [f"{fname}: {f}" for f in check_model(model, args.out / fname)]
+    print("\nsha256")
+    for fname, (data, _) in built.items():
+        print(f"   {hashlib.sha256(data).hexdigest()}  {fname}")
+    if fails:
+        print("\nCHECK FAILED:\n  " + "\n  ".join(fails), file=sys.stderr)
+        return 1
+    print("\nall design constraints hold")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

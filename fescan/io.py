@@ -617,11 +617,9 @@ def _apply_altloc_policy(m: gemmi.Model, policy: str) -> None:
     every chain and residue, so its indices match the model's); only residues
     holding such atoms are then visited in Python.
     """
-    if policy == "all":
+    if policy == "all" or m.count_atom_sites(_WITH_ALTLOC) == 0:
         return
     labelled = _WITH_ALTLOC.copy_model_selection(m)
-    if labelled.count_atom_sites() == 0:
-        return
     if len(labelled) != len(m):  # not expected: let gemmi keep the first altloc
         m.remove_alternative_conformations()
         return

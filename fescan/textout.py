@@ -7,7 +7,7 @@ from collections import Counter
 
 from fescan.scan import CAUTION, ScanResult
 
-__all__ = ["render_text", "format_time", "table"]
+__all__ = ["render_text", "format_time", "signed", "table"]
 
 
 def format_time(seconds: float | None) -> str:
@@ -27,6 +27,18 @@ def format_time(seconds: float | None) -> str:
             v = seconds / f
             return f"{v:.3g} {unit}"
     return f"{seconds / 1e-15:.3g} fs"
+
+
+def signed(x: float, digits: int = 3) -> str:
+    """Signed fixed-point text without a negative zero.
+
+    Examples
+    --------
+    >>> signed(-1e-9)
+    '+0.000'
+    """
+    v = round(float(x), digits)
+    return f"{(0.0 if v == 0 else v):+.{digits}f}"
 
 
 def table(headers: list[str], rows: list[list[str]]) -> str:
@@ -79,7 +91,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                                    f"{note} note{'s' * (note != 1)}" if note else "") if x) or "ok"
         pot = res.potentials[c.uid]
         rows.append([c.key, c.cls, c.ccd_code or "-", c.detected_by, str(len(c.atoms)), _ligand_summary(c),
-                     c.motif or "-", f"{pot.e_v:+.3f}", fl])
+                     c.motif or "-", signed(pot.e_v), fl])
     lines.append(f"Cofactors ({len(res.cofactors)})")
     lines.append(table(["cofactor", "class", "code", "found by", "atoms", "ligands", "motif", "E (V)", "checks"],
                        rows))
@@ -124,7 +136,7 @@ def _wire_text(res: ScanResult) -> list[str]:
         if h.symmetry:
             mark.append(f"symmetry mate {h.symmetry}")
         rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
-                     f"{h.dg:+.3f}", f"{h.log10_k_forward:.2f}", format_time(h.hop_time), ", ".join(mark)])
+                     signed(h.dg), f"{h.log10_k_forward:.2f}", format_time(h.hop_time), ", ".join(mark)])
     out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "log10 k", "hop time", ""],
                      rows))
     out.append(f"  bottleneck: {names[w.bottleneck.donor]} > {names[w.bottleneck.acceptor]} "

@@ -135,21 +135,31 @@ def _undirected_within(g: nx.DiGraph, limit: float) -> nx.Graph:
     return u
 
 
+def _centre(g: nx.DiGraph, n: str) -> np.ndarray:
+    return np.asarray(g.nodes[n]["cofactor"].centroid, dtype=float)
+
+
 def _farthest(u: nx.Graph, g: nx.DiGraph, source: str) -> str | None:
-    """Cofactor of the source's component that is most hops (then most Å) away."""
-    lengths = nx.single_source_shortest_path_length(u, source)
-    if len(lengths) < 2:
+    """Cofactor of the source's component (hops up to the cutoff) whose centre lies farthest away."""
+    comp = nx.node_connected_component(u, source) - {source}
+    if not comp:
         return None
-    src = np.asarray(g.nodes[source]["cofactor"].centroid)
-
-    def score(n):
-        return (lengths[n], float(np.linalg.norm(np.asarray(g.nodes[n]["cofactor"].centroid) - src)))
-
-    return max((n for n in lengths if n != source), key=score)
+    src = _centre(g, source)
+    return max(sorted(comp), key=lambda n: float(np.linalg.norm(_centre(g, n) - src)))
 
 
 def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOptions) -> tuple[str | None, str | None, str]:
     """Pick entry and exit: the user's, else a flavin → quinone/heme, else the longest chain.
+
+    Default rules (every hop up to the cutoff counts as a connection here, so a
+    relay gap shows up on the path instead of silently shortening the wire):
+
+    1. entry = the first flavin; exit = the quinone reached fastest from it,
+       else the heme reached fastest;
+    2. a flavin but no reachable quinone or heme: exit = the connected cofactor
+       whose centre lies farthest from the flavin;
+    3. no flavin: the two cofactors farthest apart (centre to centre) in the
+       connected group with the most cofactors.
 
     Returns
     -------
@@ -157,10 +167,11 @@ def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: Scan
     how : str
         Plain-words reason.
     """
+    order = {c.uid: k for k, c in enumerate(cofactors)}
+    u = _undirected_within(g, options.cutoff)
     if options.entry or options.exit:
         entry = find_cofactor(cofactors, options.entry).uid if options.entry else None
         exit_ = find_cofactor(cofactors, options.exit).uid if options.exit else None
-        u = _undirected_within(g, options.gap_limit)
         if entry and not exit_:
             exit_ = _farthest(u, g, entry)
         if exit_ and not entry:
@@ -168,7 +179,6 @@ def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: Scan
         return entry, exit_, "chosen by the user"
     if len(cofactors) < 2:
         return None, None, "fewer than two cofactors"
-    u = _undirected_within(g, options.gap_limit)
     flavins = [c.uid for c in cofactors if c.category == "flavin"]
     quinones = [c.uid for c in cofactors if c.category == "quinone"]
     hemes = [c.uid for c in cofactors if c.category == "heme"]
@@ -177,23 +187,22 @@ def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: Scan
         for kind, group in (("quinone", quinones), ("heme", hemes)):
             reach = [x for x in group if x in comp]
             if reach:
-                best = min(reach, key=lambda x: nx.dijkstra_path_length(g, entry, x, weight="hop_time"))
+                best = min(reach, key=lambda x: (nx.dijkstra_path_length(g, entry, x, weight="hop_time"), order[x]))
                 return entry, best, f"default: flavin entry, fastest-reached {kind} exit"
     if flavins:
         entry = flavins[0]
         far = _farthest(u, g, entry)
         if far is not None:
-            return entry, far, "default: flavin entry, farthest cofactor of its chain as exit"
-    # longest chain: the component with most cofactors, its two most distant ends (in hops)
-    comps = sorted(nx.connected_components(u), key=lambda c: (-len(c), sorted(c)))
+            return entry, far, "default: flavin entry, farthest connected cofactor as exit"
+    comps = sorted(nx.connected_components(u), key=lambda c: (-len(c), min(order[n] for n in c)))
     if not comps or len(comps[0]) < 2:
-        return None, None, "no two cofactors within the gap limit"
-    sub = u.subgraph(comps[0])
-    order = sorted(sub.nodes, key=lambda n: [c.uid for c in cofactors].index(n))
-    a = _farthest(sub, g, order[0])
-    b = _farthest(sub, g, a)
-    first, second = sorted((a, b), key=lambda n: [c.uid for c in cofactors].index(n))
-    return first, second, "default: the two ends of the longest chain"
+        return None, None, f"no two cofactors within {options.cutoff:g} Å"
+    nodes = sorted(comps[0], key=order.__getitem__)
+    a, b = max(
+        ((x, y) for i, x in enumerate(nodes) for y in nodes[i + 1:]),
+        key=lambda p: float(np.linalg.norm(_centre(g, p[0]) - _centre(g, p[1]))),
+    )
+    return a, b, "default: the two ends of the longest chain"
 
 
 def _mfpt(g: nx.DiGraph, entry: str, exit_: str) -> float:
