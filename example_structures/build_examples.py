@@ -583,7 +583,7 @@ def _filter(confs: list[dict[str, Vec]], env: np.ndarray, metal: Vec, lig: str, 
             margin = min(margin, float(d.min()) - thr)
         if margin >= 0:
             nxt, prv = _circle(conf["CA"], conf["C"], D_C_CA), _circle(conf["CA"], conf["N"], D_N_CA)
-            pen = [4 * _flat(np.sqrt(((pts[:, None] - env[None]) ** 2).sum(-1)).min(1), 4.0, 99) for pts in
+            pen = [4 * _flat(np.sqrt(((pts[:, None] - env[None]) ** 2).sum(-1)).min(1), 4.4, 99) for pts in
                    (nxt, prv)]
             scored.append((-margin, len(scored), conf, nxt, prv, pen[0], pen[1], margin))
     scored.sort(key=lambda t: (t[0], t[1]))
@@ -593,7 +593,7 @@ def _filter(confs: list[dict[str, Vec]], env: np.ndarray, metal: Vec, lig: str, 
 def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray) -> tuple[float, list[int]]:
     """Viterbi over ligands in sequence order; pair cost = loop closure + clash."""
     pools = [c[:-1] for c in cands]
-    cost = np.array([-0.2 * min(c[5], 1.0) for c in pools[0]])
+    cost = np.array([-0.2 * min(c[5], 1.0) + c[4].min() for c in pools[0]])
     back = []
     for i in range(1, len(pools)):
         a, b = pools[i - 1], pools[i]
@@ -606,18 +606,18 @@ def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray
         ca_a = np.array([c[0]["CA"] for c in a])
         ca_b = np.array([c[0]["CA"] for c in b])
         if k == 2:  # virtual angle at the single residue in between
-            tot += 4 * _flat(np.linalg.norm(ca_a[:, None] - ca_b[None], axis=-1), 5.5, 6.9)[:, :, None, None]
+            tot += 4 * _flat(np.linalg.norm(ca_a[:, None] - ca_b[None], axis=-1), 5.4, 7.1)[:, :, None, None]
         if k == 3:  # virtual angles at both residues in between
             tot += 4 * _flat(np.linalg.norm(ca_a[:, None, None, :] - prv[None, :, :, :], axis=-1),
-                             5.5, 6.9)[:, :, None, :]
+                             5.4, 7.1)[:, :, None, :]
             tot += 4 * _flat(np.linalg.norm(nxt[:, None, :, :] - ca_b[None, :, None, :], axis=-1),
-                             5.5, 6.9)[:, :, :, None]
+                             5.4, 7.1)[:, :, :, None]
         pair = tot.min(axis=(2, 3))
         xa = np.array([list(c[0].values()) for c in a])
         xb = np.array([list(c[0].values()) for c in b])
         close = np.sqrt(((xa[:, None, :, None] - xb[None, :, None, :]) ** 2).sum(-1)).min(axis=(2, 3))
         pair += 50.0 * (close < 3.2)
-        unary = np.array([-0.2 * min(c[5], 1.0) for c in b])
+        unary = np.array([-0.2 * min(c[5], 1.0) + (c[3].min() if i == len(pools) - 1 else 0.0) for c in b])
         tot2 = cost[:, None] + pair + unary[None, :]
         back.append(tot2.argmin(0))
         cost = tot2.min(0)
@@ -773,7 +773,7 @@ def relax_trace(x: np.ndarray, slots: list, obst: np.ndarray, obst_thr: np.ndarr
                 n_iter: int = 6000) -> np.ndarray:
     """Move the free CA atoms until spacing, virtual angles and clearances are satisfied.
 
-    Restraints: CA-CA 3.80 A; CA(i)-CA(i+2) 5.4-7.0 A (virtual angle ~90-135 deg); CA pairs three or
+    Restraints: CA-CA 3.80 A; CA(i)-CA(i+2) 5.3-7.2 A (virtual angle ~88-142 deg); CA pairs three or
     more apart >= 4.8 A; CA to cofactor/ligand atoms >= the per-atom threshold; next to a ligand
     residue, the CA sits where an ideal trans peptide reaches the fixed N or C.
     """
@@ -799,26 +799,27 @@ def relax_trace(x: np.ndarray, slots: list, obst: np.ndarray, obst_thr: np.ndarr
     res_idx = np.arange(n)
     near = np.abs(res_idx[:, None] - obst_res[None, :]) <= 1
     vel = np.zeros_like(x)
-    for it in range(n_iter):
+    for it in range(n_iter + 2000):
+        stiff, lr = (1.0, 0.01) if it < n_iter else (8.0, 0.002)  # final phase: exact spacing
         g = np.zeros_like(x)
-        _, gr = _fb(x[i1], x[i1 + 1], D_CA, D_CA, np.full(n - 1, 20.0))
+        _, gr = _fb(x[i1], x[i1 + 1], D_CA, D_CA, np.full(n - 1, 20.0 * stiff))
         np.add.at(g, i1, gr)
         np.add.at(g, i1 + 1, -gr)
-        _, gr = _fb(x[i2], x[i2 + 2], 5.4, 7.0, np.full(n - 2, 5.0))
+        _, gr = _fb(x[i2], x[i2 + 2], 5.3, 7.2, np.full(n - 2, 5.0))
         np.add.at(g, i2, gr)
         np.add.at(g, i2 + 2, -gr)
         _, gr = _fb(x[ii], x[jj], 4.8, 1e9, np.full(len(ii), 5.0))
         np.add.at(g, ii, gr)
         np.add.at(g, jj, -gr)
         if len(pi):
-            _, gr = _fb(x[pi], pp, plo, phi, pw)
+            _, gr = _fb(x[pi], pp, plo, phi, pw * np.where(plo == phi, stiff, 1.0))
             np.add.at(g, pi, gr)
         diff = x[:, None, :] - obst[None, :, :]
         d = np.maximum(np.linalg.norm(diff, axis=2), 1e-9)
         viol = np.where((d < obst_thr[None, :]) & ~near, d - obst_thr[None, :], 0.0)
         g += ((10.0 * viol / d)[:, :, None] * diff).sum(1)
         g[~free] = 0.0
-        vel = 0.85 * vel - 0.01 * g
+        vel = 0.85 * vel - lr * g
         step = np.linalg.norm(vel, axis=1, keepdims=True)
         vel = np.where(step > 0.2, vel * 0.2 / np.maximum(step, 1e-9), vel)
         x = x + vel

@@ -53,6 +53,7 @@ import logging
 import math
 import os
 import re
+import stat
 import zlib
 from dataclasses import asdict, dataclass
 from pathlib import Path
@@ -358,23 +359,32 @@ def read_structure(
 
 def _read_bytes(name: str) -> tuple[bytes, bool]:
     """Return the (decompressed) content of the file and whether it was gzip."""
-    p = Path(name)
-    if p.is_dir():
+    try:
+        mode = os.stat(name).st_mode
+    except (FileNotFoundError, NotADirectoryError) as exc:
+        raise StructureNotFound(f"{name}: no such file") from exc
+    except (OSError, ValueError) as exc:  # ValueError: NUL byte in the path
+        raise StructureFileError(f"{name}: cannot be read ({_os_reason(exc)})") from exc
+    if stat.S_ISDIR(mode):
         raise StructureNotFound(f"{name}: is a directory, not a structure file")
-    if not p.exists():
-        raise StructureNotFound(f"{name}: no such file")
-    if not p.is_file():
+    if not stat.S_ISREG(mode):
         raise StructureNotFound(f"{name}: not a regular file")
     try:
-        raw = p.read_bytes()
+        with open(name, "rb") as handle:
+            raw = handle.read()
     except OSError as exc:
-        raise StructureFileError(f"{name}: cannot be read ({exc.strerror or exc})") from exc
+        raise StructureFileError(f"{name}: cannot be read ({_os_reason(exc)})") from exc
     if not raw.startswith(_GZIP_MAGIC):
         return raw, False
     try:
         return gzip.decompress(raw), True
     except (OSError, EOFError, zlib.error) as exc:
         raise StructureFileError(f"{name}: damaged gzip data ({exc})") from exc
+
+
+def _os_reason(exc: Exception) -> str:
+    """The plain reason of an OSError (``Permission denied``...)."""
+    return getattr(exc, "strerror", None) or str(exc)
 
 
 def _check_text(name: str, data: bytes) -> str:
@@ -456,27 +466,32 @@ def _atom_block(doc: gemmi.cif.Document) -> gemmi.cif.Block:
 
 def _check_pdb_coordinates(name: str, data: bytes) -> None:
     """Raise CoordinateError for the first ATOM/HETATM line with bad coordinates."""
-    if _PDB_ATOM_START.match(data):  # the first line has no newline before it
-        _check_pdb_line(name, data, 0)
+    end = _check_pdb_line(name, data, 0) if _PDB_ATOM_START.match(data) else 0
     search = _SUSPECT_PDB_LINE.search
-    match = search(data)
-    while match is not None:
+    match = search(data, end)
+    while match is not None:  # each match is a suspect line, usually none at all
         end = _check_pdb_line(name, data, match.start() + 1)
         match = search(data, end)
 
 
 def _check_pdb_line(name: str, data: bytes, start: int) -> int:
-    """Check the line starting at ``start``; return the offset of its newline."""
+    """Check the line starting at ``start``; return where to search on from.
+
+    Raises CoordinateError for a real problem, unless an END record comes
+    before the line: gemmi stops reading there, so the check stops too.
+    """
     end = data.find(b"\n", start)
     if end < 0:
         end = len(data)
     line = data[start:end]
     problem = _coordinate_problem(line)
-    if problem is not None and not _PDB_END.search(data, 0, start):  # gemmi stops at END
-        lineno = data.count(b"\n", 0, start) + 1
-        shown = line.rstrip().decode("ascii", "replace")[:80]
-        raise CoordinateError(f"{name}: line {lineno}: {problem}: {shown!r}")
-    return end
+    if problem is None:
+        return end
+    if _PDB_END.search(data, 0, start):
+        return len(data)
+    lineno = data.count(b"\n", 0, start) + 1
+    shown = line.rstrip().decode("ascii", "replace")[:80]
+    raise CoordinateError(f"{name}: line {lineno}: {problem}: {shown!r}")
 
 
 def _coordinate_problem(line: bytes) -> str | None:

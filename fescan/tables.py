@@ -118,6 +118,32 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("mean_first_passage_time_s", "float64", "s", "MFPT entry → exit (estimate)"),
         ("isolated", "string", "", "cofactors with no partner within the gap limit"),
     ),
+    "structures": _cols(
+        ("file", "string", "", "structure file"),
+        ("entry_id", "string", "", "PDB ID from the header, else the file name stem (empty when failed)"),
+        ("title", "string", "", "title of the entry"),
+        ("method", "string", "", "experimental method as written in the file"),
+        ("resolution", "float64", "Å", "resolution (empty when the file gives none)"),
+        ("n_models", "Int64", "", "models in the file"),
+        ("n_atoms", "Int64", "", "atoms of the model read (after the altloc and hydrogen policies)"),
+        ("n_iron_sulfur", "Int64", "", "cofactors of category iron-sulfur"),
+        ("n_flavin", "Int64", "", "cofactors of category flavin"),
+        ("n_quinone", "Int64", "", "cofactors of category quinone"),
+        ("n_heme", "Int64", "", "cofactors of category heme"),
+        ("n_copper", "Int64", "", "cofactors of category copper"),
+        ("n_iron", "Int64", "", "cofactors of category iron"),
+        ("n_metal", "Int64", "", "cofactors of category metal"),
+        ("n_cofactors", "Int64", "", "cofactors found"),
+        ("n_flags", "Int64", "", "flags of the checks (warnings and notes)"),
+        ("status", "string", "", "ok or failed (then see the failures table)"),
+        ("seconds", "float64", "s", "wall time of the analysis of this file"),
+    ),
+    "failures": _cols(
+        ("file", "string", "", "structure file"),
+        ("error_class", "string", "", "exception class, or Timeout / WorkerCrash"),
+        ("message", "string", "", "what went wrong, in plain words"),
+        ("reason", "string", "", "error, timeout, memory or crash"),
+    ),
 }
 
 

@@ -101,9 +101,10 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                 continue
             lines.append("")
             lines.append(f"{c.label}  ({', '.join(c.residues[:4])}{' ...' if len(c.residues) > 4 else ''})")
-            for lig in c.ligands:
-                lines.append(f"    {lig.metal:<5} - {lig.atom.resname} {lig.atom.residue} {lig.atom.name:<4} "
-                             f"{lig.distance:5.2f} Å  {lig.kind}")
+            lig_rows = [[lig.metal, f"{lig.atom.resname} {lig.atom.residue}", lig.atom.name,
+                         f"{lig.distance:.2f} Å", lig.kind] for lig in c.ligands]
+            if lig_rows:
+                lines += ["    " + ln for ln in table(["metal", "ligand", "atom", "distance", "kind"], lig_rows).splitlines()]
             for f in c.flags:
                 lines.append(f"    [{f.severity}] {f.message}")
     lines.append("")

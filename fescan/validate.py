@@ -130,6 +130,7 @@ def find_ligands(
                            distance=d, kind=ligand_kind(ref.resname, ref.name, ref.element)))
             )
             ligand_rows.add(j)
+    ligands.sort(key=lambda t: (t[1].metal, t[1].distance))
     clashes = []
     for c in sorted(core_rows):
         for j in tree.query_ball_point(env.xyz[c], r=CLASH_MAX):

@@ -5,6 +5,7 @@ from __future__ import annotations
 import gzip
 import json
 import math
+import os
 import random
 import re
 import shutil
@@ -349,6 +350,23 @@ def test_errors_are_builtin_too(tmp_path: Path) -> None:
         read_structure(tmp_path / "nothing.cif")
     with pytest.raises(ValueError):
         read_structure(write(tmp_path, "nan.pdb", replace_field(small_pdb(), 1, 31, "nan")))
+
+
+def test_odd_paths(tmp_path: Path) -> None:
+    with pytest.raises(StructureFileError, match=r"cannot be read"):
+        read_structure(str(tmp_path / "nul\0byte.pdb"))
+    fifo = tmp_path / "pipe.pdb"
+    os.mkfifo(fifo)
+    with pytest.raises(StructureNotFound, match=r"pipe.pdb: not a regular file"):
+        read_structure(fifo)
+
+
+def test_zero_occupancy_everywhere_is_not_a_coordinate_error(tmp_path: Path) -> None:
+    """gemmi's centre of mass is 0/0 = NaN here; the atoms themselves are fine."""
+    text = pdb_atom(1, "N", "ALA", 1, (1, 2, 3), occ=0.0) + pdb_atom(
+        2, "CA", "ALA", 1, (2, 2, 3), occ=0.0
+    )
+    assert read_structure(write(tmp_path, "zero.pdb", text)).info.n_atoms == 2
 
 
 def test_gemmi_alone_accepts_what_we_reject(tmp_path: Path) -> None:

@@ -91,8 +91,8 @@ class _Builder:
         """Extract, once, every residue near the given points (metal and heme Fe atoms)."""
         self.env = self.index.environment(points, radius=12.5) if len(points) else None
         if self.env is not None and len(self.env):
-            self._env_key = {(int(r), int(o)): i for i, (r, o) in
-                             enumerate(zip(self.env.res_id, self.env.ordinal))}
+            self._env_key = dict(zip(zip(self.env.res_id.tolist(), self.env.ordinal.tolist()),
+                                     range(len(self.env))))
             self._env_tree = cKDTree(self.env.xyz)
 
     # -- helpers ---------------------------------------------------------
@@ -124,7 +124,8 @@ class _Builder:
 
     def _env_rows(self, cand_rows) -> list[int]:
         key = self._env_key
-        return [key[(int(self.cand.res_id[c]), int(self.cand.ordinal[c]))] for c in cand_rows]
+        rid, ordn = self.cand.res_id, self.cand.ordinal
+        return [key[(int(rid[c]), int(ordn[c]))] for c in cand_rows]
 
     # -- organic cofactors ----------------------------------------------
     def heme_iron(self) -> dict[int, int]:
