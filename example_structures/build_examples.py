@@ -453,6 +453,19 @@ class Lig:
     lig_atom: str
     offset: int
     dist: float
+    targets: dict[int, Vec] = field(default_factory=dict)  # preferred CA of residue -1 / +1
+
+
+@dataclass
+class Cand:
+    """A ligand conformer with the places its sequence neighbours' CA may take."""
+
+    atoms: dict[str, Vec]
+    nxt: np.ndarray  # candidate CA(i+1), shape (S, 3)
+    prv: np.ndarray  # candidate CA(i-1)
+    pen_n: np.ndarray  # clash penalty of each CA(i+1) choice (its peptide O and N included)
+    pen_p: np.ndarray
+    margin: float
 
 
 def _backbone_from(side: Vec, cb: Vec, ca: Vec, chi: float) -> tuple[Vec, Vec]:
@@ -504,7 +517,7 @@ def his_conformers(cof: Cof, metal: str, dirv: Vec, dist: float, lig: str) -> li
     return out
 
 
-def _circle(ca: Vec, other: Vec, along: float, n: int = 8) -> np.ndarray:
+def _circle(ca: Vec, other: Vec, along: float, n: int = 12) -> np.ndarray:
     """Points where a neighbouring CA can sit (3.8 A from ``ca``, ``along`` fixed by ``other``)."""
     e = unit(other - ca)
     dist_o = float(np.linalg.norm(other - ca))
@@ -539,72 +552,95 @@ def lig_dist(kind: str, res: str) -> float:
     return FE_SG["FES" if kind == "RSK" else kind]
 
 
+def _coeffs(origin: Vec, u: Vec, v: Vec, pts: dict[str, Vec]) -> dict[str, Vec]:
+    """In-plane coefficients of peptide atoms on the basis (u, v) of the ideal peptide."""
+    m = np.column_stack([u, v])
+    return {k: np.linalg.lstsq(m, p - origin, rcond=None)[0] for k, p in pts.items()}
+
+
+NEXT_COEF = _coeffs(PEP["CA0"], PEP["C"] - PEP["CA0"], PEP["CA1"] - PEP["CA0"], {"O": PEP["O"], "N": PEP["N"]})
+PREV_COEF = _coeffs(PEP["CA1"], PEP["N"] - PEP["CA1"], PEP["CA0"] - PEP["CA1"], {"C": PEP["C"], "O": PEP["O"]})
+
+
 def search_ligands(kind: str, cof: Cof, obstacles: np.ndarray, index: int) -> tuple[float, list[Lig]]:
     """Choose ligand conformations (and their metals) that can be closed by the motif spacing."""
     motif = MOTIFS[kind]
-    own = cof.xyz
-    env = np.vstack([obstacles, own]) if len(obstacles) else own
-    pools: dict[tuple[str, int, str], list] = {}
+    env = np.vstack([obstacles, cof.xyz]) if len(obstacles) else cof.xyz
+    pools: dict[tuple[str, int, str], list[Cand]] = {}
     best: tuple[float, list[Lig]] = (np.inf, [])
     for assign in assignments(kind):
         cands = []
-        for (offset, res), (metal, di) in zip(motif, assign):
+        for (_, res), (metal, di) in zip(motif, assign):
             key = (metal, di, res)
             if key not in pools:
-                dirv = cof.lig_dirs[metal][di]
+                dirv, dist = cof.lig_dirs[metal][di], lig_dist(kind, res)
                 lig = "SG" if res == "CYS" else ("ND1" if kind == "RSK" else "NE2")
-                dist = lig_dist(kind, res)
                 confs = (cys_conformers(cof, metal, dirv, dist) if res == "CYS"
                          else his_conformers(cof, metal, dirv, dist, lig))
-                pools[key] = _filter(confs, env, cof.at(metal), lig) + [lig]
+                pools[key] = _filter(confs, env, cof.at(metal), lig)
             cands.append(pools[key])
-        if any(len(c) == 1 for c in cands):
+        if any(not c for c in cands):
             continue
-        total, choice = _dp_ligands(motif, cands, env)
+        total, choice, samples = _dp_ligands(motif, cands)
         if total < best[0]:
-            ligs = [Lig(res, cands[i][j][0], index, metal, cands[i][-1], off,
-                        lig_dist(kind, res)) for i, ((off, res), (metal, _), j) in
-                    enumerate(zip(motif, assign, choice))]
+            ligs = []
+            for i, ((off, res), (metal, _)) in enumerate(zip(motif, assign)):
+                c = cands[i][choice[i]]
+                lig = "SG" if res == "CYS" else ("ND1" if kind == "RSK" else "NE2")
+                tg = {-1: c.prv[samples[i][0]], 1: c.nxt[samples[i][1]]}
+                ligs.append(Lig(res, c.atoms, index, metal, lig, off, lig_dist(kind, res), tg))
             best = (total, ligs)
     return best
 
 
-def _filter(confs: list[dict[str, Vec]], env: np.ndarray, metal: Vec, lig: str, keep: int = 24) -> list:
-    """Keep the conformers with the most room (backbone >= 3.4 A, side chain >= 3.0 A from others)."""
+def _filter(confs: list[dict[str, Vec]], env: np.ndarray, metal: Vec, lig: str, keep: int = 24) -> list[Cand]:
+    """Keep the conformers with the most room (backbone >= 3.4 A, side chain >= 3.05 A from others)."""
     scored = []
+    not_metal = np.sqrt(((env - metal) ** 2).sum(1)) > 0.01
     for conf in confs:
         margin = np.inf
         for name, pos in conf.items():
             if name == lig:
                 continue
+            bb = name in ("N", "CA", "C")
             d = np.sqrt(((env - pos) ** 2).sum(1))
-            d = d[np.sqrt(((env - metal) ** 2).sum(1)) > 0.01] if name not in ("N", "CA", "C") else d
-            thr = 3.4 if name in ("N", "CA", "C") else 3.05
-            margin = min(margin, float(d.min()) - thr)
-        if margin >= 0:
-            nxt, prv = _circle(conf["CA"], conf["C"], D_C_CA), _circle(conf["CA"], conf["N"], D_N_CA)
-            pen = [4 * _flat(np.sqrt(((pts[:, None] - env[None]) ** 2).sum(-1)).min(1), 4.4, 99) for pts in
-                   (nxt, prv)]
-            scored.append((-margin, len(scored), conf, nxt, prv, pen[0], pen[1], margin))
+            margin = min(margin, float((d if bb else d[not_metal]).min()) - (3.4 if bb else 3.05))
+        if margin < 0:
+            continue
+        ca, own = conf["CA"], np.array([p for n, p in conf.items() if n not in ("N", "CA", "C")])
+        nxt, prv = _circle(ca, conf["C"], D_C_CA), _circle(ca, conf["N"], D_N_CA)
+        pens = []
+        for pts, ref, coef in ((nxt, conf["C"], NEXT_COEF), (prv, conf["N"], PREV_COEF)):
+            pen = 4 * _flat(np.sqrt(((pts[:, None] - env[None]) ** 2).sum(-1)).min(1), 4.4, 99)
+            for a, b in coef.values():
+                atom = ca + a * (ref - ca) + b * (pts - ca)
+                pen += 10 * _flat(np.sqrt(((atom[:, None] - env[None]) ** 2).sum(-1)).min(1), 3.2, 99)
+                pen += 10 * _flat(np.sqrt(((atom[:, None] - own[None]) ** 2).sum(-1)).min(1), 2.95, 99)
+            pens.append(pen)
+        scored.append((-margin, len(scored), Cand(conf, nxt, prv, pens[0], pens[1], margin)))
     scored.sort(key=lambda t: (t[0], t[1]))
-    return [(c, nx, pv, pn, pp, mg) for _, _, c, nx, pv, pn, pp, mg in scored[:keep]]
+    return [c for _, _, c in scored[:keep]]
 
 
-def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray) -> tuple[float, list[int]]:
-    """Viterbi over ligands in sequence order; pair cost = loop closure + clash."""
-    pools = [c[:-1] for c in cands]
-    cost = np.array([-0.2 * min(c[5], 1.0) + c[4].min() for c in pools[0]])
-    back = []
+def _dp_ligands(motif: list[tuple[int, str]], pools: list[list[Cand]]) -> tuple[float, list[int], list]:
+    """Viterbi over the ligands in sequence order; pair cost = loop closure + clashes.
+
+    Returns the cost, the chosen conformer of each ligand and, per ligand, the chosen
+    (CA(i-1), CA(i+1)) sample indices.
+    """
+    last = len(pools) - 1
+    cost = np.array([-0.2 * min(c.margin, 1.0) + c.pen_p.min() for c in pools[0]])
+    back, picks = [], []
     for i in range(1, len(pools)):
         a, b = pools[i - 1], pools[i]
         k = motif[i][0] - motif[i - 1][0]
-        nxt = np.array([c[1] for c in a])
-        prv = np.array([c[2] for c in b])
+        nxt = np.array([c.nxt for c in a])
+        prv = np.array([c.prv for c in b])
         d = np.sqrt(((nxt[:, None, :, None, :] - prv[None, :, None, :, :]) ** 2).sum(-1))
-        tot = _closure(k, d) + np.array([c[3] for c in a])[:, None, :, None] + \
-            np.array([c[4] for c in b])[None, :, None, :]
-        ca_a = np.array([c[0]["CA"] for c in a])
-        ca_b = np.array([c[0]["CA"] for c in b])
+        tot = _closure(k, d) + np.array([c.pen_n for c in a])[:, None, :, None] + \
+            np.array([c.pen_p for c in b])[None, :, None, :]
+        ca_a = np.array([c.atoms["CA"] for c in a])
+        ca_b = np.array([c.atoms["CA"] for c in b])
         if k == 2:  # virtual angle at the single residue in between
             tot += 4 * _flat(np.linalg.norm(ca_a[:, None] - ca_b[None], axis=-1), 5.4, 7.1)[:, :, None, None]
         if k == 3:  # virtual angles at both residues in between
@@ -612,12 +648,14 @@ def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray
                              5.4, 7.1)[:, :, None, :]
             tot += 4 * _flat(np.linalg.norm(nxt[:, None, :, :] - ca_b[None, :, None, :], axis=-1),
                              5.4, 7.1)[:, :, :, None]
-        pair = tot.min(axis=(2, 3))
-        xa = np.array([list(c[0].values()) for c in a])
-        xb = np.array([list(c[0].values()) for c in b])
+        flat = tot.reshape(len(a), len(b), -1)
+        pair = flat.min(-1)
+        picks.append(np.array(np.unravel_index(flat.argmin(-1), tot.shape[2:])))  # (2, na, nb)
+        xa = np.array([list(c.atoms.values()) for c in a])
+        xb = np.array([list(c.atoms.values()) for c in b])
         close = np.sqrt(((xa[:, None, :, None] - xb[None, :, None, :]) ** 2).sum(-1)).min(axis=(2, 3))
         pair += 50.0 * (close < 3.2)
-        unary = np.array([-0.2 * min(c[5], 1.0) + (c[3].min() if i == len(pools) - 1 else 0.0) for c in b])
+        unary = np.array([-0.2 * min(c.margin, 1.0) + (c.pen_n.min() if i == last else 0.0) for c in b])
         tot2 = cost[:, None] + pair + unary[None, :]
         back.append(tot2.argmin(0))
         cost = tot2.min(0)
@@ -627,7 +665,14 @@ def _dp_ligands(motif: list[tuple[int, str]], cands: list[list], env: np.ndarray
     for bp in reversed(back):
         j = int(bp[j])
         choice.append(j)
-    return total, choice[::-1]
+    choice = choice[::-1]
+    samples = [[0, 0] for _ in pools]
+    samples[0][0] = int(pools[0][choice[0]].pen_p.argmin())
+    samples[last][1] = int(pools[last][choice[last]].pen_n.argmin())
+    for i, pk in enumerate(picks, start=1):
+        samples[i - 1][1] = int(pk[0][choice[i - 1], choice[i]])
+        samples[i][0] = int(pk[1][choice[i - 1], choice[i]])
+    return total, choice, samples
 
 
 def place_sites(sites: list[Site]) -> tuple[list[Cof], list[Lig], list[tuple[float, float, float]]]:
@@ -790,6 +835,7 @@ def relax_trace(x: np.ndarray, slots: list, obst: np.ndarray, obst_thr: np.ndarr
         for nb, key, dd in ((r + 1, "C", D_C_CA), (r - 1, "N", D_N_CA)):
             if 0 <= nb < n and slots[nb] is None:
                 pi.append(nb), pp.append(g.atoms[key]), plo.append(dd), phi.append(dd), pw.append(20.0)
+                pi.append(nb), pp.append(g.targets[nb - r]), plo.append(0.0), phi.append(0.6), pw.append(5.0)
                 for name, pos in g.atoms.items():
                     if name not in ("N", "CA", "C"):
                         lo = 3.3 if name == "CB" else 3.6

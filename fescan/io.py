@@ -61,6 +61,13 @@ from typing import Any
 
 import gemmi
 
+try:  # ISA-L gzip is ~3x faster than zlib on structure files; zlib stays as the fallback
+    from isal.igzip import decompress as _gunzip
+    from isal.isal_zlib import error as _IsalError
+except ImportError:  # pragma: no cover - isal is a dependency, but keep the reader working
+    _gunzip = gzip.decompress
+    _IsalError = zlib.error
+
 from fescan.errors import (
     ConfigError,
     CoordinateError,
@@ -377,8 +384,8 @@ def _read_bytes(name: str) -> tuple[bytes, bool]:
     if not raw.startswith(_GZIP_MAGIC):
         return raw, False
     try:
-        return gzip.decompress(raw), True
-    except (OSError, EOFError, zlib.error) as exc:
+        return _gunzip(raw), True
+    except (OSError, EOFError, zlib.error, _IsalError) as exc:
         raise StructureFileError(f"{name}: damaged gzip data ({exc})") from exc
 
 
