@@ -314,7 +314,7 @@ def build_heme() -> Cof:
     return cof
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def template(kind: str) -> Cof:
     """Local-frame cofactor of a site kind (x = wire direction, redox edge facing -x/+x)."""
     if kind == "FMN":
@@ -742,13 +742,13 @@ def _wire_point(x: Vec) -> Vec:
 
 
 def _next_ca(lig: Lig) -> Vec:
-    """Centre of the circle on which CA(i+1) of a ligand residue lies."""
-    return _circle(lig.atoms["CA"], lig.atoms["C"], D_C_CA).mean(0)
+    """Chosen position of CA(i+1) of a ligand residue."""
+    return lig.targets[1]
 
 
 def _prev_ca(lig: Lig) -> Vec:
-    """Centre of the circle on which CA(i-1) of a ligand residue lies."""
-    return _circle(lig.atoms["CA"], lig.atoms["N"], D_N_CA).mean(0)
+    """Chosen position of CA(i-1) of a ligand residue."""
+    return lig.targets[-1]
 
 
 def chain_plan(sites: list[Site], cofs: list[Cof], ligs: list[Lig], tail: int = 7) -> tuple[list, np.ndarray]:
@@ -904,10 +904,7 @@ def backbone(ca: np.ndarray, slots: list, obst: np.ndarray, obst_thr: np.ndarray
                 dst = np.array([a, slots[p + 1].atoms["N"], b])
             r, t = kabsch(src, dst)
             st = np.array([[PEP[k] @ r.T + t for k in ("C", "O", "N")]])
-            if slots[p] is not None:
-                st[0, 0] = slots[p].atoms["C"]
-            if slots[p + 1] is not None:
-                st[0, 2] = slots[p + 1].atoms["N"]
+            st[0] += (dst[1] - st[0, 0 if slots[p] is not None else 2])  # keep the ligand's own C / N
         else:
             ex = unit(b - a)
             ey = unit(np.cross(ex, [0.3, 0.4, 0.87]))

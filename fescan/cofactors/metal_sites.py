@@ -55,11 +55,15 @@ class MetalSite:
     bonds: list[tuple[int, int]]
 
 
-def _inorganic_mask(atoms: AtomArrays, tree: cKDTree) -> np.ndarray:
-    """True for S/Se/C/N atoms with no organic neighbour within bonding distance."""
+def _inorganic_mask(atoms: AtomArrays, tree: cKDTree, near_metal: np.ndarray) -> np.ndarray:
+    """True for S/Se/C/N atoms near a metal with no organic neighbour within bonding distance.
+
+    Only atoms within bridging distance of a metal (``near_metal``) are examined:
+    an inorganic atom far from every metal can join no site anyway.
+    """
     el = atoms.element
     mask = np.zeros(len(atoms), dtype=bool)
-    cand = np.flatnonzero(np.isin(el, list(_BRIDGE_S | _INTERSTITIAL)))
+    cand = near_metal[np.isin(el[near_metal], list(_BRIDGE_S | _INTERSTITIAL))]
     if len(cand) == 0:
         return mask
     hits = tree.query_ball_point(atoms.xyz[cand], r=ORGANIC_BOND_MAX)
@@ -92,13 +96,16 @@ def find_metal_sites(
     if n == 0:
         return []
     el = atoms.element
-    tree = cKDTree(atoms.xyz)
-    inorganic = _inorganic_mask(atoms, tree)
     is_metal = np.isin(el, list(METALS))
     for i in exclude:
         is_metal[i] = False
-    g = nx.Graph()
     seeds = np.flatnonzero(is_metal)
+    if len(seeds) == 0:
+        return []
+    tree = cKDTree(atoms.xyz)
+    near = sorted({j for h in tree.query_ball_point(atoms.xyz[seeds], r=METAL_BRIDGE_MAX) for j in h})
+    inorganic = _inorganic_mask(atoms, tree, np.asarray(near, dtype=int))
+    g = nx.Graph()
     g.add_nodes_from(int(i) for i in seeds)
     bonds: list[tuple[int, int]] = []
     for i, nbrs in zip(seeds, tree.query_ball_point(atoms.xyz[seeds], r=MN_LINK_MAX)):
