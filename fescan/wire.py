@@ -251,6 +251,13 @@ def trace_wire(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOption
     w.gaps = [h for h in w.hops if h.gap or h.slow]
     w.summed_hop_time = float(sum(h.hop_time for h in w.hops))
     w.mean_first_passage_time = _mfpt(g, entry, exit_)
+    ratio = w.mean_first_passage_time / w.summed_hop_time if w.summed_hop_time > 0 else 1.0
+    if ratio > 3.0:
+        uphill = [h for h in w.hops if h.dg > 0.01]
+        why = (f"{len(uphill)} uphill hop(s) on the path (largest ΔG {max(h.dg for h in uphill):+.2f} eV)"
+               if uphill else "downhill detours off the path")
+        w.notes.append(f"the mean first-passage time is {ratio:.3g} times the summed hop time: back hops "
+                       f"dominate ({why}); check the potentials used")
     on_path = set(path)
     comp = set().union(*(nx.node_connected_component(u, n) for n in path))
     for n in sorted(comp - on_path, key=lambda n: [c.uid for c in cofactors].index(n)):
