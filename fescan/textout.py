@@ -109,6 +109,14 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                 lines.append(f"    [{f.severity}] {f.message}")
     lines.append("")
     lines += _wire_text(res)
+    if res.all_pairs:
+        lines += ["", f"Fastest path of every connected pair ({len(res.all_pairs)})"]
+        names = {c.uid: c.label for c in res.cofactors}
+        rows = [[names[r["entry"]], names[r["exit"]], str(len(r["path"]) - 1), f"{r['max_edge_distance']:.2f}",
+                 format_time(r["summed_hop_time_s"]),
+                 ", ".join(x for x, on in (("gap", r["has_gap"]), ("slow hop", r["has_slow_hop"])) if on)]
+                for r in res.all_pairs]
+        lines.append(table(["entry", "exit", "hops", "longest hop Å", "summed hop time", ""], rows))
     return "\n".join(lines)
 
 

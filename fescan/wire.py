@@ -279,6 +279,7 @@ def all_pair_paths(g: nx.DiGraph, options: ScanOptions) -> list[dict]:
             out.append({
                 "entry": src, "exit": dst, "path": paths[dst], "summed_hop_time_s": t,
                 "max_edge_distance": max(h.edge for h in hops),
-                "has_gap": any(h.gap or h.slow for h in hops),
+                "has_gap": any(h.gap for h in hops),
+                "has_slow_hop": any(h.slow for h in hops),
             })
     return out
