@@ -4,6 +4,7 @@ Public API::
 
     fescan.scan(path, entry=None, exit=None, **options) -> ScanResult
     fescan.log10_hop_rate(distance, dg, reorg=0.7, packing_density=0.76)
+    fescan.compare(model_path, reference_path, **options) -> CompareResult
 
 Rates and times are estimates from the empirical Moser-Dutton law, not measurements.
 """
@@ -12,6 +13,7 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
+from fescan.compare import CompareResult, compare  # noqa: E402
 from fescan.errors import (  # noqa: E402
     CofactorNotFound,
     ConfigError,
@@ -29,6 +31,8 @@ __all__ = [
     "ScanResult",
     "ScanOptions",
     "log10_hop_rate",
+    "compare",
+    "CompareResult",
     "FescanError",
     "StructureFileError",
     "CofactorNotFound",

@@ -48,6 +48,8 @@ class Hop:
         Forward rate below the turnover threshold.
     symmetry : str
         Symmetry operator applied to one partner, empty in the asymmetric unit.
+    packing_density : float
+        Packing density ρ used for this hop (default or measured).
     """
 
     donor: str
@@ -64,6 +66,7 @@ class Hop:
     gap: bool
     slow: bool
     symmetry: str = ""
+    packing_density: float = 0.76
 
     def to_dict(self) -> dict:
         """JSON-ready record (distances in Å, energies in eV, rates in s⁻¹, time in s)."""
@@ -82,6 +85,7 @@ class Hop:
             "gap": self.gap,
             "slow": self.slow,
             "symmetry": self.symmetry,
+            "packing_density": round(self.packing_density, 4),
         }
 
 
@@ -91,6 +95,7 @@ def build_cofactor_graph(
     potentials: Mapping[str, Potential],
     options: ScanOptions,
     reorgs: Mapping[str, float] | None = None,
+    packing: Mapping[tuple[int, int], float] | None = None,
 ) -> nx.DiGraph:
     """Build the directed cofactor graph with Moser–Dutton rates on every edge.
 
@@ -106,6 +111,9 @@ def build_cofactor_graph(
     reorgs : mapping of uid to float, optional
         Per-cofactor λ (eV) from the user's file; a hop uses the mean of its
         two cofactors' values (the default λ standing in for one without).
+    packing : mapping of (i, j) to float, optional
+        Measured packing density per pair (indices as in ``pairs``); pairs
+        missing from it use ``options.packing_density``.
 
     Returns
     -------
@@ -115,6 +123,7 @@ def build_cofactor_graph(
         ``hop_time`` (s), ``edge`` (Å) for the path algorithms.
     """
     reorgs = reorgs or {}
+    packing = packing or {}
     g = nx.DiGraph()
     for c in cofactors:
         g.add_node(c.uid, cofactor=c, potential=potentials[c.uid])
@@ -123,11 +132,12 @@ def build_cofactor_graph(
         lam = options.reorg
         if a.uid in reorgs or b.uid in reorgs:
             lam = hop_reorganisation(reorgs.get(a.uid, options.reorg), reorgs.get(b.uid, options.reorg))
+        rho = float(packing.get((p.i, p.j), options.packing_density))
         for d, acc in ((a, b), (b, a)):
             dg = dg_from_potentials(potentials[d.uid].e_v, potentials[acc.uid].e_v)
-            lf = float(log10_hop_rate(p.edge, dg, reorg=lam, packing_density=options.packing_density,
+            lf = float(log10_hop_rate(p.edge, dg, reorg=lam, packing_density=rho,
                                       temperature=options.temperature))
-            lb = float(log10_hop_rate(p.edge, -dg, reorg=lam, packing_density=options.packing_density,
+            lb = float(log10_hop_rate(p.edge, -dg, reorg=lam, packing_density=rho,
                                       temperature=options.temperature))
             kf, kb = 10.0**lf, 10.0**lb
             hop = Hop(
@@ -135,6 +145,7 @@ def build_cofactor_graph(
                 log10_k_forward=lf, log10_k_back=lb, k_forward=kf, k_back=kb,
                 hop_time=1.0 / kf if kf > 0 else float("inf"),
                 gap=p.edge > options.gap_limit, slow=kf < options.rate_threshold, symmetry=p.symmetry,
+                packing_density=rho,
             )
             g.add_edge(d.uid, acc.uid, hop=hop, hop_time=hop.hop_time, edge=p.edge)
     return g

@@ -41,6 +41,12 @@ class ScanOptions:
         Selectors (``CHAIN/RESNUM``) of the entry and exit cofactors.
     all_pairs : bool
         Also compute the fastest path between every connected pair.
+    packing : str
+        ``"default"`` (ρ = ``packing_density`` for every hop) or ``"measured"``
+        (ρ measured from the protein atoms between the two cofactors, see
+        :mod:`fescan.packing`).
+    packing_scale : float
+        Factor applied to measured ρ values (clipped to 1).
     """
 
     model: int = 1
@@ -56,6 +62,8 @@ class ScanOptions:
     entry: str | None = None
     exit: str | None = None
     all_pairs: bool = False
+    packing: str = "default"
+    packing_scale: float = 1.0
 
     def __post_init__(self) -> None:
         if not isinstance(self.model, int) or self.model < 1:
@@ -66,6 +74,10 @@ class ScanOptions:
             v = getattr(self, name)
             if not isinstance(v, (int, float)) or not v > 0:
                 raise ConfigError(f"{name} must be a positive number, got {v!r}")
+        if self.packing not in ("default", "measured"):
+            raise ConfigError(f"packing must be 'default' or 'measured', got {self.packing!r}")
+        if not isinstance(self.packing_scale, (int, float)) or not self.packing_scale > 0:
+            raise ConfigError(f"packing_scale must be a positive number, got {self.packing_scale!r}")
         if not 0.0 <= self.packing_density <= 1.0:
             raise ConfigError(f"packing_density must lie in [0, 1], got {self.packing_density!r}")
         if self.cutoff < self.gap_limit:

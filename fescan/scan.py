@@ -26,7 +26,7 @@ from fescan.potentials import (
 )
 from fescan.wire import Wire, all_pair_paths, trace_wire
 
-__all__ = ["CAUTION", "ScanResult", "scan"]
+__all__ = ["CAUTION", "ScanResult", "scan", "finite_json"]
 
 #: Printed with every rate and time fescan reports.
 CAUTION = (
@@ -103,7 +103,7 @@ class ScanResult:
             rec["potential_v"] = self.potentials[c.uid].e_v
             rec["potential_origin"] = self.potentials[c.uid].origin
             cofs.append(rec)
-        return _finite({
+        return finite_json({
             "file": self.path,
             "structure": self.info.to_dict(),
             "options": self.options.to_dict(),
@@ -117,13 +117,14 @@ class ScanResult:
         })
 
 
-def _finite(obj: Any) -> Any:
+def finite_json(obj: Any) -> Any:
+    """Copy of a JSON-ready structure with NaN and infinite floats replaced by ``None``."""
     if isinstance(obj, float):
         return obj if math.isfinite(obj) else None
     if isinstance(obj, dict):
-        return {k: _finite(v) for k, v in obj.items()}
+        return {k: finite_json(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):
-        return [_finite(v) for v in obj]
+        return [finite_json(v) for v in obj]
     return obj
 
 
@@ -142,7 +143,7 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         Any field of :class:`fescan.options.ScanOptions` (``model``, ``altloc``,
         ``cutoff``, ``gap_limit``, ``reorg``, ``packing_density``,
         ``temperature``, ``rate_threshold``, ``symmetry``, ``potentials_file``,
-        ``all_pairs``).
+        ``all_pairs``, ``packing`` = ``"default"`` or ``"measured"``, ``packing_scale``).
 
     Returns
     -------
@@ -170,7 +171,12 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     user = load_user_parameters(opts.potentials_file) if opts.potentials_file else None
     potentials = assign_potentials(cofactors, user)
     reorgs = reorganisation_overrides(cofactors, user)
-    g = build_cofactor_graph(cofactors, pairs, potentials, opts, reorgs)
+    packing = None
+    if opts.packing == "measured":
+        from fescan.packing import measured_packing_densities
+
+        packing = measured_packing_densities(loaded, cofactors, pairs, scale=opts.packing_scale)
+    g = build_cofactor_graph(cofactors, pairs, potentials, opts, reorgs, packing=packing)
     wire = trace_wire(g, cofactors, opts)
     if opts.symmetry and ops is None:
         wire.notes.append("symmetry mates requested but the file has no crystal cell/space group")

@@ -88,6 +88,7 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("log10_k_back", "float64", "log10 s⁻¹", "second → first (estimate)"),
         ("gap", "boolean", "", "edge distance above the gap limit"),
         ("symmetry", "string", "", "symmetry operator, empty in the asymmetric unit"),
+        ("packing_density", "float64", "", "packing density ρ used (default or measured)"),
     ),
     "hops": _cols(
         ("file", "string", "", "structure file"),
@@ -102,6 +103,7 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("gap", "boolean", "", "above the gap limit"),
         ("slow", "boolean", "", "slower than the turnover threshold"),
         ("bottleneck", "boolean", "", "slowest hop of the path"),
+        ("packing_density", "float64", "", "packing density ρ used"),
     ),
     "wires": _cols(
         ("file", "string", "", "structure file"),
@@ -207,7 +209,7 @@ def hop_rows(res: ScanResult) -> list[dict]:
         d = h.to_dict()
         out.append({"file": res.path, "step": k, **{c: d[c] for c in (
             "donor", "acceptor", "edge_distance", "centre_distance", "dg_ev", "log10_k_forward",
-            "hop_time_s", "gap", "slow")}, "bottleneck": h is w.bottleneck})
+            "hop_time_s", "gap", "slow", "packing_density")}, "bottleneck": h is w.bottleneck})
     return out
 
 

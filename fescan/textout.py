@@ -124,7 +124,8 @@ def _wire_text(res: ScanResult) -> list[str]:
     w = res.wire
     o = res.options
     names = {c.uid: c.label for c in res.cofactors}
-    out = [f"Electron wire (λ = {o.reorg:g} eV, ρ = {o.packing_density:g}, gap limit {o.gap_limit:g} Å, "
+    rho = "ρ measured per hop" if o.packing == "measured" else f"ρ = {o.packing_density:g}"
+    out = [f"Electron wire (λ = {o.reorg:g} eV, {rho}, gap limit {o.gap_limit:g} Å, "
            f"T = {o.temperature:g} K; symmetry mates {'included' if o.symmetry else 'not included'})"]
     if not w.path:
         out.append("  " + ("; ".join(w.notes) or "no wire"))
@@ -145,8 +146,9 @@ def _wire_text(res: ScanResult) -> list[str]:
         if h.symmetry:
             mark.append(f"symmetry mate {h.symmetry}")
         rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
-                     signed(h.dg), f"{h.log10_k_forward:.2f}", format_time(h.hop_time), ", ".join(mark)])
-    out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "log10 k", "hop time", ""],
+                     signed(h.dg), f"{h.packing_density:.2f}", f"{h.log10_k_forward:.2f}",
+                     format_time(h.hop_time), ", ".join(mark)])
+    out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "ρ", "log10 k", "hop time", ""],
                      rows))
     out.append(f"  bottleneck: {names[w.bottleneck.donor]} > {names[w.bottleneck.acceptor]} "
                f"({w.bottleneck.edge:.2f} Å, {format_time(w.bottleneck.hop_time)})")

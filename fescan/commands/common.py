@@ -18,6 +18,10 @@ def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> N
         g.add_argument("--exit", metavar="CHAIN/RESNUM", help="exit cofactor (default: a quinone or heme)")
     g.add_argument("--reorg", type=float, default=0.7, help="reorganisation energy λ in eV (default 0.7)")
     g.add_argument("--packing-density", type=float, default=0.76, help="packing density ρ, 0-1 (default 0.76)")
+    g.add_argument("--packing", choices=("default", "measured"), default="default",
+                   help="ρ per hop: the --packing-density value (default) or measured from the atoms between")
+    g.add_argument("--packing-scale", type=float, default=1.0,
+                   help="factor applied to measured ρ (default 1; see docs on why measured ρ runs low)")
     g.add_argument("--gap-limit", type=float, default=14.0, help="longest hop not flagged as a gap, Å (default 14)")
     g.add_argument("--cutoff", type=float, default=25.0, help="longest pair distance considered, Å (default 25)")
     g.add_argument("--rate-threshold", type=float, default=1e3,
@@ -35,6 +39,7 @@ def wire_options(a: argparse.Namespace) -> dict:
         "model": a.model, "altloc": a.altloc, "reorg": a.reorg, "packing_density": a.packing_density,
         "gap_limit": a.gap_limit, "cutoff": a.cutoff, "rate_threshold": a.rate_threshold,
         "temperature": a.temperature, "potentials_file": a.potentials, "symmetry": a.symmetry,
+        "packing": a.packing, "packing_scale": a.packing_scale,
     }
     for k in ("entry", "exit", "all_pairs"):
         if hasattr(a, k):

@@ -1,0 +1,258 @@
+"""Model-versus-reference comparison (fescan.compare, compare_report, ``fescan compare``).
+
+Sources: the entries and their cofactor inventories in SOURCES.md (shared/structures): 1YQ9
+SF4 A/265, F3S A/266, SF4 A/267, Ni H/538 with the relay Ni > A/267 > A/266 > A/265; 1FDN and
+1CLF both 2[4Fe-4S] clostridial ferredoxins of 55 residues with SF4 A/56 and A/57 (min d 8.72
+and 9.02 Å); 2FUG FMN + nine Fe–S clusters. Rewritten copies (tests/rewrite.py) are compared
+with what fescan.scan itself gives on the rewritten file.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import gemmi
+import numpy as np
+import pytest
+
+import fescan
+from fescan.cli import main
+from fescan.compare import compare, kabsch
+from fescan.compare_report import md_escape, render_compare_text, write_compare_report
+from fescan.errors import ConfigError, StructureNotFound
+from tests import rewrite
+from tests.datafiles import entry_path, requires_shared
+
+pytestmark = requires_shared
+
+
+def _rotation(deg: float, axis: int) -> np.ndarray:
+    c, s = math.cos(math.radians(deg)), math.sin(math.radians(deg))
+    m = np.eye(3)
+    i, j = [k for k in range(3) if k != axis]
+    m[i, i], m[i, j], m[j, i], m[j, j] = c, -s, s, c
+    return m
+
+
+def _move_whole(st: gemmi.Structure, rot: np.ndarray, shift: tuple[float, float, float]) -> None:
+    st[0].transform_pos_and_adp(gemmi.Transform(gemmi.Mat33(rot.tolist()), gemmi.Vec3(*shift)))
+
+
+@pytest.fixture(scope="module")
+def yq9_self():
+    return compare(entry_path("1YQ9"), entry_path("1YQ9"))
+
+
+@pytest.fixture(scope="module")
+def yq9_rewritten(tmp_path_factory):
+    # proximal SF4 A/267 shifted by 3 Å along x, distal SF4 A/265 removed (SOURCES.md numbering)
+    st = gemmi.read_structure(str(entry_path("1YQ9")))
+    rewrite.move_residue(st, "A", 267, (3.0, 0.0, 0.0))
+    rewrite.remove_residue(st, "A", 265)
+    path = rewrite.write(st, tmp_path_factory.mktemp("cmp") / "1yq9_moved.pdb")
+    return path, compare(path, entry_path("1YQ9"))
+
+
+@pytest.fixture(scope="module")
+def fdn_moved(tmp_path_factory):
+    # 1FDN rotated 50° about z and 35° about x, translated, chain A renamed X, residues +100;
+    # the file name carries characters that must be escaped in HTML and Markdown
+    st = gemmi.read_structure(str(entry_path("1FDN")))
+    rot = _rotation(35, 0) @ _rotation(50, 2)
+    _move_whole(st, rot, (12.0, -30.0, 7.5))
+    for ch in st[0]:
+        ch.name = "X"
+        for res in ch:
+            res.seqid = gemmi.SeqId(res.seqid.num + 100, res.seqid.icode)
+    path = rewrite.write(st, tmp_path_factory.mktemp("cmp") / "fdn<b>&moved.pdb")
+    return path, rot, compare(path, entry_path("1FDN"))
+
+
+# --------------------------------------------------------------------------- a structure against itself
+
+
+def test_self_comparison_has_no_changes(yq9_self):
+    r = yq9_self
+    assert r.n_changes == 0 and set(r.changes().values()) == {0}
+    assert len(r.matches) == 4 and all(m.how == "chain and residue" for m in r.matches)
+    assert all(m.displacement < 1e-6 and not m.misligated for m in r.matches)
+    assert [h.status for h in r.hops] == ["unchanged"] * 3
+    assert all(h.delta("edge") == 0.0 and h.delta("log10_k_forward") == 0.0 for h in r.hops)
+    assert r.superposition.method == "protein chains" and r.superposition.rmsd < 1e-3
+    assert r.superposition.chain_map == {"A": "A", "H": "H"}
+    assert r.problems() == []
+    assert "keeps the reference wire" in r.to_dict()["verdict"]["summary"]
+
+
+def test_to_dict_is_strict_json(yq9_self):
+    text = json.dumps(yq9_self.to_dict(), allow_nan=False)
+    d = json.loads(text)
+    assert d["changes"]["missing"] == 0 and len(d["hops"]) == 3 and "estimates" in d["caution"]
+    assert d["model"]["wire"]["path"] == d["reference"]["wire"]["path"]
+
+
+# --------------------------------------------------------------------------- one cluster moved, one removed
+
+
+def test_rewritten_copy_reports_exactly_those_changes(yq9_rewritten):
+    _, r = yq9_rewritten
+    ref = r.reference
+    label = {u: ref.cofactor(u).key for u in ref.graph.nodes}
+    assert [label[u] for u in r.missing] == ["A/265"] and r.extra == []
+    moved = r.moved()
+    assert [label[m.reference] for m in moved] == ["A/267"]
+    assert moved[0].displacement == pytest.approx(3.0, abs=1e-3)  # the protein is untouched: identity fit
+    assert r.superposition.rmsd < 1e-3
+    assert not any(m.class_changed for m in r.matches)
+    # moving the cluster away from its Cys leaves it mis-ligated; nothing else changes ligation
+    assert [label[m.reference] for m in r.matches if m.ligation_changed] == ["A/267"]
+    assert sum(m.displacement > 1e-3 for m in r.matches) == 1
+
+
+def test_rewritten_copy_hop_deltas_match_a_scan_of_the_file(yq9_rewritten):
+    path, r = yq9_rewritten
+    mod = fescan.scan(path)
+    assert [h.status for h in r.hops] == ["broken", "changed", "changed"]
+    for h in r.hops[1:]:
+        own = mod.graph.edges[h.model_donor, h.model_acceptor]["hop"]
+        assert h.model.edge == own.edge and h.model.log10_k_forward == own.log10_k_forward
+        assert h.delta("edge") == pytest.approx(own.edge - h.reference.edge)
+        assert h.delta("log10_k_forward") == pytest.approx(own.log10_k_forward - h.reference.log10_k_forward)
+        assert h.delta("dg") == 0.0  # same classes, same default potentials
+    # the 3 Å shift lengthens the medial–proximal hop and shortens the proximal–Ni hop
+    assert r.hops[1].delta("edge") > 1.0 and r.hops[2].delta("edge") < 0.0
+
+
+def test_rewritten_copy_verdict(yq9_rewritten):
+    _, r = yq9_rewritten
+    codes = {p["step"]: {x["code"] for x in p["reasons"]} for p in r.problems()}
+    assert codes[1] == {"missing_cofactor"}
+    assert "misligated" in codes[2] and "misligated" in codes[3]
+    drop = -r.hops[1].delta("log10_k_forward")
+    assert ("rate_drop" in codes[2]) == (drop > 1.0)
+    v = r.to_dict()["verdict"]
+    assert v["summary"].startswith("3 of 3 hops")
+    assert any("missing in the model" in n for n in v["notes"])
+
+
+# --------------------------------------------------------------------------- two entries of one protein family
+
+
+def test_two_ferredoxins_match_one_to_one():
+    # 1FDN (X-ray) and 1CLF (NMR model 1): both 2[4Fe-4S], SF4 A/56 and A/57, 55 residues (SOURCES.md)
+    r = compare(entry_path("1CLF"), entry_path("1FDN"))
+    pairs = sorted((r.reference.cofactor(m.reference).key, r.model.cofactor(m.model).key) for m in r.matches)
+    assert pairs == [("A/56", "A/56"), ("A/57", "A/57")]
+    assert r.missing == [] and r.extra == [] and not any(m.class_changed for m in r.matches)
+    assert r.superposition.method == "protein chains" and r.superposition.n_pairs >= 40
+    assert all(m.displacement < 2.0 for m in r.matches)
+    # SOURCES.md min d: 8.72 Å (1FDN) and 9.02 Å (1CLF model 1): the hop lengthens by about 0.30 Å
+    assert r.hops[0].delta("edge") == pytest.approx(9.02 - 8.72, abs=0.02)
+
+
+def test_moved_renumbered_copy_uses_the_superposition(fdn_moved):
+    _, rot, r = fdn_moved
+    assert r.superposition.method == "protein chains" and r.superposition.chain_map == {"X": "A"}
+    assert r.superposition.rmsd < 1e-3 and r.superposition.n_pairs == 55
+    # the fit undoes the rotation (x_ref = R x_model + t with R = rot⁻¹)
+    assert np.allclose(np.asarray(r.superposition.rotation), rot.T, atol=1e-4)
+    keys = sorted((r.reference.cofactor(m.reference).key, r.model.cofactor(m.model).key) for m in r.matches)
+    assert keys == [("A/56", "X/156"), ("A/57", "X/157")]
+    assert all(m.how == "position" and m.displacement < 1e-3 for m in r.matches)
+    # ligands map through the sequence alignment (X/108 is A/8): no ligation change
+    assert r.n_changes == 0
+
+
+def test_cofactor_centre_fit_without_protein(tmp_path):
+    # 2FUG with every polymer residue deleted, rotated, moved and its chains renamed: no Cα to fit,
+    # so the ten cofactor centres are fitted (SOURCES.md: FMN + nine Fe–S clusters)
+    st = gemmi.read_structure(str(entry_path("2FUG")))
+    for ch in st[0]:
+        for i in reversed(range(len(ch))):
+            if ch[i].het_flag != "H":
+                del ch[i]
+    st.remove_empty_chains()
+    _move_whole(st, _rotation(120, 0), (-40.0, 5.0, 60.0))
+    for ch, name in zip(st[0], "ABCDEFGH"):
+        ch.name = name
+    path = rewrite.write(st, tmp_path / "2fug_cofactors_only.pdb")
+    r = compare(path, entry_path("2FUG"))
+    assert r.superposition.method == "cofactor centres" and r.superposition.n_pairs == 10
+    assert len(r.matches) == 10 and r.missing == [] and r.extra == []
+    assert all(m.displacement < 1e-2 and not m.class_changed for m in r.matches)
+    assert [h.status for h in r.hops] == ["unchanged"] * len(r.reference.wire.hops)
+
+
+def test_incomplete_cluster_is_reported(tmp_path):
+    # one Fe deleted from SF4 A/57 of 1FDN: the model's cluster is incomplete (Fe3S4 where the CCD
+    # code SF4 means Fe4S4, wwPDB CCD), it loses the Cys bound to that Fe, and the hop is flagged
+    st = gemmi.read_structure(str(entry_path("1FDN")))
+    res = next(r for r in st[0]["A"] if r.seqid.num == 57)
+    del res[[a.name for a in res].index("FE1")]
+    r = compare(rewrite.write(st, tmp_path / "1fdn_no_fe1.pdb"), entry_path("1FDN"))
+    m = next(m for m in r.matches if r.reference.cofactor(m.reference).key == "A/57")
+    assert m.incomplete and m.misligated and len(m.ligands_lost) == 1
+    assert r.changes()["incomplete"] == 1
+    assert {x["code"] for x in r.problems()[0]["reasons"]} == {"misligated"}
+
+
+def test_kabsch_recovers_a_rigid_motion():
+    # closed form: points moved by a known rotation and translation are moved back exactly
+    rng = np.random.default_rng(0)
+    p = rng.normal(size=(12, 3)) * 10
+    rot = _rotation(40, 1) @ _rotation(-70, 2)
+    q = p @ rot.T + np.array([3.0, -2.0, 9.0])
+    r, t, e = kabsch(p, q)
+    assert e < 1e-9 and np.allclose(r, rot) and np.allclose(t, [3.0, -2.0, 9.0])
+
+
+def test_measured_packing_per_hop():
+    r = compare(entry_path("1FDN"), entry_path("1FDN"), measure_packing=True)
+    h = r.hops[0]
+    assert 0.0 < h.rho_reference < 1.0 and h.rho_model == h.rho_reference
+
+
+def test_bad_input():
+    with pytest.raises(StructureNotFound, match="nowhere.pdb"):
+        compare("nowhere.pdb", entry_path("1FDN"))
+    with pytest.raises(ConfigError, match="match_cutoff"):
+        compare(entry_path("1FDN"), entry_path("1FDN"), match_cutoff=-1.0)
+
+
+# --------------------------------------------------------------------------- reports and the command line
+
+
+def test_report_files_escape_input_strings(fdn_moved, tmp_path):
+    path, _, r = fdn_moved
+    out = write_compare_report(r, tmp_path / "rep")
+    assert set(out) == {"html", "markdown", "svg", "png"} and all(p.stat().st_size > 0 for p in out.values())
+    page = out["html"].read_text(encoding="utf-8")
+    assert "fdn<b>&moved" not in page and "fdn&lt;b&gt;&amp;moved" in page
+    md = out["markdown"].read_text(encoding="utf-8")
+    assert "<b>" not in md and "&lt;b&gt;" in md
+    svg = out["svg"].read_text(encoding="utf-8")
+    assert "reference: 1FDN" in svg and "model, superposed" in svg  # both panels
+    assert md_escape("a|b") == "a\\|b"
+
+
+def test_text_view(yq9_rewritten):
+    _, r = yq9_rewritten
+    text = render_compare_text(r)
+    assert "broken" in text and "problem: hop 1" in text and "estimates" in text
+
+
+def test_cli_compare(tmp_path, capsys):
+    out = tmp_path / "c.json"
+    assert main(["compare", str(entry_path("1CLF")), str(entry_path("1FDN")), "--json", str(out),
+                 "--report", str(tmp_path / "rep")]) == 0
+    d = json.loads(out.read_text(encoding="utf-8"))
+    assert d["changes"]["missing"] == 0 and len(d["matches"]) == 2
+    assert "Verdict:" in capsys.readouterr().out
+    assert (tmp_path / "rep" / "compare.html").exists()
+
+
+def test_cli_compare_bad_file(capsys):
+    assert main(["compare", "missing_model.pdb", str(entry_path("1FDN"))]) == 1
+    err = capsys.readouterr().err
+    assert "missing_model.pdb" in err and "Traceback" not in err
