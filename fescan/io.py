@@ -63,10 +63,10 @@ import gemmi
 
 try:  # ISA-L gzip is ~3x faster than zlib on structure files; zlib stays as the fallback
     from isal.igzip import decompress as _gunzip
-    from isal.isal_zlib import error as _IsalError
+    from isal.isal_zlib import error as _isal_error
 except ImportError:  # pragma: no cover - isal is a dependency, but keep the reader working
     _gunzip = gzip.decompress
-    _IsalError = zlib.error
+    _isal_error = zlib.error
 
 from fescan.errors import (
     ConfigError,
@@ -385,7 +385,7 @@ def _read_bytes(name: str) -> tuple[bytes, bool]:
         return raw, False
     try:
         return _gunzip(raw), True
-    except (OSError, EOFError, zlib.error, _IsalError) as exc:
+    except (OSError, EOFError, zlib.error, _isal_error) as exc:
         raise StructureFileError(f"{name}: damaged gzip data ({exc})") from exc
 
 
