@@ -20,7 +20,7 @@ class ScanOptions:
         Model number to read (1 = first).
     altloc : str
         ``"occupancy"`` (keep the alternative location with the highest occupancy
-        per residue) or ``"all"``.
+        per residue), ``"first"`` (the first label) or ``"all"``.
     cutoff : float
         Largest edge-to-edge distance (Å) of a pair considered as a hop.
     gap_limit : float
@@ -68,8 +68,8 @@ class ScanOptions:
     def __post_init__(self) -> None:
         if not isinstance(self.model, int) or self.model < 1:
             raise ConfigError(f"model must be a positive integer, got {self.model!r}")
-        if self.altloc not in ("occupancy", "all"):
-            raise ConfigError(f"altloc must be 'occupancy' or 'all', got {self.altloc!r}")
+        if self.altloc not in ("occupancy", "first", "all"):
+            raise ConfigError(f"altloc must be 'occupancy', 'first' or 'all', got {self.altloc!r}")
         for name in ("cutoff", "gap_limit", "reorg", "temperature", "rate_threshold"):
             v = getattr(self, name)
             if not isinstance(v, (int, float)) or not v > 0:

@@ -11,8 +11,9 @@ def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> N
     """Add the reading and wire options of :class:`fescan.options.ScanOptions`."""
     g = p.add_argument_group("reading and wire options")
     g.add_argument("--model", type=int, default=1, help="model number to read (default 1)")
-    g.add_argument("--altloc", choices=("occupancy", "all"), default="occupancy",
-                   help="alternative locations: keep the highest-occupancy one per residue (default) or all")
+    g.add_argument("--altloc", choices=("occupancy", "first", "all"), default="occupancy",
+                   help="alternative locations: keep the highest-occupancy one per residue (default), "
+                        "the first one, or all")
     if endpoints:
         g.add_argument("--entry", metavar="CHAIN/RESNUM", help="entry cofactor, e.g. A/500 (default: a flavin)")
         g.add_argument("--exit", metavar="CHAIN/RESNUM", help="exit cofactor (default: a quinone or heme)")
