@@ -5,6 +5,7 @@ Public API::
     fescan.scan(path, entry=None, exit=None, **options) -> ScanResult
     fescan.log10_hop_rate(distance, dg, reorg=0.7, packing_density=0.76)
     fescan.compare(model_path, reference_path, **options) -> CompareResult
+    fescan.survey(inputs, out_dir, workers=None, **options) -> SurveySummary
 
 Rates and times are estimates from the empirical Moser-Dutton law, not measurements.
 """
@@ -24,6 +25,7 @@ from fescan.errors import (  # noqa: E402
 from fescan.kinetics import log10_hop_rate  # noqa: E402
 from fescan.options import ScanOptions  # noqa: E402
 from fescan.scan import ScanResult, scan  # noqa: E402
+from fescan.survey import SurveySummary, survey  # noqa: E402
 
 __all__ = [
     "__version__",
@@ -33,6 +35,8 @@ __all__ = [
     "log10_hop_rate",
     "compare",
     "CompareResult",
+    "survey",
+    "SurveySummary",
     "FescanError",
     "StructureFileError",
     "CofactorNotFound",
