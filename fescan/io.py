@@ -102,7 +102,7 @@ _TEXT_BYTES = bytes(range(32, 256)) + b"\t\n\r\f\v\x1a"
 _BLANK = re.compile(rb"\s*\Z")
 _CIF_START = re.compile(rb"(?:\s|#[^\n]*)*data_", re.IGNORECASE)
 _JSON_START = re.compile(rb'\s*\{\s*"data_')
-_PDB_RECORD = re.compile(rb"^(?:ATOM|HETA|HEADER|CRYST1|MODEL)", re.MULTILINE)
+_PDB_RECORD = re.compile(rb"^(?:ATOM[ \d]|HETATM|HEADER|CRYST1|MODEL )", re.MULTILINE)
 _PDB_ATOM_START = re.compile(rb"ATOM|HETA", re.IGNORECASE)
 # An ATOM/HETATM line (gemmi looks at the first four letters, in any case) whose
 # columns 31-54 are not three 8-column fields made of blanks, digits, '.', '+', '-'

@@ -180,7 +180,8 @@ def report_stem(path: str) -> str:
     name = Path(path).name
     name = name[:-3] if name.lower().endswith(".gz") else name
     safe = re.sub(r"[^A-Za-z0-9._-]+", "_", name).strip("._") or "structure"
-    digest = hashlib.sha1(str(Path(path).resolve()).encode("utf-8", "surrogateescape")).hexdigest()[:8]
+    # hash of the path as given (not resolved), so the same command run elsewhere names folders alike
+    digest = hashlib.sha1(Path(path).as_posix().encode("utf-8", "surrogateescape")).hexdigest()[:8]
     return f"{safe}-{digest}"
 
 
