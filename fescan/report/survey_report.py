@@ -82,9 +82,12 @@ def read_survey_tables(survey_dir: str | os.PathLike[str]) -> dict[str, pd.DataF
         if missing:
             raise ConfigError(f"{path}: not a fescan '{name}' table; missing column(s) {', '.join(missing)}")
         try:
-            out[name] = df[list(dtypes)].astype(dtypes)
+            df = df[list(dtypes)].astype(dtypes)
         except (TypeError, ValueError) as exc:
             raise ConfigError(f"{path}: a column has values of the wrong kind: {exc}") from None
+        # survey rows arrive in the order files finished: a stable sort by file makes
+        # every figure and listing independent of that order
+        out[name] = df.sort_values("file", kind="stable").reset_index(drop=True) if "file" in df else df
     if not found:
         raise ConfigError(f"{folder}: no survey tables found (expected structures.parquet, cofactors.parquet ... "
                           "or the same as .csv)")
