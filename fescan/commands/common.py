@@ -3,8 +3,26 @@
 from __future__ import annotations
 
 import argparse
+import json
+import sys
+from pathlib import Path
+from typing import Any
 
-__all__ = ["add_wire_options", "wire_options"]
+from fescan.errors import ConfigError
+
+__all__ = ["add_wire_options", "wire_options", "emit_json"]
+
+
+def emit_json(data: Any, dest: str) -> None:
+    """Write JSON-ready ``data`` to ``dest`` (a file path, or ``"-"`` for stdout)."""
+    text = json.dumps(data, indent=1, ensure_ascii=False, allow_nan=False)
+    if dest == "-":
+        sys.stdout.write(text + "\n")
+        return
+    try:
+        Path(dest).write_text(text + "\n", encoding="utf-8")
+    except OSError as exc:
+        raise ConfigError(f"{dest}: cannot write the JSON file ({exc.strerror or exc})") from None
 
 
 def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> None:

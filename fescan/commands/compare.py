@@ -3,11 +3,9 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
-from pathlib import Path
 
-from fescan.commands.common import add_wire_options, wire_options
+from fescan.commands.common import add_wire_options, emit_json, wire_options
 
 NAME = "compare"
 HELP = "audit a model against a reference: matched cofactors, changes, per-hop rate deltas"
@@ -43,11 +41,7 @@ def run(a: argparse.Namespace) -> int:
         paths = write_compare_report(res, a.report)
         sys.stderr.write("fescan: report written: " + ", ".join(str(p) for p in paths.values()) + "\n")
     if a.json:
-        text = json.dumps(res.to_dict(), indent=1, ensure_ascii=False)
-        if a.json == "-":
-            sys.stdout.write(text + "\n")
-        else:
-            Path(a.json).write_text(text + "\n", encoding="utf-8")
+        emit_json(res.to_dict(), a.json)
     if a.json != "-":
         sys.stdout.write(render_compare_text(res) + "\n")
     return 0

@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 
-from fescan.commands.common import add_wire_options, wire_options
+from fescan.commands.common import add_wire_options, emit_json, wire_options
 
 NAME = "scan"
 HELP = "one structure: cofactors, ligands, checks and the electron wire"
@@ -37,11 +36,7 @@ def run(a: argparse.Namespace) -> int:
         for name, df in result_tables(res).items():
             df.to_csv(out / f"{name}.csv", index=False)
     if a.json:
-        text = json.dumps(res.to_dict(), indent=1, ensure_ascii=False)
-        if a.json == "-":
-            sys.stdout.write(text + "\n")
-        else:
-            Path(a.json).write_text(text + "\n", encoding="utf-8")
+        emit_json(res.to_dict(), a.json)
     if a.json != "-":
         sys.stdout.write(render_text(res, details=not a.brief) + "\n")
     return 0
