@@ -19,7 +19,7 @@ from fescan.model import Cofactor
 from fescan.options import ScanOptions
 from fescan.potentials import Potential
 
-__all__ = ["Hop", "build_cofactor_graph", "hop_from_edge"]
+__all__ = ["Hop", "build_cofactor_graph"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -150,7 +150,3 @@ def build_cofactor_graph(
             g.add_edge(d.uid, acc.uid, hop=hop, hop_time=hop.hop_time, edge=p.edge)
     return g
 
-
-def hop_from_edge(g: nx.DiGraph, u: str, v: str) -> Hop:
-    """The :class:`Hop` record of edge u→v."""
-    return g.edges[u, v]["hop"]

@@ -13,6 +13,7 @@ from typing import Any
 import networkx as nx
 
 from fescan.cofactors import find_cofactors
+from fescan.errors import CofactorNotFound, ConfigError
 from fescan.geometry import Pair, pair_distances
 from fescan.graph import build_cofactor_graph
 from fescan.io import StructureInfo, read_structure
@@ -177,7 +178,10 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
 
         packing = measured_packing_densities(loaded, cofactors, pairs, scale=opts.packing_scale)
     g = build_cofactor_graph(cofactors, pairs, potentials, opts, reorgs, packing=packing)
-    wire = trace_wire(g, cofactors, opts)
+    try:
+        wire = trace_wire(g, cofactors, opts)
+    except (CofactorNotFound, ConfigError) as exc:  # name the structure in the message
+        raise type(exc)(f"{path}: {exc}") from None
     if opts.symmetry and ops is None:
         wire.notes.append("symmetry mates requested but the file has no crystal cell/space group")
     extra = all_pair_paths(g, opts) if opts.all_pairs else []

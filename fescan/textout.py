@@ -116,7 +116,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                  format_time(r["summed_hop_time_s"]),
                  ", ".join(x for x, on in (("gap", r["has_gap"]), ("slow hop", r["has_slow_hop"])) if on)]
                 for r in res.all_pairs]
-        lines.append(table(["entry", "exit", "hops", "longest hop Å", "summed hop time", ""], rows))
+        lines.append(table(["entry", "exit", "hops", "longest hop Å", "summed hop time", "remarks"], rows))
     return "\n".join(lines)
 
 
@@ -131,6 +131,8 @@ def _wire_text(res: ScanResult) -> list[str]:
         out.append("  " + ("; ".join(w.notes) or "no wire"))
         if w.isolated:
             out.append("  isolated (no partner within the gap limit): " + ", ".join(names[u] for u in w.isolated))
+        for grp in w.groups:
+            out.append("  connected group: " + " + ".join(names[u] for u in grp))
         return out
     out.append(f"  entry {names[w.entry]} -> exit {names[w.exit]} ({w.how_chosen})")
     out.append("  path: " + " > ".join(names[u] for u in w.path))
@@ -146,9 +148,10 @@ def _wire_text(res: ScanResult) -> list[str]:
         if h.symmetry:
             mark.append(f"symmetry mate {h.symmetry}")
         rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
-                     signed(h.dg), f"{h.packing_density:.2f}", f"{h.log10_k_forward:.2f}",
+                     signed(h.dg), f"{h.reorg:.2f}", f"{h.packing_density:.2f}", f"{h.log10_k_forward:.2f}",
                      format_time(h.hop_time), ", ".join(mark)])
-    out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "ρ", "log10 k", "hop time", ""],
+    out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "λ eV", "ρ", "log10 k", "hop time",
+                      "remarks"],
                      rows))
     out.append(f"  bottleneck: {names[w.bottleneck.donor]} > {names[w.bottleneck.acceptor]} "
                f"({w.bottleneck.edge:.2f} Å, {format_time(w.bottleneck.hop_time)})")
@@ -161,6 +164,8 @@ def _wire_text(res: ScanResult) -> list[str]:
             f"{names[b['cofactor']]} (at {names[b['attached_to']]}, {b['edge_distance']:.1f} Å)" for b in w.branches))
     if w.isolated:
         out.append("  isolated (no partner within the gap limit): " + ", ".join(names[u] for u in w.isolated))
+    for grp in w.groups:
+        out.append("  other connected group (not joined to this wire): " + " + ".join(names[u] for u in grp))
     pots = Counter(p.origin for p in res.potentials.values())
     out.append("  potentials: " + ", ".join(f"{n} from {k}" for k, n in pots.items()))
     for n in w.notes:

@@ -10,7 +10,7 @@ compared with the reference windows of ``fescan/data/bond_ranges.csv``
 
 from __future__ import annotations
 
-from collections import Counter, defaultdict
+from collections import defaultdict
 from collections.abc import Iterable
 
 import gemmi
@@ -197,12 +197,13 @@ def _window_flag(bond: str, cls: str, label: str, d: float, low_res: bool) -> Fl
     if br is None:
         return None
     lo, hi = br.window(low_res)
+    d = round(d, 3)  # judge the value as printed, so a message never contradicts itself
     if d > hi:
         return Flag("stretched_bond", "warning",
-                    f"{bond} {label} {d:.2f} Å is stretched (expected {lo:.2f}-{hi:.2f} Å for {cls}; {br.status})")
+                    f"{bond} {label} {d:.3f} Å is stretched (expected {lo:.3f}-{hi:.3f} Å for {cls}; {br.status})")
     if d < lo:
         return Flag("compressed_bond", "warning",
-                    f"{bond} {label} {d:.2f} Å is compressed (expected {lo:.2f}-{hi:.2f} Å for {cls}; {br.status})")
+                    f"{bond} {label} {d:.3f} Å is compressed (expected {lo:.3f}-{hi:.3f} Å for {cls}; {br.status})")
     return None
 
 
@@ -254,10 +255,12 @@ def check_metal_site(
     for m in metals:
         mname = str(env.name[m])
         n_bridge = 0
+        bonded = []
         for s in bridges:
             d = float(np.linalg.norm(env.xyz[m] - env.xyz[s]))
             if d <= 3.0:
                 n_bridge += 1
+                bonded.append(f"{env.name[s]} {d:.2f} Å")
                 if el[m] == "FE":
                     f = _window_flag("Fe-S(inorganic)", cls, f"{mname}-{env.name[s]}", d, low_resolution)
                     if f:
@@ -272,9 +275,9 @@ def check_metal_site(
                               f"{mname} is {cn}-coordinate: no terminal ligand within "
                               f"{LIGAND_MAX['S']:.1f} Å (missing ligand)"))
         elif cn > 4:
-            extra = ", ".join(f"{lig.kind} {lig.atom.residue}" for lig in ligs)
+            partners = bonded + [f"{lig.kind} {lig.atom.residue} {lig.distance:.2f} Å" for lig in ligs]
             flags.append(Flag("extra_ligand", "warning",
-                              f"{mname} is {cn}-coordinate (ligands: {extra}); 4 expected"))
+                              f"{mname} is {cn}-coordinate ({', '.join(partners)}); 4 expected"))
         for lig in ligs:
             label = f"{mname}-{lig.atom.resname} {lig.atom.residue} {lig.atom.name}"
             if lig.kind == "Cys S":
@@ -310,7 +313,3 @@ def check_metal_site(
                           f"{env.name[j]} is {d:.2f} Å from {env.name[c]} and not a ligand"))
     return flags, coordination
 
-
-def ligand_counts(ligands: Iterable[Ligand]) -> Counter:
-    """Count ligands by kind (``{"Cys S": 4}``)."""
-    return Counter(lig.kind for lig in ligands)

@@ -23,7 +23,7 @@ import numpy as np
 
 from fescan.errors import CofactorNotFound, ConfigError
 from fescan.graph import Hop
-from fescan.kinetics import mean_first_passage_time
+from fescan.kinetics import mean_first_passage_time, summed_hop_time
 from fescan.model import Cofactor
 from fescan.options import ScanOptions
 
@@ -54,7 +54,11 @@ class Wire:
         Cofactors with no partner inside the gap limit.
     branches : list of dict
         Cofactors connected to the path within the gap limit but not on it,
-        with the path cofactor they attach to and the distance.
+        with the cofactor they attach to (on the path, or another branch
+        cofactor nearer the path) and that edge-to-edge distance.
+    groups : list of list of str
+        Other groups of two or more cofactors joined within the gap limit but
+        not to the path (other copies in the asymmetric unit, other chains).
     summed_hop_time : float or None
         Σ 1/k_forward along the path (s).
     mean_first_passage_time : float or None
@@ -71,6 +75,7 @@ class Wire:
     gaps: list[Hop] = field(default_factory=list)
     isolated: list[str] = field(default_factory=list)
     branches: list[dict] = field(default_factory=list)
+    groups: list[list[str]] = field(default_factory=list)
     summed_hop_time: float | None = None
     mean_first_passage_time: float | None = None
     notes: list[str] = field(default_factory=list)
@@ -91,6 +96,7 @@ class Wire:
             "gaps": [h.to_dict() for h in self.gaps],
             "isolated": list(self.isolated),
             "branches": list(self.branches),
+            "groups": [list(x) for x in self.groups],
             "summed_hop_time_s": t(self.summed_hop_time),
             "mean_first_passage_time_s": t(self.mean_first_passage_time),
             "connected": bool(self.path),
@@ -172,10 +178,14 @@ def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: Scan
     if options.entry or options.exit:
         entry = find_cofactor(cofactors, options.entry).uid if options.entry else None
         exit_ = find_cofactor(cofactors, options.exit).uid if options.exit else None
+        if entry and exit_ and entry == exit_:
+            raise ConfigError(f"entry and exit name the same cofactor ({options.entry}, {options.exit})")
         if entry and not exit_:
             exit_ = _farthest(u, g, entry)
+            return entry, exit_, "entry chosen by the user, farthest connected cofactor as exit"
         if exit_ and not entry:
             entry = _farthest(u, g, exit_)
+            return entry, exit_, "exit chosen by the user, farthest connected cofactor as entry"
         return entry, exit_, "chosen by the user"
     if len(cofactors) < 2:
         return None, None, "fewer than two cofactors"
@@ -233,39 +243,99 @@ def trace_wire(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOption
     """
     w = Wire()
     u = _undirected_within(g, options.gap_limit)
+    order = {c.uid: k for k, c in enumerate(cofactors)}
     w.isolated = [n for n in g.nodes if u.degree(n) == 0] if len(g) > 1 else []
     entry, exit_, how = choose_endpoints(g, cofactors, options)
     w.entry, w.exit, w.how_chosen = entry, exit_, how
     if entry is None or exit_ is None or entry == exit_:
         w.notes.append("no wire: " + how)
+        w.groups = _groups(u, set(), order)
         return w
     try:
         path = nx.dijkstra_path(g, entry, exit_, weight="hop_time")
     except nx.NetworkXNoPath:
         w.notes.append(f"no chain of hops within {options.cutoff:g} Å joins entry and exit")
         w.mean_first_passage_time = math.inf
+        w.groups = _groups(u, {entry, exit_}, order)
         return w
     w.path = path
     w.hops = [g.edges[a, b]["hop"] for a, b in zip(path, path[1:])]
     w.bottleneck = max(w.hops, key=lambda h: h.hop_time)
     w.gaps = [h for h in w.hops if h.gap or h.slow]
-    w.summed_hop_time = float(sum(h.hop_time for h in w.hops))
+    w.summed_hop_time = summed_hop_time([h.k_forward for h in w.hops])
     w.mean_first_passage_time = _mfpt(g, entry, exit_)
     ratio = w.mean_first_passage_time / w.summed_hop_time if w.summed_hop_time > 0 else 1.0
     if ratio > 3.0:
         uphill = [h for h in w.hops if h.dg > 0.01]
-        why = (f"{len(uphill)} uphill hop(s) on the path (largest ΔG {max(h.dg for h in uphill):+.2f} eV)"
-               if uphill else "downhill detours off the path")
-        w.notes.append(f"the mean first-passage time is {ratio:.3g} times the summed hop time: back hops "
-                       f"dominate ({why}); check the potentials used")
-    on_path = set(path)
-    comp = set().union(*(nx.node_connected_component(u, n) for n in path))
-    for n in sorted(comp - on_path, key=lambda n: [c.uid for c in cofactors].index(n)):
-        near = [(g.edges[n, p]["edge"], p) for p in path if g.has_edge(n, p)]
-        if near:
-            d, p = min(near)
-            w.branches.append({"cofactor": n, "attached_to": p, "edge_distance": d})
+        why = (f"{len(uphill)} uphill hop(s) on the path, largest ΔG {max(h.dg for h in uphill):+.2f} eV"
+               if uphill else "detours into side branches and parallel routes")
+        w.notes.append(f"the mean first-passage time is {ratio:.3g} times the summed hop time ({why}); "
+                       "check the potentials used")
+    w.branches = _branches(g, u, path, order)
+    w.groups = _groups(u, set(path), order)
+    w.notes += _caveats(g, w, options)
     return w
+
+
+def _caveats(g: nx.DiGraph, w: Wire, options: ScanOptions) -> list[str]:
+    """Plain-words warnings about what the path rests on."""
+    notes = []
+    weak = [n for n in w.path if g.nodes[n]["potential"].status == "MEMORY"
+            and not g.nodes[n]["potential"].origin.startswith("user")]
+    if weak:
+        notes.append("potentials given from memory or as placeholders for: " + ", ".join(
+            f"{g.nodes[n]['cofactor'].label} ({g.nodes[n]['potential'].e_v:+.3f} V)" for n in weak)
+            + "; set measured values in a potentials file")
+    fe = [g.nodes[n]["cofactor"].label for n in w.path[1:-1] if g.nodes[n]["cofactor"].cls == "mononuclear Fe"]
+    if fe:
+        notes.append(f"mononuclear non-heme Fe on the path ({', '.join(fe)}): such sites are often not "
+                     "electron carriers; choose the endpoints or set its potential")
+    if options.packing == "measured":
+        rhos = [h.packing_density for h in w.hops if not h.symmetry]
+        if rhos:
+            notes.append(f"packing density measured per hop (mean {sum(rhos) / len(rhos):.2f}); fescan's "
+                         "measure runs lower than the 0.76 average of Page et al. 1999, so rates come out "
+                         "slower than with the default")
+        if any(h.symmetry for h in w.hops):
+            notes.append("hops to symmetry mates use the default packing density")
+    lams = {round(h.reorg, 4) for h in w.hops}
+    if lams != {round(options.reorg, 4)}:
+        notes.append("reorganisation energies from the user file: per-hop λ is the mean of the two cofactors'")
+    return notes
+
+
+def _branches(g: nx.DiGraph, u: nx.Graph, path: list[str], order: dict[str, int]) -> list[dict]:
+    """Cofactors joined to the path within the gap limit, each with its neighbour nearer the path.
+
+    Breadth-first from the path: a cofactor first reached at step k attaches to
+    its closest neighbour among those reached at step k - 1 (the path is step 0).
+    """
+    level = set(path)
+    seen = set(path)
+    parent: dict[str, tuple[str, float]] = {}
+    while level:
+        found: dict[str, tuple[str, float]] = {}
+        for a in level:
+            for b in u.neighbors(a):
+                if b in seen:
+                    continue
+                d = g.edges[a, b]["edge"]
+                if b not in found or (d, order[a]) < (found[b][1], order[found[b][0]]):
+                    found[b] = (a, d)
+        parent.update(found)
+        seen.update(found)
+        level = set(found)
+    return [{"cofactor": n, "attached_to": parent[n][0], "edge_distance": parent[n][1]}
+            for n in sorted(parent, key=order.__getitem__)]
+
+
+def _groups(u: nx.Graph, taken: set[str], order: dict[str, int]) -> list[list[str]]:
+    """Connected groups (within the gap limit) of two or more cofactors, none of them in ``taken``."""
+    out = []
+    for comp in nx.connected_components(u):
+        if len(comp) >= 2 and not comp & taken:
+            out.append(sorted(comp, key=order.__getitem__))
+    return sorted(out, key=lambda c: order[c[0]])
 
 
 def all_pair_paths(g: nx.DiGraph, options: ScanOptions) -> list[dict]:

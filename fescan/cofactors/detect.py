@@ -45,6 +45,7 @@ __all__ = ["find_cofactors", "LOW_RESOLUTION_LIMIT"]
 #: Data worse than this (Å) are checked against the wide bond windows.
 LOW_RESOLUTION_LIMIT = 3.0
 _THIOETHER_MAX = 2.1  # Å heme vinyl C - Cys SG in c-type hemes
+_CXXCH_SG_MAX = 3.6  # Å: a CxxC pair this close to the vinyl carbons is an unmodelled heme c link
 _HEME_N_MAX = 2.6  # Å Fe - pyrrole N
 
 
@@ -203,13 +204,23 @@ class _Builder:
             ligs, _ = find_ligands(env, [env_fe], set(env_rows), {rid}, tree=self._env_tree)
             ligands = [lig for _, lig in ligs]
             extra["axial_ligands"] = [f"{lig.kind} {lig.atom.residue}" for lig in ligands]
-            n_links = self._thioether_links(env, env_rows)
-            extra["thioether_links"] = n_links
-            if n_links >= 1 and cls in ("heme b", "heme"):
+            linked = self._thioether_cys(env, env_rows, _THIOETHER_MAX)
+            extra["thioether_links"] = len(linked)
+            if linked and cls in ("heme b", "heme"):
                 flags.append(Flag("heme_reclassified", "note",
-                                  f"filed as {c.resname[rows[0]]} but bound to {n_links} Cys by thioether "
-                                  f"link{'s' if n_links > 1 else ''}: classed as heme c"))
+                                  f"filed as {c.resname[rows[0]]} but bound to {len(linked)} Cys by thioether "
+                                  f"link{'s' if len(linked) > 1 else ''}: classed as heme c"))
                 cls = "heme c"
+            elif cls in ("heme b", "heme"):
+                near = self._thioether_cys(env, env_rows, _CXXCH_SG_MAX)
+                pair = [(a, b) for a in near for b in near if a[0] == b[0] and b[1] - a[1] == 3]
+                if pair:
+                    (ch, n1, _), (_, n2, _) = pair[0]
+                    flags.append(Flag("heme_reclassified", "note",
+                                      f"filed as {c.resname[rows[0]]} with no thioether bonds modelled, but Cys "
+                                      f"{ch}/{n1} and {ch}/{n2} (a CxxC motif) reach the vinyl carbons within "
+                                      f"{_CXXCH_SG_MAX} Å: classed as heme c"))
+                    cls = "heme c"
         else:
             redox, flags = self._ring_or_all(rows, None, "heme iron")
         cof = self._record(
@@ -221,14 +232,15 @@ class _Builder:
         self.cofactors.append((rid, cof))
 
     @staticmethod
-    def _thioether_links(env: AtomArrays, heme_rows: list[int]) -> int:
+    def _thioether_cys(env: AtomArrays, heme_rows: list[int], max_d: float) -> list[tuple[str, int, str]]:
+        """Cys residues (chain, number, icode) whose SG lies within ``max_d`` Å of a heme carbon."""
         sg = np.flatnonzero((env.element == "S") & (env.name == "SG"))
         carbons = [r for r in heme_rows if env.element[r] == "C"]
         if len(sg) == 0 or not carbons:
-            return 0
+            return []
         d = np.linalg.norm(env.xyz[sg][:, None, :] - env.xyz[carbons][None, :, :], axis=2)
-        linked = sg[np.any(d < _THIOETHER_MAX, axis=1)]
-        return len({(env.chain[i], env.seqnum[i], env.icode[i]) for i in linked})
+        linked = sg[np.any(d < max_d, axis=1)]
+        return sorted({(str(env.chain[i]), int(env.seqnum[i]), str(env.icode[i])) for i in linked})
 
     # -- metal sites ----------------------------------------------------
     def find_sites(self, heme_fe: dict[int, int]) -> list[MetalSite]:

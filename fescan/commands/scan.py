@@ -7,6 +7,7 @@ import sys
 from pathlib import Path
 
 from fescan.commands.common import add_wire_options, emit_json, wire_options
+from fescan.errors import ConfigError
 
 NAME = "scan"
 HELP = "one structure: cofactors, ligands, checks and the electron wire"
@@ -32,9 +33,12 @@ def run(a: argparse.Namespace) -> int:
     res = scan(a.file, **wire_options(a))
     if a.csv:
         out = Path(a.csv)
-        out.mkdir(parents=True, exist_ok=True)
-        for name, df in result_tables(res).items():
-            df.to_csv(out / f"{name}.csv", index=False)
+        try:
+            out.mkdir(parents=True, exist_ok=True)
+            for name, df in result_tables(res).items():
+                df.to_csv(out / f"{name}.csv", index=False)
+        except OSError as exc:
+            raise ConfigError(f"{out}: cannot write the CSV tables there ({exc.strerror or exc})") from None
     if a.json:
         emit_json(res.to_dict(), a.json)
     if a.json != "-":
