@@ -481,6 +481,7 @@ class CompareResult:
     extra: list[str]
     hops: list[HopChange]
     settings: dict[str, float]
+    uncertainty: Any = None
 
     def moved(self) -> list[CofactorMatch]:
         """Matches displaced more than ``moved_limit`` Å."""
@@ -534,6 +535,7 @@ class CompareResult:
             "changes": self.changes(), "matches": [m.to_dict() for m in self.matches],
             "missing_in_model": list(self.missing), "extra_in_model": list(self.extra),
             "hops": [h.to_dict() for h in self.hops], "verdict": verdict(self),
+            "model_wire_intervals": self.uncertainty.to_dict() if self.uncertainty is not None else None,
             "model": self.model.to_dict(), "reference": self.reference.to_dict(),
         })
 
@@ -621,7 +623,13 @@ def compare(
         hops = _with_packing(hops, ref, mod, lr, lm)
     log.info("compared %s with %s: %d matches, %d missing, %d extra", model_path, reference_path,
              len(matches), len(missing), len(extra))
-    return CompareResult(mod, ref, fit, matches, missing, extra, hops, settings)
+    result = CompareResult(mod, ref, fit, matches, missing, extra, hops, settings)
+    if mod.wire.hops:
+        from fescan.uncertainty import wire_uncertainty
+
+        # Monte Carlo (seeded): the linear form misjudges hops near ΔG = 0 (uncertainty.py)
+        result.uncertainty = wire_uncertainty(mod, method="monte-carlo", n_samples=4000, seed=0)
+    return result
 
 
 def _retrace(mod: ScanResult, ref: ScanResult, r2m: dict[str, str]) -> ScanResult:

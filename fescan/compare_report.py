@@ -141,6 +141,11 @@ def verdict(result: CompareResult) -> dict[str, Any]:
         notes.append(f"{_label(ref, m.reference)} moved {m.displacement:.2f} Å")
     if mod.wire.path and list(mod.wire.path) != [_counterpart(result, u) for u in ref.wire.path]:
         notes.append("the model's fastest path differs: " + " > ".join(_label(mod, u) for u in mod.wire.path))
+    fit = result.superposition
+    if fit.n_pairs == 0 or (fit.rmsd is not None and fit.rmsd > 3.0):
+        notes.insert(0, f"the superposition is poor ({fit.method}, {fit.n_pairs} pairs"
+                        + (f", RMSD {fit.rmsd:.1f} Å" if fit.rmsd is not None else "")
+                        + "): the two structures may not be the same protein; matches by position are unreliable")
     notes.append(CAUTION)
     return {"summary": summary, "problems": probs, "notes": notes}
 
@@ -212,6 +217,28 @@ def _superposition_text(result: CompareResult) -> str:
     return f"superposition: {s.method} ({s.n_pairs} pairs{rms})" + (f"; chains model→reference {chains}" if chains else "")
 
 
+def _interval_lines(result: CompareResult) -> list[str]:
+    """The model's wire with 95% intervals of each hop time and of the summed time."""
+    u = result.uncertainty
+    if u is None or not u.hops:
+        return []
+    from fescan.textout import format_time
+
+    rows = []
+    for h in u.hops:
+        lo, hi = h.hop_time_interval("95%")
+        rows.append([_label(result.model, h.donor), _label(result.model, h.acceptor),
+                     f"{h.edge:.2f} ± {h.sigma_edge:.2f}", f"{h.log10_k:.2f}",
+                     f"{h.log10_k_95[0]:.2f} to {h.log10_k_95[1]:.2f}", f"{format_time(lo)} to {format_time(hi)}"])
+    out = [f"Model wire with 95% intervals (coordinate error from B-factors, B = 8π²⟨u²⟩; potential ranges; "
+           f"{u.method}, {u.n_samples} samples)",
+           table(["donor", "acceptor", "R Å (± σ)", "log10 k", "log10 k 95%", "hop time 95%"], rows)]
+    if u.summed_hop_time_95:
+        lo, hi = u.summed_hop_time_95
+        out.append(f"  summed hop time {format_time(u.summed_hop_time)} (95%: {format_time(lo)} to {format_time(hi)})")
+    return out + [""]
+
+
 def render_compare_text(result: CompareResult) -> str:
     """Plain-text view of a comparison for the terminal."""
     v = verdict(result)
@@ -222,6 +249,7 @@ def render_compare_text(result: CompareResult) -> str:
     lines.append("")
     if result.hops:
         lines += ["Reference wire, hop by hop (model estimates)", table(_hop_headers(result), _hop_rows(result)), ""]
+    lines += _interval_lines(result)
     lines += ["Verdict: " + v["summary"]] + [f"  problem: {p['sentence']}" for p in v["problems"]]
     lines += [f"  note: {n}" for n in v["notes"]]
     return "\n".join(lines)
