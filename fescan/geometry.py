@@ -141,37 +141,57 @@ def pair_distances(
 
 
 def _add_symmetry_pairs(pairs, coords, offsets, names, cutoff, cell, ops) -> None:
-    """Add (or shorten) pairs with images of cofactor j under non-identity operations."""
-    import gemmi  # local: only needed with symmetry
+    """Add (or shorten) pairs with the nearest image of cofactor j under each operation.
 
-    xyz = np.concatenate(coords)
-    owner = np.concatenate([np.full(len(c), k) for k, c in enumerate(coords)])
-    frac = np.array([cell.fractionalize(gemmi.Position(*p)).tolist() for p in xyz])
-    tree = cKDTree(xyz)
-    shifts = [(a, b, c) for a in (-1, 0, 1) for b in (-1, 0, 1) for c in (-1, 0, 1)]
+    For every operation and every pair (i, j) the lattice translation is chosen
+    that brings the image of j's centre closest to i's centre, wherever the model
+    sits in the cell. A cofactor and its own image are not paired (no self-hops).
+    """
+    frac_of = np.array(cell.frac.mat.tolist(), dtype=float)
+    frac_shift = np.array(cell.frac.vec.tolist(), dtype=float)
+    orth_of = np.array(cell.orth.mat.tolist(), dtype=float)
+    orth_shift = np.array(cell.orth.vec.tolist(), dtype=float)
+
+    def to_frac(x):
+        return x @ frac_of.T + frac_shift
+
+    def to_orth(f):
+        return f @ orth_of.T + orth_shift
+
+    fracs = [to_frac(c) for c in coords]
+    centres = [c.mean(axis=0) for c in coords]
+    radii = [float(np.max(np.linalg.norm(c - m, axis=1))) for c, m in zip(coords, centres)]
+    trees = [cKDTree(c) for c in coords]
+    cen_frac = [f.mean(axis=0) for f in fracs]
+    n = len(coords)
     for op in ops:
         rot = np.array(op.rot, dtype=float) / op.DEN
         tran = np.array(op.tran, dtype=float) / op.DEN
-        img_frac = frac @ rot.T + tran
-        for s in shifts:
-            if op.triplet() == "x,y,z" and s == (0, 0, 0):
-                continue
-            moved = img_frac + np.asarray(s, dtype=float)
-            img = np.array([cell.orthogonalize(gemmi.Fractional(*f)).tolist() for f in moved])
-            d, k = tree.query(img, k=1, distance_upper_bound=cutoff)
-            for src, (dist, tgt) in enumerate(zip(d, k)):
-                if not np.isfinite(dist):
-                    continue
-                j, i = int(owner[src]), int(owner[tgt])  # image of j close to original i
+        identity = op.triplet() == "x,y,z"
+        for j in range(n):
+            img_frac = fracs[j] @ rot.T + tran
+            img_cen = img_frac.mean(axis=0)
+            for i in range(n):
                 if i == j:
+                    continue
+                shift = np.round(cen_frac[i] - img_cen)
+                if identity and not shift.any():
+                    continue  # the asymmetric-unit pair itself
+                img = to_orth(img_frac + shift)
+                c_img = img.mean(axis=0)
+                if np.linalg.norm(c_img - centres[i]) > cutoff + radii[i] + radii[j]:
+                    continue
+                d, k = trees[i].query(img, k=1, distance_upper_bound=cutoff)
+                best = int(np.argmin(d))
+                dist = float(d[best])
+                if not np.isfinite(dist):
                     continue
                 key = (min(i, j), max(i, j))
                 cur = pairs.get(key)
                 if cur is not None and cur.edge <= dist:
                     continue
-                ci = coords[i].mean(axis=0)
-                cj = img[offsets[j]:offsets[j + 1]].mean(axis=0)
-                a_i, a_j = (names[tgt], names[src]) if i < j else (names[src], names[tgt])
-                pairs[key] = Pair(key[0], key[1], round(float(dist), 4),
-                                  round(float(np.linalg.norm(ci - cj)), 4), a_i, a_j,
-                                  symmetry=f"{op.triplet()} {list(s)}")
+                name_i, name_j = names[offsets[i] + int(k[best])], names[offsets[j] + best]
+                a_i, a_j = (name_i, name_j) if i < j else (name_j, name_i)
+                shift_txt = [int(v) for v in shift]
+                pairs[key] = Pair(key[0], key[1], round(dist, 4), round(float(np.linalg.norm(centres[i] - c_img)), 4),
+                                  a_i, a_j, symmetry=f"{op.triplet()} {shift_txt}")

@@ -138,3 +138,18 @@ def test_user_potentials_change_dg(tmp_path):
     (h,) = r.wire.hops
     assert h.dg == pytest.approx(-0.20)
     assert all("user file" in r.potentials[u].origin for u in r.wire.path)
+
+
+def test_symmetry_mates_found_wherever_the_model_sits(tmp_path):
+    # the same crystal, model translated by two cell edges: the mate pair must still be found
+    st = gemmi.read_structure(str(entry_path("1BE3")))
+    shift = (2 * st.cell.a, 0.0, 0.0)
+    for m in st:
+        for ch in m:
+            for res in ch:
+                for a in res:
+                    a.pos = gemmi.Position(a.pos.x + shift[0], a.pos.y, a.pos.z)
+    moved = fescan.scan(rewrite.write(st, tmp_path / "shifted.pdb"), symmetry=True)
+    base = fescan.scan(entry_path("1BE3"), symmetry=True)
+    edges = lambda r: sorted(round(p.edge, 3) for p in r.pairs)  # noqa: E731
+    assert edges(moved) == edges(base)
