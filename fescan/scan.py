@@ -12,7 +12,7 @@ from typing import Any
 
 import networkx as nx
 
-from fescan.cofactors import find_cofactors
+from fescan.cofactors import count_not_analysed, find_cofactors
 from fescan.errors import CofactorNotFound, ConfigError
 from fescan.geometry import Pair, pair_distances
 from fescan.graph import build_cofactor_graph
@@ -60,6 +60,9 @@ class ScanResult:
         Entry, exit, fastest path, bottleneck, gaps, transfer times.
     all_pairs : list of dict
         Fastest path of every connected pair (only with ``all_pairs=True``).
+    not_analysed : dict of str to int
+        Residues of redox-active groups fescan does not model (chlorophylls,
+        nicotinamides...), counted by CCD code.
     """
 
     path: str
@@ -71,6 +74,7 @@ class ScanResult:
     graph: nx.DiGraph
     wire: Wire
     all_pairs: list[dict] = field(default_factory=list)
+    not_analysed: dict[str, int] = field(default_factory=dict)
 
     def cofactor(self, uid: str) -> Cofactor:
         """The cofactor with this uid."""
@@ -115,6 +119,7 @@ class ScanResult:
             "pairs": self.pair_records(),
             "wire": self.wire.to_dict(),
             "all_pairs": self.all_pairs,
+            "not_analysed": dict(self.not_analysed),
         })
 
 
@@ -185,4 +190,5 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     if opts.symmetry and ops is None:
         wire.notes.append("symmetry mates requested but the file has no crystal cell/space group")
     extra = all_pair_paths(g, opts) if opts.all_pairs else []
-    return ScanResult(str(path), loaded.info, opts, cofactors, pairs, potentials, g, wire, extra)
+    return ScanResult(str(path), loaded.info, opts, cofactors, pairs, potentials, g, wire, extra,
+                      count_not_analysed(loaded.model))

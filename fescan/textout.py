@@ -107,6 +107,12 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                 lines += ["    " + ln for ln in table(["metal", "ligand", "atom", "distance", "kind"], lig_rows).splitlines()]
             for f in c.flags:
                 lines.append(f"    [{f.severity}] {f.message}")
+    if res.not_analysed:
+        from fescan.cofactors.table import ccd_table
+
+        tab = ccd_table()
+        lines += ["", "Not analysed (redox-active groups fescan does not model): " + ", ".join(
+            f"{code} {tab[code].cls} x{n}" for code, n in res.not_analysed.items())]
     lines.append("")
     lines += _wire_text(res)
     if res.all_pairs:

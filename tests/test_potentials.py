@@ -190,6 +190,8 @@ def test_every_ccd_table_class_has_a_default():
     if not path.is_file():
         pytest.skip("fescan/data/ccd_cofactors.csv not present")
     for rec in csv.DictReader(path.read_text("utf-8").splitlines()):
+        if rec["category"] == "not analysed":  # listed only to be reported as skipped
+            continue
         assert default_potential(rec["class"], rec["category"]).source
 
 

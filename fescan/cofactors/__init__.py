@@ -2,6 +2,6 @@
 
 from __future__ import annotations
 
-from fescan.cofactors.detect import find_cofactors
+from fescan.cofactors.detect import count_not_analysed, find_cofactors
 
-__all__ = ["find_cofactors"]
+__all__ = ["find_cofactors", "count_not_analysed"]

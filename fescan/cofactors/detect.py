@@ -40,7 +40,7 @@ from fescan.cofactors.table import METAL_ION_CODES, ccd_table
 from fescan.model import Cofactor, Flag
 from fescan.validate import binding_motif, check_metal_site, find_ligands, occupancy_flags
 
-__all__ = ["find_cofactors", "LOW_RESOLUTION_LIMIT"]
+__all__ = ["find_cofactors", "count_not_analysed", "LOW_RESOLUTION_LIMIT"]
 
 #: Data worse than this (Å) are checked against the wide bond windows.
 LOW_RESOLUTION_LIMIT = 3.0
@@ -332,3 +332,26 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
     return [cof for _, cof in b.cofactors]
+
+
+def count_not_analysed(model: gemmi.Model) -> dict[str, int]:
+    """Residues of known redox-active groups that fescan does not model, by CCD code.
+
+    Parameters
+    ----------
+    model : gemmi.Model
+
+    Returns
+    -------
+    dict of str to int
+        For example ``{"CLA": 70, "PHO": 4}`` (codes of category ``not analysed``
+        in the packaged CCD table), in code order.
+    """
+    table = ccd_table()
+    wanted = {k for k, v in table.items() if v.category == "not analysed"}
+    counts: dict[str, int] = {}
+    for ch in model:
+        for res in ch:
+            if res.name in wanted:
+                counts[res.name] = counts.get(res.name, 0) + 1
+    return dict(sorted(counts.items()))
