@@ -472,7 +472,10 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
         rec = done.get(key.resolved)
         if rec and (rec["size"], rec["mtime_ns"]) == (key.size, key.mtime_ns) and (
                 rec["status"] == "ok" or not retry_failed):
-            continue
+            # a finished file is analysed again only to write a structure report it lacks
+            if not (report and rec["status"] == "ok"
+                    and not (out / "structures" / report_stem(f) / "report.html").is_file()):
+                continue
         todo.append((f, key))
     n_workers = max(1, min(workers or default_workers(), len(todo) or 1))
     summary = SurveySummary(out_dir=str(out), n_files=len(files), n_skipped=len(files) - len(todo),
