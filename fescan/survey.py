@@ -298,7 +298,7 @@ class SurveySummary:
     cofactors_by_class : dict of str to int
         Cofactors per class label over all structures.
     n_wires, n_wires_with_gaps : int
-        Wires, and wires with at least one gap or too-slow hop.
+        Wires with at least one hop, and those with a gap or too-slow hop.
     failures_by_reason : dict of str to int
         Failed files per reason (error, timeout, memory, crash).
     engine : str
@@ -369,7 +369,7 @@ class _Totals:
         elif name == "failures":
             self.reasons.update(table.column("reason").to_pylist())
         elif name == "wires":
-            self.wires += table.num_rows
+            self.wires += sum(1 for n in table.column("n_hops").to_pylist() if n)  # rows with a path
             self.gapped += sum(1 for n in table.column("n_gaps").to_pylist() if n)
 
     def finish(self) -> None:
