@@ -3,7 +3,7 @@
 
 Every coordinate written by this script is INVENTED.  Nothing is taken from the
 PDB or any deposited entry: the cofactors are built from ideal geometry (values
-from ``/work/shared/reference/REFERENCES.md`` section 2), laid out along a gently
+from ``../shared/reference/REFERENCES.md`` section 2), laid out along a gently
 curved "wire", and a made-up protein chain is threaded around them.
 
 Usage::
