@@ -1,9 +1,9 @@
 """Distances between cofactors: edge-to-edge and centre-to-centre, with a KD-tree.
 
 Edge-to-edge is the smallest distance between the redox-active atom sets of two
-cofactors; centre-to-centre joins their centroids. All atoms of all redox sets
-go into one KD-tree (scipy's cKDTree), so the cost grows with the number of
-close atom pairs, never with all atoms x all atoms. gemmi's neighbour grid is
+cofactors; centre-to-centre joins their centroids. A KD-tree (scipy's cKDTree)
+over the cofactor centres finds the pairs that can come within the cutoff, and
+only those pairs' small redox-atom sets are compared: never all atoms x all atoms. gemmi's neighbour grid is
 not used here: its grid spans the unit cell or bounding box, which can take
 gigabytes for a sparse box (a cryo-EM map box or a huge P1 cell).
 
@@ -83,19 +83,30 @@ def centre_distance(a: np.ndarray, b: np.ndarray) -> float:
     return float(np.linalg.norm(np.mean(a, axis=0) - np.mean(b, axis=0)))
 
 
-def _closest(xyz: np.ndarray, owner: np.ndarray, cutoff: float):
-    """Per pair of owners, the closest atom pair within cutoff: dict (i, j) -> (d, ai, aj)."""
-    tree = cKDTree(xyz)
-    sdm = tree.sparse_distance_matrix(tree, cutoff, output_type="coo_matrix")
-    best: dict[tuple[int, int], tuple[float, int, int]] = {}
-    oi, oj = owner[sdm.row], owner[sdm.col]
-    keep = oi < oj
-    for a, b, d, ia, ib in zip(oi[keep], oj[keep], sdm.data[keep], sdm.row[keep], sdm.col[keep]):
-        key = (int(a), int(b))
-        cur = best.get(key)
-        if cur is None or d < cur[0]:
-            best[key] = (float(d), int(ia), int(ib))
-    return best
+def _closest(coords: list[np.ndarray], cutoff: float):
+    """Per pair of cofactors, the closest atom pair within cutoff: dict (i, j) -> (d, ai, aj).
+
+    Pairs whose centres are too far apart to come within the cutoff are skipped;
+    for the others the full (small) distance matrix of the two atom sets is used.
+    ``ai`` and ``aj`` index the atoms within each cofactor.
+    """
+    n = len(coords)
+    if n < 2:
+        return {}
+    centres = np.array([c.mean(axis=0) for c in coords])
+    radii = np.array([np.max(np.linalg.norm(c - m, axis=1)) for c, m in zip(coords, centres)])
+    reach = cKDTree(centres).query_pairs(cutoff + 2 * float(radii.max()), output_type="ndarray")
+    out = {}
+    for i, j in sorted(map(tuple, reach)):
+        i, j = (int(i), int(j)) if i < j else (int(j), int(i))
+        if np.linalg.norm(centres[i] - centres[j]) > cutoff + radii[i] + radii[j]:
+            continue
+        d = np.linalg.norm(coords[i][:, None, :] - coords[j][None, :, :], axis=2)
+        k = int(np.argmin(d))  # first minimum in atom order: deterministic ties
+        a, b = divmod(k, d.shape[1])
+        if d[a, b] <= cutoff:
+            out[(i, j)] = (float(d[a, b]), a, b)
+    return out
 
 
 def pair_distances(
@@ -126,15 +137,13 @@ def pair_distances(
     if len(cofactors) < 2 and not symmetry_ops:
         return []
     coords = [redox_coordinates(c) for c in cofactors]
-    owner = np.concatenate([np.full(len(c), k) for k, c in enumerate(coords)]) if coords else np.zeros(0)
-    xyz = np.concatenate(coords) if coords else np.zeros((0, 3))
     offsets = np.cumsum([0] + [len(c) for c in coords])
     names = [a.name for c in cofactors for a in c.redox_atoms]
     centres = np.asarray([c.mean(axis=0) for c in coords]) if coords else np.zeros((0, 3))
     pairs: dict[tuple[int, int], Pair] = {}
-    for (i, j), (d, ia, ib) in _closest(xyz, owner, cutoff).items():
+    for (i, j), (d, ia, ib) in _closest(coords, cutoff).items():
         pairs[(i, j)] = Pair(i, j, round(d, 4), round(float(np.linalg.norm(centres[i] - centres[j])), 4),
-                             names[ia], names[ib])
+                             names[offsets[i] + ia], names[offsets[j] + ib])
     if cell is not None and symmetry_ops:
         _add_symmetry_pairs(pairs, coords, offsets, names, cutoff, cell, symmetry_ops)
     return [pairs[k] for k in sorted(pairs)]

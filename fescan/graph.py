@@ -12,6 +12,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import networkx as nx
+import numpy as np
 
 from fescan.geometry import Pair
 from fescan.kinetics import dg_from_potentials, hop_reorganisation, log10_hop_rate
@@ -127,6 +128,8 @@ def build_cofactor_graph(
     g = nx.DiGraph()
     for c in cofactors:
         g.add_node(c.uid, cofactor=c, potential=potentials[c.uid])
+    # one vectorised rate-law call for every direction of every pair
+    rows = []
     for p in pairs:
         a, b = cofactors[p.i], cofactors[p.j]
         lam = options.reorg
@@ -135,18 +138,24 @@ def build_cofactor_graph(
         rho = float(packing.get((p.i, p.j), options.packing_density))
         for d, acc in ((a, b), (b, a)):
             dg = dg_from_potentials(potentials[d.uid].e_v, potentials[acc.uid].e_v)
-            lf = float(log10_hop_rate(p.edge, dg, reorg=lam, packing_density=rho,
-                                      temperature=options.temperature))
-            lb = float(log10_hop_rate(p.edge, -dg, reorg=lam, packing_density=rho,
-                                      temperature=options.temperature))
-            kf, kb = 10.0**lf, 10.0**lb
-            hop = Hop(
-                donor=d.uid, acceptor=acc.uid, edge=p.edge, centre=p.centre, dg=dg, reorg=lam,
-                log10_k_forward=lf, log10_k_back=lb, k_forward=kf, k_back=kb,
-                hop_time=1.0 / kf if kf > 0 else float("inf"),
-                gap=p.edge > options.gap_limit, slow=kf < options.rate_threshold, symmetry=p.symmetry,
-                packing_density=rho,
-            )
-            g.add_edge(d.uid, acc.uid, hop=hop, hop_time=hop.hop_time, edge=p.edge)
+            rows.append((p, d, acc, dg, lam, rho))
+    if not rows:
+        return g
+    edge = np.array([r[0].edge for r in rows])
+    dgs = np.array([r[3] for r in rows])
+    lams = np.array([r[4] for r in rows])
+    rhos = np.array([r[5] for r in rows])
+    lf_all = np.atleast_1d(log10_hop_rate(edge, dgs, reorg=lams, packing_density=rhos, temperature=options.temperature))
+    lb_all = np.atleast_1d(log10_hop_rate(edge, -dgs, reorg=lams, packing_density=rhos, temperature=options.temperature))
+    for (p, d, acc, dg, lam, rho), lf, lb in zip(rows, lf_all.tolist(), lb_all.tolist()):
+        kf, kb = 10.0**lf, 10.0**lb
+        hop = Hop(
+            donor=d.uid, acceptor=acc.uid, edge=p.edge, centre=p.centre, dg=dg, reorg=lam,
+            log10_k_forward=lf, log10_k_back=lb, k_forward=kf, k_back=kb,
+            hop_time=1.0 / kf if kf > 0 else float("inf"),
+            gap=p.edge > options.gap_limit, slow=kf < options.rate_threshold, symmetry=p.symmetry,
+            packing_density=rho,
+        )
+        g.add_edge(d.uid, acc.uid, hop=hop, hop_time=hop.hop_time, edge=p.edge)
     return g
 
