@@ -154,6 +154,9 @@ class StructureInfo:
         when the file has no crystal cell (NMR, EM: 1 Å cubic placeholder).
     spacegroup : str or None
         Hermann-Mauguin space group symbol; ``None`` without a crystal cell.
+    notes : tuple of str
+        Warnings about the file that did not stop the reading (e.g. a deposited
+        PDB entry without its END record: possibly truncated).
     """
 
     entry_id: str
@@ -167,6 +170,7 @@ class StructureInfo:
     altloc_policy: str
     cell: tuple[float, float, float, float, float, float] | None
     spacegroup: str | None
+    notes: tuple[str, ...] = ()
 
     def to_dict(self) -> dict[str, Any]:
         """Return the fields as a plain dict (``cell`` as a list), ready for JSON.
@@ -303,6 +307,7 @@ def read_structure(
     data, compressed = _read_bytes(name)
     file_format = _check_text(name, data)
     st, block = _parse(name, data, file_format)
+    notes = _file_notes(file_format, data)
     del data
 
     n_models = len(st)
@@ -346,6 +351,7 @@ def read_structure(
         altloc_policy=altloc,
         cell=_cell(st),
         spacegroup=(st.spacegroup_hm or None) if st.cell.is_crystal() else None,
+        notes=notes,
     )
     logger.debug(
         "%s: %s%s, model %d of %d, %d atoms",
@@ -387,6 +393,18 @@ def _read_bytes(name: str) -> tuple[bytes, bool]:
         return _gunzip(raw), True
     except (OSError, EOFError, zlib.error, _isal_error) as exc:
         raise StructureFileError(f"{name}: damaged gzip data ({exc})") from exc
+
+
+_HEADER_REC = re.compile(rb"^HEADER", re.MULTILINE)
+_END_REC = re.compile(rb"^END\s*$", re.MULTILINE)
+
+
+def _file_notes(file_format: str, data: bytes) -> tuple[str, ...]:
+    """Warnings that do not stop the reading."""
+    if file_format == "pdb" and _HEADER_REC.search(data[:4096]) and not _END_REC.search(data[-4096:]):
+        return ("a deposited-style PDB file (HEADER record) without its END record: the file may be "
+                "truncated and atoms missing",)
+    return ()
 
 
 def _os_reason(exc: Exception) -> str:

@@ -79,6 +79,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
         lines.append("  " + " - ".join(head))
     res_txt = f"{i.resolution:.2f} Å" if i.resolution else "resolution not given"
     lines.append(f"  {i.method or 'method not given'}, {res_txt}, model {res.cofactors[0].model if res.cofactors else res.options.model} of {i.n_models}")
+    lines += [f"  warning: {n}" for n in i.notes]
     lines.append("")
     if not res.cofactors:
         lines.append("No redox cofactors found.")

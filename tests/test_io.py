@@ -731,3 +731,15 @@ def test_sf4_coordinates_match_biopython(pdb_id: str) -> None:
                     assert ours == pytest.approx(float(theirs), abs=1e-3)
                 compared += 1
     assert compared == {"1FDN": 16, "5WQQ": 8}[pdb_id]  # source: SOURCES.md (2 SF4 / 1 SF4)
+
+
+@requires_shared
+def test_deposited_pdb_cut_at_a_record_boundary_is_noted(tmp_path):
+    # a wwPDB entry ends with an END record (wwPDB format guide; common practice, no source):
+    # a copy cut between two records still reads, but with a warning that atoms may be missing
+    lines = entry_path("1FDN").read_text().splitlines(keepends=True)
+    cut = tmp_path / "cut.pdb"
+    cut.write_text("".join(lines[:400]))
+    info = read_structure(cut).info
+    assert any("truncated" in n for n in info.notes)
+    assert read_structure(entry_path("1FDN")).info.notes == ()
