@@ -175,6 +175,9 @@ class Cofactor:
         Findings of the ligation and geometry checks.
     motif : str or None
         Spacing of the ligating protein residues in sequence (``"C-x2-C-x2-C-x3-C"``).
+    part : str
+        Suffix that tells apart several cofactors named by the same residue
+        (altloc letter or a running number); empty otherwise.
     """
 
     model: int
@@ -195,12 +198,19 @@ class Cofactor:
     ligands: tuple[Ligand, ...] = ()
     flags: tuple[Flag, ...] = ()
     motif: str | None = None
+    part: str = ""
     extra: dict[str, Any] = field(default_factory=dict, compare=False, hash=False)
 
     @property
     def key(self) -> str:
-        """Selector ``CHAIN/RESNUM[ICODE]`` (unique within a model)."""
-        return residue_key(self.chain, self.seqnum, self.icode)
+        """Selector ``CHAIN/RESNUM[ICODE]``, unique within a model.
+
+        When one residue holds several cofactors (two clusters in one UNL
+        residue, or alternative conformations kept with ``altloc="all"``), each
+        gets a part suffix: ``A/501#2`` or ``A/56#B``.
+        """
+        base = residue_key(self.chain, self.seqnum, self.icode)
+        return f"{base}#{self.part}" if self.part else base
 
     @property
     def uid(self) -> str:

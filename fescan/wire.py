@@ -121,11 +121,16 @@ def parse_selector(text: str) -> tuple[str, int, str]:
 
 
 def find_cofactor(cofactors: Sequence[Cofactor], selector: str) -> Cofactor:
-    """The cofactor a selector names (its naming residue or any residue it spans)."""
-    chain, num, icode = parse_selector(selector)
+    """The cofactor a selector names (its naming residue or any residue it spans).
+
+    A part suffix (``A/501#2``, ``A/56#B``) picks one of several cofactors named
+    by the same residue; without it the first of them is taken.
+    """
+    base, _, part = (selector or "").partition("#")
+    chain, num, icode = parse_selector(base)
     key = f"{chain}/{num}{icode}"
     for c in cofactors:
-        if c.key == key:
+        if c.key == (f"{key}#{part.strip()}" if part else key) or (not part and c.key.split("#")[0] == key):
             return c
     for c in cofactors:
         if any(r.split()[0] == key for r in c.residues):

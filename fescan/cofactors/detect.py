@@ -255,6 +255,9 @@ class _Builder:
         core = site.core
         res_ids = sorted({int(c.res_id[i]) for i in core})
         atom_rows = np.concatenate([self.by_res[r] for r in res_ids])
+        core_alts = {str(c.altloc[i]) for i in core} - {""}
+        if core_alts:  # altloc="all": keep the atoms of this conformation only
+            atom_rows = np.asarray([i for i in atom_rows if c.altloc[i] in core_alts or not c.altloc[i]], dtype=int)
         env_core = self._env_rows(core)
         env_metals = [e for e, ci in zip(env_core, core) if c.element[ci] in METALS]
         ligs, clashes = find_ligands(env, env_metals, set(env_core), set(res_ids), tree=self._env_tree)
@@ -331,7 +334,25 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    return [cof for _, cof in b.cofactors]
+    return _unique_keys([cof for _, cof in b.cofactors])
+
+
+def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
+    """Give a part suffix to cofactors that share a naming residue (altloc letter, else 1, 2...)."""
+    from dataclasses import replace
+
+    groups: dict[str, list[int]] = defaultdict(list)
+    for k, c in enumerate(cofactors):
+        groups[c.key].append(k)
+    out = list(cofactors)
+    for members in groups.values():
+        if len(members) < 2:
+            continue
+        alts = [{a.altloc for a in cofactors[k].atoms} for k in members]
+        by_alt = all(len(a) == 1 and next(iter(a)) for a in alts) and len({next(iter(a)) for a in alts}) == len(alts)
+        for n, k in enumerate(members, start=1):
+            out[k] = replace(cofactors[k], part=next(iter(alts[n - 1])) if by_alt else str(n))
+    return out
 
 
 def count_not_analysed(model: gemmi.Model) -> dict[str, int]:

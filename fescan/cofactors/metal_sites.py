@@ -132,9 +132,9 @@ def find_metal_sites(
                     bonds.append((int(i), int(j)))
     # keep every atom of a residue with a known cluster code in the same site
     if cluster_codes:
-        by_res: dict[int, list[int]] = {}
+        by_res: dict[tuple[int, str], list[int]] = {}  # alternative conformations stay apart
         for i in np.flatnonzero(np.isin(atoms.resname, list(cluster_codes))):
-            by_res.setdefault(int(atoms.res_id[i]), []).append(int(i))
+            by_res.setdefault((int(atoms.res_id[i]), str(atoms.altloc[i])), []).append(int(i))
         for members in by_res.values():
             members = [m for m in members if m not in exclude]
             g.add_nodes_from(members)
