@@ -217,11 +217,11 @@ def _superposition_text(result: CompareResult) -> str:
     return f"superposition: {s.method} ({s.n_pairs} pairs{rms})" + (f"; chains model→reference {chains}" if chains else "")
 
 
-def _interval_lines(result: CompareResult) -> list[str]:
-    """The model's wire with 95% intervals of each hop time and of the summed time."""
+def _interval_table(result: CompareResult) -> tuple[str, list[str], list[list[str]], str] | None:
+    """Title, headers, rows and summary line of the model's wire with 95% intervals."""
     u = result.uncertainty
     if u is None or not u.hops:
-        return []
+        return None
     from fescan.textout import format_time
 
     rows = []
@@ -230,13 +230,21 @@ def _interval_lines(result: CompareResult) -> list[str]:
         rows.append([_label(result.model, h.donor), _label(result.model, h.acceptor),
                      f"{h.edge:.2f} ± {h.sigma_edge:.2f}", f"{h.log10_k:.2f}",
                      f"{h.log10_k_95[0]:.2f} to {h.log10_k_95[1]:.2f}", f"{format_time(lo)} to {format_time(hi)}"])
-    out = [f"Model wire with 95% intervals (coordinate error from B-factors, B = 8π²⟨u²⟩; potential ranges; "
-           f"{u.method}, {u.n_samples} samples)",
-           table(["donor", "acceptor", "R Å (± σ)", "log10 k", "log10 k 95%", "hop time 95%"], rows)]
+    title = (f"Model wire with 95% intervals (coordinate error from B-factors, B = 8π²⟨u²⟩; potential ranges; "
+             f"{u.method}, {u.n_samples} samples)")
+    summary = ""
     if u.summed_hop_time_95:
         lo, hi = u.summed_hop_time_95
-        out.append(f"  summed hop time {format_time(u.summed_hop_time)} (95%: {format_time(lo)} to {format_time(hi)})")
-    return out + [""]
+        summary = f"summed hop time {format_time(u.summed_hop_time)} (95%: {format_time(lo)} to {format_time(hi)})"
+    return title, ["donor", "acceptor", "R Å (± σ)", "log10 k", "log10 k 95%", "hop time 95%"], rows, summary
+
+
+def _interval_lines(result: CompareResult) -> list[str]:
+    t = _interval_table(result)
+    if t is None:
+        return []
+    title, headers, rows, summary = t
+    return [title, table(headers, rows)] + ([f"  {summary}"] if summary else []) + [""]
 
 
 def render_compare_text(result: CompareResult) -> str:
@@ -262,6 +270,15 @@ def _html_table(headers: list[str], rows: list[list[str]]) -> str:
     head = "".join(f"<th>{html.escape(h)}</th>" for h in headers)
     body = "".join("<tr>" + "".join(f"<td>{html.escape(str(c))}</td>" for c in r) + "</tr>" for r in rows)
     return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def _html_intervals(result: CompareResult) -> str:
+    t = _interval_table(result)
+    if t is None:
+        return ""
+    title, headers, rows, summary = t
+    return (f"<h2>{html.escape(title)}</h2>" + _html_table(headers, rows)
+            + (f"<p>{html.escape(summary)}</p>" if summary else ""))
 
 
 def _md_table(headers: list[str], rows: list[list[str]]) -> str:
@@ -361,6 +378,7 @@ def write_compare_report(result: CompareResult, out_dir: str | Path) -> dict[str
         "".join(f"<p>{e(name)}</p><ul>" + "".join(f"<li>{e(w)}</li>" for w in words) + "</ul>"
                 for name, words in _details(result)),
         "<h2>Reference wire, hop by hop</h2>", _html_table(_hop_headers(result), _hop_rows(result)),
+        _html_intervals(result),
         f"<p class=\"caution\">{e(CAUTION)}</p></body></html>",
     ]
     h = out / "compare.html"
@@ -374,8 +392,11 @@ def write_compare_report(result: CompareResult, out_dir: str | Path) -> dict[str
            _md_table(_MATCH_HEADERS, _match_rows(result)), ""]
     for name, words in _details(result):
         md += [md_escape(name), ""] + [f"- {md_escape(w)}" for w in words] + [""]
-    md += ["## Reference wire, hop by hop", "",
-           _md_table(_hop_headers(result), _hop_rows(result)), "", f"*{md_escape(CAUTION)}*", ""]
+    md += ["## Reference wire, hop by hop", "", _md_table(_hop_headers(result), _hop_rows(result)), ""]
+    t = _interval_table(result)
+    if t is not None:
+        md += ["## " + md_escape(t[0]), "", _md_table(t[1], t[2]), ""] + ([md_escape(t[3]), ""] if t[3] else [])
+    md += [f"*{md_escape(CAUTION)}*", ""]
     m = out / "compare.md"
     m.write_text("\n".join(md), encoding="utf-8")
     return {"html": h, "markdown": m, "svg": svg, "png": png}
