@@ -95,9 +95,12 @@ class ModelIndex:
     ----------
     model : gemmi.Model
         The model to index (kept alive by the caller).
+    skip : frozenset of str, optional
+        Residue names never treated as cofactor candidates (their atoms still
+        count as surroundings of a metal site).
     """
 
-    def __init__(self, model: gemmi.Model) -> None:
+    def __init__(self, model: gemmi.Model, skip: frozenset[str] = frozenset()) -> None:
         self.residues: list[tuple[str, gemmi.Residue]] = []
         reps: list[tuple[float, float, float]] = []
         cand: list[bool] = []
@@ -110,7 +113,7 @@ class ModelIndex:
                 p = res[0].pos
                 reps.append((p.x, p.y, p.z))
                 rn = res.name
-                cand.append(rn not in STANDARD_RESIDUES and rn not in WATER_NAMES)
+                cand.append(rn not in STANDARD_RESIDUES and rn not in WATER_NAMES and rn not in skip)
         self.rep_xyz = np.asarray(reps, dtype=float).reshape(-1, 3)
         self.is_candidate = np.asarray(cand, dtype=bool)
         self._rep_tree: cKDTree | None = None

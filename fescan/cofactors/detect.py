@@ -77,10 +77,11 @@ class _Builder:
     """Collects cofactors of one model."""
 
     def __init__(self, model: gemmi.Model, model_number: int, resolution: float | None) -> None:
-        self.index = ModelIndex(model)
+        self.table = ccd_table()
+        skip = frozenset(k for k, v in self.table.items() if v.category == "not analysed")
+        self.index = ModelIndex(model, skip=skip)
         self.model_number = model_number
         self.low_res = resolution is not None and resolution > LOW_RESOLUTION_LIMIT
-        self.table = ccd_table()
         self.cand = self.index.candidates()
         self.by_res = _rows_by_residue(self.cand)
         self.cofactors: list[tuple[int, Cofactor]] = []
