@@ -146,11 +146,28 @@ class Scene:
         return out
 
 
+def shown_cofactors(result: ScanResult) -> list:
+    """Cofactors the diagram shows: all of them, or only the wire's own group when others exist.
+
+    With other connected groups (other copies in the asymmetric unit, say), the
+    drawing keeps the path, its side branches and isolated cofactors whose nearest
+    partner belongs to them, so a short wire is not lost among copies.
+    """
+    w = result.wire
+    if not w.path or not getattr(w, "groups", None):
+        return list(result.cofactors)
+    keep = set(w.path) | {b["cofactor"] for b in w.branches}
+    for a, b, _ in _near_partners(result):
+        if a in keep or b in keep:
+            keep |= {a, b}
+    return [c for c in result.cofactors if c.uid in keep]
+
+
 def default_projection(result: ScanResult) -> Projection:
-    """Principal-component view of a result's cofactors, entry on the left."""
-    uids = [c.uid for c in result.cofactors]
-    ix = {u: k for k, u in enumerate(uids)}
-    return principal_projection([c.centroid for c in result.cofactors], entry=ix.get(result.wire.entry),
+    """Principal-component view of the shown cofactors, entry on the left."""
+    cofs = shown_cofactors(result)
+    ix = {c.uid: k for k, c in enumerate(cofs)}
+    return principal_projection([c.centroid for c in cofs], entry=ix.get(result.wire.entry),
                                 exit=ix.get(result.wire.exit))
 
 
@@ -186,8 +203,12 @@ def build_scene(result: ScanResult, projection: Projection | None = None) -> Sce
     w, opts = result.wire, result.options
     rho = ("measured per hop" if getattr(opts, "packing", "default") == "measured"
            else f"= {opts.packing_density:g}")
-    scene = Scene(proj, note=NOTE.format(reorg=opts.reorg, rho=rho))
-    cofs = result.cofactors
+    cofs = shown_cofactors(result)
+    note = NOTE.format(reorg=opts.reorg, rho=rho)
+    if len(cofs) < len(result.cofactors):
+        note += f" {len(result.cofactors) - len(cofs)} cofactors outside this wire's group (other copies, isolated) not drawn."
+    scene = Scene(proj, note=note)
+    shown = {c.uid for c in cofs}
     xy = proj.apply([c.centroid for c in cofs]) if cofs else np.zeros((0, 2))
     isolated = set(w.isolated)
     for c, (x, y) in zip(cofs, xy):
@@ -196,11 +217,15 @@ def build_scene(result: ScanResult, projection: Projection | None = None) -> Sce
                                 cofactor_label(c, result.potentials[c.uid], role, c.uid in isolated), role))
     on_path = {frozenset((h.donor, h.acceptor)) for h in w.hops}
     for p in result.pairs:
-        a, b = cofs[p.i].uid, cofs[p.j].uid
+        a, b = result.cofactors[p.i].uid, result.cofactors[p.j].uid
+        if a not in shown or b not in shown:
+            continue
         if p.edge <= opts.gap_limit and frozenset((a, b)) not in on_path:
             scene.links.append(Link("pair", a, b, style.PAIR, style.pair_gid(a, b), dotted=bool(p.symmetry),
                                     label=f"{p.edge:.1f} Å, sym." if p.symmetry else None))
     for a, b, d in _near_partners(result):
+        if a not in shown or b not in shown:
+            continue
         scene.links.append(Link("near", a, b, style.NEAR_GAP, style.pair_gid(a, b), label=f"gap {d:.1f} Å",
                                 break_gid=style.gap_gid(a, b)))
     many = len(w.hops) > 1
