@@ -364,11 +364,24 @@ class _ChainRule:
         return chain in self.corresponding or chain not in self.mapped
 
 
+def _is_amino_acid(resname: str) -> bool:
+    info = gemmi.find_tabulated_residue(resname)
+    return bool(info is not None and info.is_amino_acid())
+
+
 def _ligand_set(c: Cofactor, resmap=None, keeps: Any = ()) -> Counter:
-    """Ligands as labels; model residues renamed to reference numbering through ``resmap``."""
+    """Ligands as labels; model residues renamed to reference numbering through ``resmap``.
+
+    Protein ligands are named by residue (mapped through the sequence alignment);
+    non-protein ligands (water, CO/CN, a bridging peroxide...) have no mapped
+    number, so they are named by residue name and atom only, on both sides.
+    """
     out = Counter()
     for lig in c.ligands:
         a = lig.atom
+        if not _is_amino_acid(a.resname):
+            out[f"{a.resname} {a.name} ({lig.kind})"] += 1
+            continue
         key = (a.chain, a.seqnum, a.icode)
         if resmap is not None:
             key = resmap.get(key, key if a.chain in keeps else ("model " + a.chain, a.seqnum, a.icode))

@@ -236,6 +236,8 @@ def _interval_table(result: CompareResult) -> tuple[str, list[str], list[list[st
     if u.summed_hop_time_95:
         lo, hi = u.summed_hop_time_95
         summary = f"summed hop time {format_time(u.summed_hop_time)} (95%: {format_time(lo)} to {format_time(hi)})"
+    if u.notes:
+        summary = "; ".join(x for x in [summary, *u.notes] if x)
     return title, ["donor", "acceptor", "R Å (± σ)", "log10 k", "log10 k 95%", "hop time 95%"], rows, summary
 
 

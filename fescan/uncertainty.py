@@ -457,6 +457,9 @@ def wire_uncertainty(
     notes = []
     if any(a.b_iso <= 0 for c in result.cofactors for a in c.redox_atoms):
         notes.append("some redox atoms have no B-factor: only the floor is used for them")
+        if floor is None and _read_floor(result)[0] <= 0:
+            notes.append("no B-factors and no resolution or deposited error: the coordinate error is unknown "
+                         "and taken as zero, so distance intervals are zero (only the potentials spread)")
     rows = []
     for h in wire.hops:
         d, a = by[h.donor], by[h.acceptor]

@@ -256,3 +256,17 @@ def test_cli_compare_bad_file(capsys):
     assert main(["compare", "missing_model.pdb", str(entry_path("1FDN"))]) == 1
     err = capsys.readouterr().err
     assert "missing_model.pdb" in err and "Traceback" not in err
+
+
+@requires_shared
+def test_renamed_chains_do_not_change_non_protein_ligands(tmp_path):
+    # 1YQ9 (SOURCES.md): the [NiFe] Fe carries CO/CN (FCO) and a bridging peroxide (PER); renaming
+    # the chains changes nothing chemical, so no ligation change may be reported
+    st = gemmi.read_structure(str(entry_path("1YQ9")))
+    for ch in st[0]:
+        ch.name = ch.name + "X"
+    st.setup_entities()
+    st.make_mmcif_document().write_file(str(tmp_path / "renamed.cif"))
+    res = compare(tmp_path / "renamed.cif", entry_path("1YQ9"))
+    assert res.changes()["ligation_changed"] == 0
+    assert not res.problems()
