@@ -29,6 +29,7 @@ def test_scan_text_json_csv(tmp_path, capsys):
     for name in ("cofactors", "ligands", "flags", "pairs", "hops", "wires"):
         assert (tmp_path / "t" / f"{name}.csv").is_file()
     cof = pd.read_csv(tmp_path / "t" / "cofactors.csv")
+    # 1FDN: 2[4Fe-4S] ferredoxin, SF4 A/56 and A/57 (shared/structures/SOURCES.md)
     assert list(cof["class"]) == ["[4Fe-4S]", "[4Fe-4S]"]
     assert main(["scan", str(entry_path("1FDN")), "--json"]) == 0
     data = json.loads(capsys.readouterr().out)
@@ -42,6 +43,7 @@ def test_scan_text_json_csv(tmp_path, capsys):
     (b"\x1f\x8b\x08\x00garbage", "damaged gzip"),
 ])
 def test_bad_input_one_line_error(tmp_path, content, expect):
+    # bad-input behaviour: one line naming the file, exit 1 (common practice, no source)
     bad = tmp_path / "bad_input.cif"
     bad.write_bytes(content)
     r = run_cli("scan", str(bad))
