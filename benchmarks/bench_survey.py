@@ -44,7 +44,7 @@ REPO = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(REPO))
 
 import fescan  # noqa: E402
-from fescan.survey import find_structure_files  # noqa: E402
+from fescan.surveys.run import find_structure_files  # noqa: E402
 
 DEFAULT_SHARED = Path(os.environ.get("FESCAN_SHARED_STRUCTURES") or REPO.parent / "shared" / "structures")
 
@@ -121,7 +121,7 @@ def per_file(files: list[Path], repeats: int) -> list[dict]:
 
 _CHILD = r"""
 import json, os, resource, sys, threading, time
-from fescan.survey import survey
+from fescan.surveys.run import survey
 
 
 def status(pid, key):

@@ -11,38 +11,43 @@ Public API::
     fescan.reaction_gibbs_kj(n_electrons, delta_e_volts)    (ΔG = −nFΔE, kJ/mol)
 
 Rates and times are estimates from the empirical Moser-Dutton law, not measurements.
+
+The package face is lazy: ``import fescan`` loads nothing but the version and the
+error classes; each name is imported from its stage on first use.
 """
 
 from __future__ import annotations
 
-__version__ = "0.1.0"
+from importlib import import_module
+from typing import Any
 
-from fescan.compare import CompareResult, compare  # noqa: E402
-from fescan.errors import (  # noqa: E402
+from fescan.core.errors import (
     CofactorNotFound,
     ConfigError,
     FescanError,
     FescanWarning,
     StructureFileError,
 )
-from fescan.kinetics import log10_hop_rate, reaction_gibbs_kj  # noqa: E402
-from fescan.options import ScanOptions  # noqa: E402
-from fescan.scan import ScanResult, scan  # noqa: E402
-from fescan.survey import SurveySummary, survey  # noqa: E402
+from fescan.core.version import __version__
+
+#: public name -> module that defines it (imported on first use)
+_LAZY = {
+    "scan": "fescan.analysis.scan",
+    "ScanResult": "fescan.analysis.scan",
+    "ScanOptions": "fescan.core.options",
+    "log10_hop_rate": "fescan.transfer.rate_law",
+    "reaction_gibbs_kj": "fescan.transfer.rate_law",
+    "compare": "fescan.comparison.compare",
+    "CompareResult": "fescan.comparison.compare",
+    "survey": "fescan.api",
+    "SurveySummary": "fescan.surveys.run",
+    "write_report": "fescan.report",
+    "write_survey_report": "fescan.report",
+}
 
 __all__ = [
     "__version__",
-    "scan",
-    "ScanResult",
-    "ScanOptions",
-    "log10_hop_rate",
-    "reaction_gibbs_kj",
-    "write_report",
-    "write_survey_report",
-    "compare",
-    "CompareResult",
-    "survey",
-    "SurveySummary",
+    *_LAZY,
     "FescanError",
     "StructureFileError",
     "CofactorNotFound",
@@ -51,9 +56,14 @@ __all__ = [
 ]
 
 
-def __getattr__(name: str):  # the report functions load matplotlib: import them on first use
-    if name in ("write_report", "write_survey_report"):
-        from fescan import report
+def __getattr__(name: str) -> Any:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'fescan' has no attribute {name!r}")
+    value = getattr(import_module(module), name)
+    globals()[name] = value  # later lookups skip this function
+    return value
 
-        return getattr(report, name)
-    raise AttributeError(f"module 'fescan' has no attribute {name!r}")
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_LAZY))

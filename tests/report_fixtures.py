@@ -17,8 +17,8 @@ import gemmi
 import numpy as np
 import pandas as pd
 
-from fescan.scan import ScanResult
-from fescan.tables import SCHEMAS, result_tables, to_frame
+from fescan.analysis.scan import ScanResult
+from fescan.analysis.tables import SCHEMAS, result_tables, to_frame
 from tests import synth
 
 __all__ = ["SCRIPT", "IMG", "CRAFTED_TITLE", "wire_structure", "write_wire", "write_crafted", "survey_tables",

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import gemmi
 
-from fescan.cofactors.table import ccd_table
+from fescan.cofactors.registry import ccd_table
 
 
 def _cluster_codes() -> set[str]:

@@ -11,9 +11,9 @@ from pathlib import Path
 
 import pandas as pd
 
-from fescan.model import CATEGORIES
-from fescan.scan import scan
-from fescan.tables import SCHEMAS, result_tables, to_frame
+from fescan.analysis.scan import scan
+from fescan.analysis.tables import SCHEMAS, result_tables, to_frame
+from fescan.core.records import CATEGORIES
 
 #: Substrings of file names that trigger the test-only hooks of fescan.survey.
 CRASH, HANG, HOG = "crash_marked", "hang_marked", "memory_marked"

@@ -14,7 +14,7 @@ import pytest
 from Bio.PDB import MMCIFParser, PDBParser
 
 from fescan.cofactors import find_cofactors
-from fescan.io import read_structure
+from fescan.structure.reading import read_structure
 from tests.datafiles import entry_path, requires_shared
 
 pytestmark = requires_shared

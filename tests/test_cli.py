@@ -11,7 +11,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from fescan.cli import main
+from fescan.cli.main import main
 from tests.datafiles import entry_path, requires_shared
 
 ROOT = Path(__file__).resolve().parents[1]

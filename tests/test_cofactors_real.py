@@ -12,7 +12,7 @@ from collections import Counter
 import pytest
 
 from fescan.cofactors import find_cofactors
-from fescan.io import read_structure
+from fescan.structure.reading import read_structure
 from tests.datafiles import entry_path, requires_shared
 
 pytestmark = requires_shared

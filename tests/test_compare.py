@@ -17,10 +17,10 @@ import numpy as np
 import pytest
 
 import fescan
-from fescan.cli import main
-from fescan.compare import compare, kabsch
-from fescan.compare_report import md_escape, render_compare_text, write_compare_report
-from fescan.errors import ConfigError, StructureNotFound
+from fescan.cli.main import main
+from fescan.comparison.compare import compare, kabsch
+from fescan.core.errors import ConfigError, StructureNotFound
+from fescan.report.compare_report import md_escape, render_compare_text, write_compare_report
 from tests import rewrite
 from tests.datafiles import entry_path, requires_shared
 

@@ -11,7 +11,7 @@ import gemmi
 import pytest
 
 from fescan.cofactors import find_cofactors
-from fescan.io import read_structure
+from fescan.structure.reading import read_structure
 from tests import rewrite
 from tests.datafiles import entry_path, requires_shared
 

@@ -17,7 +17,7 @@ import gemmi
 import pytest
 from Bio.PDB import MMCIFParser, PDBParser
 
-from fescan.errors import (
+from fescan.core.errors import (
     ConfigError,
     CoordinateError,
     EmptyStructureError,
@@ -25,7 +25,7 @@ from fescan.errors import (
     StructureFileError,
     StructureNotFound,
 )
-from fescan.io import LoadedStructure, detect_format, read_structure
+from fescan.structure.reading import LoadedStructure, detect_format, read_structure
 from tests.datafiles import ENTRIES, entry_path, requires_shared
 
 # --- small synthetic files, built in code -------------------------------------------------

@@ -13,14 +13,14 @@ import scipy.sparse as sp
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from fescan.constants import (
+from fescan.core.constants import (
     BOLTZMANN_EV_PER_K,
     FARADAY_C_PER_MOL,
     GAS_CONSTANT_J_PER_MOL_K,
     kt_ln10_ev,
 )
-from fescan.errors import ConfigError
-from fescan.kinetics import (
+from fescan.core.errors import ConfigError
+from fescan.transfer.rate_law import (
     dg_from_potentials,
     hop_rates,
     hop_reorganisation,

@@ -15,9 +15,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import fescan
-from fescan.geometry import pair_distances
-from fescan.graph import build_cofactor_graph
-from fescan.wire import trace_wire
+from fescan.transfer.distances import pair_distances
+from fescan.transfer.graph import build_cofactor_graph
+from fescan.transfer.paths import trace_wire
 from tests import rewrite
 from tests.datafiles import entry_path, requires_shared
 

@@ -14,10 +14,10 @@ import numpy as np
 import pytest
 
 import fescan
-from fescan.errors import ConfigError
-from fescan.geometry import pair_distances
-from fescan.io import read_structure
-from fescan.packing import (
+from fescan.core.errors import ConfigError
+from fescan.structure.reading import read_structure
+from fescan.transfer.distances import pair_distances
+from fescan.transfer.packing import (
     BONDI_RADII,
     hop_packing,
     measured_packing_densities,

@@ -13,9 +13,9 @@ from pathlib import Path
 
 import pytest
 
-from fescan.errors import ConfigError
-from fescan.model import CATEGORIES, Cofactor
-from fescan.potentials import (
+from fescan.core.errors import ConfigError
+from fescan.core.records import CATEGORIES, Cofactor
+from fescan.transfer.potentials import (
     POTENTIAL_RANGE_V,
     STATUSES,
     Potential,

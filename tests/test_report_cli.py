@@ -6,8 +6,8 @@ import subprocess
 import sys
 from pathlib import Path
 
-from fescan.cli import main
-from fescan.scan import scan
+from fescan.analysis.scan import scan
+from fescan.cli.main import main
 from tests.report_fixtures import survey_tables, write_tables, write_wire
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -16,13 +16,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from matplotlib.text import Text
 
-from fescan.cofactors.table import ccd_table
+from fescan.analysis.scan import scan
+from fescan.cofactors.registry import ccd_table
 from fescan.report import style
 from fescan.report.diagrams import DiagramInfo, draw_wire, new_figure, relay_diagram, relay_figure
 from fescan.report.placement import overlap
 from fescan.report.projection import principal_projection
 from fescan.report.scene import build_scene
-from fescan.scan import scan
 from tests.datafiles import entry_path, requires_shared
 from tests.report_fixtures import write_wire
 

@@ -11,13 +11,13 @@ import re
 
 import pytest
 
-import fescan.wire as wire_module
-from fescan.errors import ConfigError, FescanError
+import fescan.transfer.paths as wire_module
+from fescan.analysis.scan import CAUTION, scan
+from fescan.core.errors import ConfigError, FescanError
 from fescan.report import write_report
 from fescan.report.content import safe_href
 from fescan.report.html import esc
 from fescan.report.markdown import md_escape
-from fescan.scan import CAUTION, scan
 from tests.datafiles import entry_path, requires_shared
 from tests.report_fixtures import CRAFTED_TITLE, IMG, SCRIPT, write_crafted, write_wire
 

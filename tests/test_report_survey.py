@@ -14,13 +14,13 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fescan.errors import ConfigError
+from fescan.analysis.scan import scan
+from fescan.core.errors import ConfigError
 from fescan.report import write_report, write_survey_report
 from fescan.report.diagrams import counts_figure, distance_by_class_figure, rate_distance_figure
 from fescan.report.html import esc
 from fescan.report.style import glyph_for
 from fescan.report.survey_report import nearest_neighbours, read_survey_tables, survey_parameters
-from fescan.scan import scan
 from tests.datafiles import entry_path, requires_shared
 from tests.report_fixtures import SCRIPT, survey_tables, write_tables
 

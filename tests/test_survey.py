@@ -8,10 +8,7 @@ must give exactly those rows.
 
 from __future__ import annotations
 
-import logging
 import re
-import sys
-import types
 from pathlib import Path
 
 import pandas as pd
@@ -19,12 +16,13 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from fescan.cli import main
-from fescan.errors import ConfigError, StructureNotFound
-from fescan.model import CATEGORIES
-from fescan.survey import analyse_file, find_structure_files, report_stem, survey
-from fescan.survey_store import TABLE_NAMES, arrow_schema, read_table, tables_markdown
-from fescan.tables import SCHEMAS
+from fescan.analysis.tables import SCHEMAS
+from fescan.api import survey
+from fescan.cli.main import main
+from fescan.core.errors import ConfigError, StructureNotFound
+from fescan.core.records import CATEGORIES
+from fescan.surveys.run import analyse_file, find_structure_files, report_stem
+from fescan.surveys.store import TABLE_NAMES, arrow_schema, read_table, tables_markdown
 from tests.datafiles import ENTRIES, SHARED, entry_path, requires_shared
 from tests.survey_helpers import (
     HOOK_ENV,
@@ -252,36 +250,31 @@ def test_analyse_file_rows_are_result_tables():
     got = analyse_file(path, {})
     assert got["status"] == "ok" and got["structure"]["n_flavin"] == 2  # SOURCES.md: FAD A/721, M/821
     want = expected_tables([path])
-    from fescan.tables import to_frame
+    from fescan.analysis.tables import to_frame
 
     assert_same_tables({n: to_frame(n, r) for n, r in got["rows"].items()},
                        {n: want[n] for n in got["rows"]})
 
 
 @requires_shared
-def test_report_hook_calls_the_report_module(tmp_path, monkeypatch):
+def test_report_hook_is_injected_and_isolated(tmp_path):
+    # the survey stage calls the writer it is given (it never imports the report stage)
     calls = []
-    fake = types.ModuleType("fescan.report")
-    fake.write_report = lambda result, dest: calls.append((result.info.entry_id, Path(dest)))
-    monkeypatch.setitem(sys.modules, "fescan.report", fake)
     path = str(entry_path("1FDN"))
-    out = analyse_file(path, {}, report_dir=str(tmp_path / "structures"))
+    out = analyse_file(path, {}, report_dir=str(tmp_path / "structures"),
+                       report_writer=lambda result, dest: calls.append((result.info.entry_id, Path(dest))))
     assert "report_error" not in out
     assert calls == [("1FDN", tmp_path / "structures" / report_stem(path))]
-    fake.write_report = lambda result, dest: 1 / 0
-    assert "ZeroDivisionError" in analyse_file(path, {}, report_dir=str(tmp_path))["report_error"]
+    out = analyse_file(path, {}, report_dir=str(tmp_path), report_writer=lambda result, dest: 1 / 0)
+    assert "ZeroDivisionError" in out["report_error"] and out["status"] == "ok"
 
 
-@requires_shared
-def test_report_without_report_module_warns(tmp_path, caplog, monkeypatch):
-    import importlib.util
+def test_survey_stage_report_needs_a_writer(tmp_path):
+    from fescan.core.errors import ConfigError
+    from fescan.surveys.run import survey as stage_survey
 
-    real = importlib.util.find_spec
-    monkeypatch.setattr(importlib.util, "find_spec",
-                        lambda name, *a: None if name == "fescan.report" else real(name, *a))
-    with caplog.at_level(logging.WARNING, logger="fescan.survey"):
-        s = survey([entry_path("1FDN")], tmp_path / "o", workers=1, quiet=True, report=True)
-    assert s.n_ok == 1 and "fescan.report is not installed" in caplog.text
+    with pytest.raises(ConfigError, match="report writer"):
+        stage_survey([str(tmp_path)], tmp_path / "o", report=True)
 
 
 def test_report_stems_are_unique(tmp_path):

@@ -20,9 +20,9 @@ import pandas as pd
 import pyarrow.parquet as pq
 import pytest
 
-from fescan.errors import ConfigError
-from fescan.survey import survey
-from fescan.survey_store import STATE_DIR, TABLE_NAMES, SurveyStore, file_key, read_table
+from fescan.api import survey
+from fescan.core.errors import ConfigError
+from fescan.surveys.store import STATE_DIR, TABLE_NAMES, SurveyStore, file_key, read_table
 from tests.datafiles import entry_path, requires_shared
 from tests.survey_helpers import HANG, QUICK, assert_same_tables
 
@@ -124,7 +124,7 @@ def test_file_key_follows_content_identity(tmp_path):
 
 
 def _start_survey(inputs: list[Path], out: Path, env: dict[str, str]) -> subprocess.Popen:
-    code = ("import sys; from fescan.survey import survey; "
+    code = ("import sys; from fescan.api import survey; "
             "survey(sys.argv[2:], sys.argv[1], workers=2, batch_size=1, quiet=True, time_limit=600)")
     return subprocess.Popen([sys.executable, "-c", code, str(out), *map(str, inputs)], cwd=REPO,
                             env={**os.environ, **env, "PYTHONPATH": str(REPO)}, start_new_session=True,

@@ -15,10 +15,10 @@ import numpy as np
 import pytest
 
 import fescan
-from fescan.errors import ConfigError
-from fescan.kinetics import log10_hop_rate
-from fescan.potentials import Potential
-from fescan.uncertainty import (
+from fescan.core.errors import ConfigError
+from fescan.transfer.potentials import Potential
+from fescan.transfer.rate_law import log10_hop_rate
+from fescan.transfer.uncertainty import (
     _header_text,
     coordinate_floor,
     deposited_coordinate_error,

@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 import fescan
-from fescan.errors import CofactorNotFound
+from fescan.core.errors import CofactorNotFound
 from tests import rewrite
 from tests.datafiles import entry_path, requires_shared
 

@@ -10,13 +10,13 @@ import math
 
 import pytest
 
-from fescan.geometry import pair_distances
-from fescan.graph import build_cofactor_graph
-from fescan.kinetics import log10_hop_rate
-from fescan.model import AtomRef, Cofactor
-from fescan.options import ScanOptions
-from fescan.potentials import Potential
-from fescan.wire import choose_endpoints, parse_selector, trace_wire
+from fescan.core.options import ScanOptions
+from fescan.core.records import AtomRef, Cofactor
+from fescan.transfer.distances import pair_distances
+from fescan.transfer.graph import build_cofactor_graph
+from fescan.transfer.paths import choose_endpoints, parse_selector, trace_wire
+from fescan.transfer.potentials import Potential
+from fescan.transfer.rate_law import log10_hop_rate
 
 
 def point(chain: str, num: int, x: float, y: float = 0.0, category: str = "iron-sulfur", cls: str = "[4Fe-4S]"):
@@ -90,7 +90,7 @@ def test_selectors(text, expected):
 
 @pytest.mark.parametrize("bad", ["B245", "B/", "/12", "B/12/3"])
 def test_bad_selectors(bad):
-    from fescan.errors import ConfigError
+    from fescan.core.errors import ConfigError
 
     with pytest.raises(ConfigError, match="selector"):
         parse_selector(bad)

@@ -13,7 +13,7 @@ import gemmi
 import numpy as np
 from scipy.spatial import cKDTree
 
-from fescan.model import AtomRef
+from fescan.core.records import AtomRef
 
 __all__ = ["STANDARD_RESIDUES", "WATER_NAMES", "AtomArrays", "ModelIndex", "index_model"]
 

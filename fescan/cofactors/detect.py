@@ -28,6 +28,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays, ModelIndex
+from fescan.cofactors.ligation import binding_motif, check_metal_site, find_ligands, occupancy_flags
 from fescan.cofactors.metal_sites import (
     METALS,
     MetalSite,
@@ -35,10 +36,9 @@ from fescan.cofactors.metal_sites import (
     core_class,
     find_metal_sites,
 )
+from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
 from fescan.cofactors.rings import isoalloxazine_atoms, porphyrin_atoms, quinone_ring_atoms
-from fescan.cofactors.table import METAL_ION_CODES, ccd_table
-from fescan.model import Cofactor, Flag
-from fescan.validate import binding_motif, check_metal_site, find_ligands, occupancy_flags
+from fescan.core.records import Cofactor, Flag
 
 __all__ = ["find_cofactors", "count_not_analysed", "LOW_RESOLUTION_LIMIT"]
 

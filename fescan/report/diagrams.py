@@ -41,7 +41,7 @@ from fescan.report.scene import Scene, build_scene, default_projection
 if TYPE_CHECKING:  # pragma: no cover
     from matplotlib.axes import Axes
 
-    from fescan.scan import ScanResult
+    from fescan.analysis.scan import ScanResult
 
 __all__ = ["RC", "figure_context", "new_figure", "save_figure", "draw_wire", "draw_scene", "relay_figure",
            "relay_diagram", "legend_handles", "DiagramInfo", "distance_by_class_figure", "rate_distance_figure",

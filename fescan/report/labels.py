@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import math
 
-from fescan.graph import Hop
-from fescan.model import Cofactor
-from fescan.potentials import Potential
+from fescan.core.records import Cofactor
+from fescan.transfer.graph import Hop
+from fescan.transfer.potentials import Potential
 
 __all__ = ["MINUS", "number", "signed", "volts", "short_time", "cofactor_label", "hop_label", "is_user_value"]
 

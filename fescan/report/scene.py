@@ -20,7 +20,7 @@ from fescan.report.labels import cofactor_label, hop_label
 from fescan.report.projection import Projection, principal_projection
 
 if TYPE_CHECKING:  # pragma: no cover
-    from fescan.scan import ScanResult
+    from fescan.analysis.scan import ScanResult
 
 __all__ = ["Node", "Link", "Scene", "build_scene", "default_projection", "NOTE"]
 

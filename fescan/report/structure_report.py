@@ -17,8 +17,9 @@ from collections import Counter
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from fescan import __version__
-from fescan.errors import ConfigError
+from fescan.analysis.scan import CAUTION
+from fescan.core.errors import ConfigError
+from fescan.core.version import __version__
 from fescan.report.content import (
     BulletList,
     Document,
@@ -34,11 +35,10 @@ from fescan.report.diagrams import relay_diagram
 from fescan.report.html import render_html
 from fescan.report.labels import number, signed, volts
 from fescan.report.markdown import render_markdown
-from fescan.scan import CAUTION
-from fescan.textout import format_time
+from fescan.report.text import format_time
 
 if TYPE_CHECKING:  # pragma: no cover
-    from fescan.scan import ScanResult
+    from fescan.analysis.scan import ScanResult
 
 __all__ = ["REPORT_FILES", "TIMES_EXPLAINED", "structure_document", "write_report"]
 

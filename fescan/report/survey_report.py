@@ -23,10 +23,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from fescan import __version__
-from fescan.errors import ConfigError
-from fescan.kinetics import log10_hop_rate
-from fescan.options import ScanOptions
+from fescan.analysis.scan import CAUTION
+from fescan.analysis.tables import SCHEMAS, empty_table
+from fescan.core.errors import ConfigError
+from fescan.core.options import ScanOptions
+from fescan.core.version import __version__
 from fescan.report import style
 from fescan.report.content import Document, Facts, Figure, Heading, Notice, Paragraph, Run, Table
 from fescan.report.diagrams import (
@@ -37,9 +38,8 @@ from fescan.report.diagrams import (
 )
 from fescan.report.html import render_html
 from fescan.report.labels import number
-from fescan.scan import CAUTION
-from fescan.tables import SCHEMAS, empty_table
-from fescan.textout import format_time
+from fescan.report.text import format_time
+from fescan.transfer.rate_law import log10_hop_rate
 
 __all__ = ["read_survey_tables", "survey_parameters", "nearest_neighbours", "write_survey_report", "CURVE_DG_EV"]
 
@@ -188,7 +188,7 @@ def _report_link(survey_dir: Path, out_dir: Path, file: str) -> str | None:
     name = name[:-3] if name.lower().endswith(".gz") else name
     candidates = []
     try:
-        from fescan.survey import report_stem  # the survey names the folders
+        from fescan.surveys.run import report_stem  # the survey names the folders
         candidates.append(base / report_stem(file))
     except ImportError:  # pragma: no cover - survey module absent
         pass

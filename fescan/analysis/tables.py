@@ -1,0 +1,242 @@
+"""Tables at the boundary: column schemas declared once, DataFrames built from results.
+
+Every table fescan writes (one structure with ``--csv``, or a survey) uses the
+columns below. ``file`` is the structure file the row comes from.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import pandas as pd
+
+if TYPE_CHECKING:  # pragma: no cover
+    from fescan.analysis.scan import ScanResult
+
+__all__ = ["Column", "SCHEMAS", "empty_table", "cofactor_rows", "ligand_rows", "flag_rows", "pair_rows",
+           "hop_rows", "wire_rows", "result_tables", "to_frame"]
+
+
+@dataclass(frozen=True)
+class Column:
+    """One declared column: name, pandas dtype, unit and meaning."""
+
+    name: str
+    dtype: str
+    unit: str
+    doc: str
+
+
+def _cols(*spec: tuple[str, str, str, str]) -> tuple[Column, ...]:
+    return tuple(Column(*s) for s in spec)
+
+
+SCHEMAS: dict[str, tuple[Column, ...]] = {
+    "cofactors": _cols(
+        ("file", "string", "", "structure file"),
+        ("cofactor_id", "string", "", "MODEL:CHAIN/RESNUM[ICODE]:CODE"),
+        ("model", "Int64", "", "model number"),
+        ("chain", "string", "", "chain of the naming residue"),
+        ("resnum", "Int64", "", "residue number"),
+        ("icode", "string", "", "insertion code (empty if none)"),
+        ("ccd_code", "string", "", "CCD code, empty when found by geometry alone"),
+        ("category", "string", "", "iron-sulfur, flavin, quinone, heme, copper, iron, metal"),
+        ("class", "string", "", "class label ([4Fe-4S], Rieske [2Fe-2S], FMN, heme c...)"),
+        ("composition", "string", "", "element composition of the core"),
+        ("n_atoms", "Int64", "", "atoms of the cofactor"),
+        ("n_redox_atoms", "Int64", "", "atoms of the redox-active set"),
+        ("x", "float64", "Å", "centroid of the redox-active set"),
+        ("y", "float64", "Å", ""),
+        ("z", "float64", "Å", ""),
+        ("mean_occupancy", "float64", "", "mean occupancy of the atoms"),
+        ("mean_b", "float64", "Å²", "mean B-factor of the atoms"),
+        ("detected_by", "string", "", "ccd+geometry, ccd or geometry"),
+        ("n_ligands", "Int64", "", "ligand bonds from the metals"),
+        ("motif", "string", "", "spacing of ligating residues (C-x2-C-x2-C-x3-C)"),
+        ("n_warnings", "Int64", "", "flags of severity warning"),
+        ("potential_v", "float64", "V", "midpoint potential used"),
+        ("potential_origin", "string", "", "default table or user file"),
+    ),
+    "ligands": _cols(
+        ("file", "string", "", "structure file"),
+        ("cofactor_id", "string", "", "cofactor the metal belongs to"),
+        ("metal", "string", "", "metal atom name"),
+        ("residue", "string", "", "ligating residue CHAIN/RESNUM"),
+        ("resname", "string", "", "ligating residue name"),
+        ("atom", "string", "", "ligating atom name"),
+        ("kind", "string", "", "Cys S, His N, water O..."),
+        ("distance", "float64", "Å", "metal-ligand distance"),
+    ),
+    "flags": _cols(
+        ("file", "string", "", "structure file"),
+        ("cofactor_id", "string", "", "cofactor flagged"),
+        ("code", "string", "", "machine-readable flag code"),
+        ("severity", "string", "", "warning or note"),
+        ("message", "string", "", "plain words"),
+    ),
+    "pairs": _cols(
+        ("file", "string", "", "structure file"),
+        ("first", "string", "", "cofactor id"),
+        ("second", "string", "", "cofactor id"),
+        ("first_class", "string", "", ""),
+        ("second_class", "string", "", ""),
+        ("edge_distance", "float64", "Å", "edge-to-edge distance of the redox-active sets"),
+        ("centre_distance", "float64", "Å", "centre-to-centre distance"),
+        ("dg_ev", "float64", "eV", "ΔG of first → second"),
+        ("log10_k_forward", "float64", "log10 s⁻¹", "first → second (estimate)"),
+        ("log10_k_back", "float64", "log10 s⁻¹", "second → first (estimate)"),
+        ("gap", "boolean", "", "edge distance above the gap limit"),
+        ("symmetry", "string", "", "symmetry operator, empty in the asymmetric unit"),
+        ("packing_density", "float64", "", "packing density ρ used (default or measured)"),
+    ),
+    "hops": _cols(
+        ("file", "string", "", "structure file"),
+        ("step", "Int64", "", "position along the fastest path (1 = first hop)"),
+        ("donor", "string", "", "cofactor id"),
+        ("acceptor", "string", "", "cofactor id"),
+        ("edge_distance", "float64", "Å", ""),
+        ("centre_distance", "float64", "Å", ""),
+        ("dg_ev", "float64", "eV", ""),
+        ("log10_k_forward", "float64", "log10 s⁻¹", "estimate"),
+        ("hop_time_s", "float64", "s", "1/k_forward (estimate)"),
+        ("gap", "boolean", "", "above the gap limit"),
+        ("slow", "boolean", "", "slower than the turnover threshold"),
+        ("bottleneck", "boolean", "", "slowest hop of the path"),
+        ("packing_density", "float64", "", "packing density ρ used"),
+    ),
+    "wires": _cols(
+        ("file", "string", "", "structure file"),
+        ("entry", "string", "", "entry cofactor id"),
+        ("exit", "string", "", "exit cofactor id"),
+        ("how_chosen", "string", "", "user choice or default rule"),
+        ("path", "string", "", "cofactor ids along the fastest path, ' > ' separated"),
+        ("n_hops", "Int64", "", ""),
+        ("bottleneck", "string", "", "donor > acceptor of the slowest hop"),
+        ("bottleneck_edge_distance", "float64", "Å", ""),
+        ("max_edge_distance", "float64", "Å", "longest hop on the path"),
+        ("n_gaps", "Int64", "", "hops over the gap limit or below the rate threshold"),
+        ("summed_hop_time_s", "float64", "s", "Σ 1/k along the path (estimate)"),
+        ("mean_first_passage_time_s", "float64", "s", "MFPT entry → exit (estimate)"),
+        ("isolated", "string", "", "cofactors with no partner within the gap limit"),
+    ),
+    "structures": _cols(
+        ("file", "string", "", "structure file"),
+        ("entry_id", "string", "", "PDB ID from the header, else the file name stem (empty when failed)"),
+        ("title", "string", "", "title of the entry"),
+        ("method", "string", "", "experimental method as written in the file"),
+        ("resolution", "float64", "Å", "resolution (empty when the file gives none)"),
+        ("n_models", "Int64", "", "models in the file"),
+        ("n_atoms", "Int64", "", "atoms of the model read (after the altloc and hydrogen policies)"),
+        ("n_iron_sulfur", "Int64", "", "cofactors of category iron-sulfur"),
+        ("n_flavin", "Int64", "", "cofactors of category flavin"),
+        ("n_quinone", "Int64", "", "cofactors of category quinone"),
+        ("n_heme", "Int64", "", "cofactors of category heme"),
+        ("n_copper", "Int64", "", "cofactors of category copper"),
+        ("n_iron", "Int64", "", "cofactors of category iron"),
+        ("n_metal", "Int64", "", "cofactors of category metal"),
+        ("n_cofactors", "Int64", "", "cofactors found"),
+        ("n_flags", "Int64", "", "flags of the checks (warnings and notes)"),
+        ("status", "string", "", "ok or failed (then see the failures table)"),
+        ("seconds", "float64", "s", "wall time of the analysis of this file"),
+    ),
+    "failures": _cols(
+        ("file", "string", "", "structure file"),
+        ("error_class", "string", "", "exception class, or Timeout / WorkerCrash"),
+        ("message", "string", "", "what went wrong, in plain words"),
+        ("reason", "string", "", "error, timeout, memory or crash"),
+    ),
+}
+
+
+def empty_table(name: str) -> pd.DataFrame:
+    """An empty DataFrame with the declared columns and dtypes of table ``name``."""
+    return pd.DataFrame({c.name: pd.Series(dtype=c.dtype) for c in SCHEMAS[name]})
+
+
+def to_frame(name: str, rows: list[dict]) -> pd.DataFrame:
+    """Rows → DataFrame with exactly the declared columns (in order) and dtypes."""
+    cols = SCHEMAS[name]
+    df = pd.DataFrame(rows, columns=[c.name for c in cols]) if rows else empty_table(name)
+    return df.astype({c.name: c.dtype for c in cols})
+
+
+def cofactor_rows(res: ScanResult) -> list[dict]:
+    """Rows of the ``cofactors`` table for one result."""
+    out = []
+    for c in res.cofactors:
+        pot = res.potentials[c.uid]
+        out.append({
+            "file": res.path, "cofactor_id": c.uid, "model": c.model, "chain": c.chain, "resnum": c.seqnum,
+            "icode": c.icode, "ccd_code": c.ccd_code, "category": c.category, "class": c.cls,
+            "composition": c.composition, "n_atoms": len(c.atoms), "n_redox_atoms": len(c.redox_atoms),
+            "x": c.centroid[0], "y": c.centroid[1], "z": c.centroid[2],
+            "mean_occupancy": c.mean_occupancy, "mean_b": c.mean_b, "detected_by": c.detected_by,
+            "n_ligands": len(c.ligands), "motif": c.motif,
+            "n_warnings": sum(1 for f in c.flags if f.severity == "warning"),
+            "potential_v": pot.e_v, "potential_origin": pot.origin,
+        })
+    return out
+
+
+def ligand_rows(res: ScanResult) -> list[dict]:
+    """Rows of the ``ligands`` table."""
+    return [
+        {"file": res.path, "cofactor_id": c.uid, "metal": lig.metal, "residue": lig.atom.residue,
+         "resname": lig.atom.resname, "atom": lig.atom.name, "kind": lig.kind, "distance": lig.distance}
+        for c in res.cofactors for lig in c.ligands
+    ]
+
+
+def flag_rows(res: ScanResult) -> list[dict]:
+    """Rows of the ``flags`` table."""
+    return [
+        {"file": res.path, "cofactor_id": c.uid, "code": f.code, "severity": f.severity, "message": f.message}
+        for c in res.cofactors for f in c.flags
+    ]
+
+
+def pair_rows(res: ScanResult) -> list[dict]:
+    """Rows of the ``pairs`` table."""
+    return [{"file": res.path, **r} for r in res.pair_records()]
+
+
+def hop_rows(res: ScanResult) -> list[dict]:
+    """Rows of the ``hops`` table (the fastest path)."""
+    w = res.wire
+    out = []
+    for k, h in enumerate(w.hops, start=1):
+        d = h.to_dict()
+        out.append({"file": res.path, "step": k, **{c: d[c] for c in (
+            "donor", "acceptor", "edge_distance", "centre_distance", "dg_ev", "log10_k_forward",
+            "hop_time_s", "gap", "slow", "packing_density")}, "bottleneck": h is w.bottleneck})
+    return out
+
+
+def wire_rows(res: ScanResult) -> list[dict]:
+    """The one row of the ``wires`` table."""
+    w = res.wire
+    d = w.to_dict()
+    b = w.bottleneck
+    return [{
+        "file": res.path, "entry": w.entry, "exit": w.exit, "how_chosen": w.how_chosen,
+        "path": " > ".join(w.path), "n_hops": len(w.hops),
+        "bottleneck": f"{b.donor} > {b.acceptor}" if b else None,
+        "bottleneck_edge_distance": b.edge if b else None,
+        "max_edge_distance": max((h.edge for h in w.hops), default=None),
+        "n_gaps": len(w.gaps), "summed_hop_time_s": d["summed_hop_time_s"],
+        "mean_first_passage_time_s": d["mean_first_passage_time_s"],
+        "isolated": " ".join(w.isolated),
+    }]
+
+
+def result_tables(res: ScanResult) -> dict[str, pd.DataFrame]:
+    """All tables of one result, keyed by table name."""
+    return {
+        "cofactors": to_frame("cofactors", cofactor_rows(res)),
+        "ligands": to_frame("ligands", ligand_rows(res)),
+        "flags": to_frame("flags", flag_rows(res)),
+        "pairs": to_frame("pairs", pair_rows(res)),
+        "hops": to_frame("hops", hop_rows(res)),
+        "wires": to_frame("wires", wire_rows(res)),
+    }

@@ -1,0 +1,182 @@
+"""Plain-text rendering of one scan result for the terminal."""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+
+from fescan.analysis.scan import CAUTION, ScanResult
+
+__all__ = ["render_text", "format_time", "signed", "table"]
+
+
+def format_time(seconds: float | None) -> str:
+    """Human time with a unit: ``"3.2 µs"``, ``"14 ms"``; ``"-"`` when undefined.
+
+    Examples
+    --------
+    >>> format_time(3.2e-6)
+    '3.2 µs'
+    >>> format_time(None)
+    '-'
+    """
+    if seconds is None or not math.isfinite(seconds):
+        return "-"
+    for unit, f in (("s", 1.0), ("ms", 1e-3), ("µs", 1e-6), ("ns", 1e-9), ("ps", 1e-12)):
+        if seconds >= f:
+            v = seconds / f
+            return f"{v:.3g} {unit}"
+    return f"{seconds / 1e-15:.3g} fs"
+
+
+def signed(x: float, digits: int = 3) -> str:
+    """Signed fixed-point text without a negative zero.
+
+    Examples
+    --------
+    >>> signed(-1e-9)
+    '+0.000'
+    """
+    v = round(float(x), digits)
+    return f"{(0.0 if v == 0 else v):+.{digits}f}"
+
+
+def table(headers: list[str], rows: list[list[str]]) -> str:
+    """Left-aligned text table with a rule under the header."""
+    widths = [len(h) for h in headers]
+    for r in rows:
+        widths = [max(w, len(str(c))) for w, c in zip(widths, r)]
+    line = "  ".join(h.ljust(w) for h, w in zip(headers, widths))
+    out = [line.rstrip(), "  ".join("-" * w for w in widths)]
+    out += ["  ".join(str(c).ljust(w) for c, w in zip(r, widths)).rstrip() for r in rows]
+    return "\n".join(out)
+
+
+def _ligand_summary(c) -> str:
+    if not c.ligands:
+        return "-"
+    cnt = Counter(lig.kind for lig in c.ligands)
+    return ", ".join(f"{n}x {k}" if n > 1 else k for k, n in sorted(cnt.items()))
+
+
+def render_text(res: ScanResult, *, details: bool = True) -> str:
+    """Render cofactors, ligands, flags and the wire as readable text.
+
+    Parameters
+    ----------
+    res : ScanResult
+    details : bool, optional
+        Also list every ligand bond and every flag.
+
+    Returns
+    -------
+    str
+    """
+    i = res.info
+    lines = [f"{res.path}"]
+    head = [x for x in (i.entry_id, i.title) if x]
+    if head:
+        lines.append("  " + " - ".join(head))
+    res_txt = f"{i.resolution:.2f} Å" if i.resolution else "resolution not given"
+    lines.append(f"  {i.method or 'method not given'}, {res_txt}, model {res.cofactors[0].model if res.cofactors else res.options.model} of {i.n_models}")
+    lines += [f"  warning: {n}" for n in i.notes]
+    lines.append("")
+    if not res.cofactors:
+        lines.append("No redox cofactors found.")
+        return "\n".join(lines)
+    rows = []
+    for c in res.cofactors:
+        warn = sum(1 for f in c.flags if f.severity == "warning")
+        note = sum(1 for f in c.flags if f.severity == "note")
+        fl = ", ".join(x for x in (f"{warn} warning{'s' * (warn != 1)}" if warn else "",
+                                   f"{note} note{'s' * (note != 1)}" if note else "") if x) or "ok"
+        pot = res.potentials[c.uid]
+        rows.append([c.key, c.cls, c.ccd_code or "-", c.detected_by, str(len(c.atoms)), _ligand_summary(c),
+                     c.motif or "-", signed(pot.e_v), fl])
+    lines.append(f"Cofactors ({len(res.cofactors)})")
+    lines.append(table(["cofactor", "class", "code", "found by", "atoms", "ligands", "motif", "E (V)", "checks"],
+                       rows))
+    if details:
+        for c in res.cofactors:
+            if not c.ligands and not c.flags:
+                continue
+            lines.append("")
+            lines.append(f"{c.label}  ({', '.join(c.residues[:4])}{' ...' if len(c.residues) > 4 else ''})")
+            lig_rows = [[lig.metal, f"{lig.atom.resname} {lig.atom.residue}", lig.atom.name,
+                         f"{lig.distance:.2f} Å", lig.kind] for lig in c.ligands]
+            if lig_rows:
+                lines += ["    " + ln for ln in table(["metal", "ligand", "atom", "distance", "kind"], lig_rows).splitlines()]
+            for f in c.flags:
+                lines.append(f"    [{f.severity}] {f.message}")
+    if res.not_analysed:
+        from fescan.cofactors.registry import ccd_table
+
+        tab = ccd_table()
+        lines += ["", "Not analysed (redox-active groups fescan does not model): " + ", ".join(
+            f"{code} {tab[code].cls} x{n}" for code, n in res.not_analysed.items())]
+    lines.append("")
+    lines += _wire_text(res)
+    if res.all_pairs:
+        lines += ["", f"Fastest path of every connected pair ({len(res.all_pairs)})"]
+        names = {c.uid: c.label for c in res.cofactors}
+        rows = [[names[r["entry"]], names[r["exit"]], str(len(r["path"]) - 1), f"{r['max_edge_distance']:.2f}",
+                 format_time(r["summed_hop_time_s"]),
+                 ", ".join(x for x, on in (("gap", r["has_gap"]), ("slow hop", r["has_slow_hop"])) if on)]
+                for r in res.all_pairs]
+        lines.append(table(["entry", "exit", "hops", "longest hop Å", "summed hop time", "remarks"], rows))
+    return "\n".join(lines)
+
+
+def _wire_text(res: ScanResult) -> list[str]:
+    w = res.wire
+    o = res.options
+    names = {c.uid: c.label for c in res.cofactors}
+    rho = "ρ measured per hop" if o.packing == "measured" else f"ρ = {o.packing_density:g}"
+    out = [f"Electron wire (λ = {o.reorg:g} eV, {rho}, gap limit {o.gap_limit:g} Å, "
+           f"T = {o.temperature:g} K; symmetry mates {'included' if o.symmetry else 'not included'})"]
+    if not w.path:
+        out.append("  " + ("; ".join(w.notes) or "no wire"))
+        if w.isolated:
+            out.append("  isolated (no partner within the gap limit): " + ", ".join(names[u] for u in w.isolated))
+        for grp in w.groups:
+            out.append("  connected group: " + " + ".join(names[u] for u in grp))
+        return out
+    out.append(f"  entry {names[w.entry]} -> exit {names[w.exit]} ({w.how_chosen})")
+    out.append("  path: " + " > ".join(names[u] for u in w.path))
+    rows = []
+    for k, h in enumerate(w.hops, 1):
+        mark = []
+        if h is w.bottleneck:
+            mark.append("bottleneck")
+        if h.gap:
+            mark.append(f"GAP > {o.gap_limit:g} Å")
+        if h.slow:
+            mark.append(f"slower than {o.rate_threshold:g}/s")
+        if h.symmetry:
+            mark.append(f"symmetry mate {h.symmetry}")
+        rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
+                     signed(h.dg), f"{h.reorg:.2f}", f"{h.packing_density:.2f}", f"{h.log10_k_forward:.2f}",
+                     format_time(h.hop_time), ", ".join(mark)])
+    out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "λ eV", "ρ", "log10 k", "hop time",
+                      "remarks"],
+                     rows))
+    out.append(f"  bottleneck: {names[w.bottleneck.donor]} > {names[w.bottleneck.acceptor]} "
+               f"({w.bottleneck.edge:.2f} Å, {format_time(w.bottleneck.hop_time)})")
+    out.append(f"  gaps: {len(w.gaps)}" + (" - " + "; ".join(
+        f"{names[h.donor]} > {names[h.acceptor]} {h.edge:.2f} Å" for h in w.gaps) if w.gaps else ""))
+    out.append(f"  transfer time, sum of hop times:     {format_time(w.summed_hop_time)}")
+    out.append(f"  transfer time, mean first passage:   {format_time(w.mean_first_passage_time)}")
+    if w.branches:
+        out.append("  side branches: " + "; ".join(
+            f"{names[b['cofactor']]} (at {names[b['attached_to']]}, {b['edge_distance']:.1f} Å)" for b in w.branches))
+    if w.isolated:
+        out.append("  isolated (no partner within the gap limit): " + ", ".join(names[u] for u in w.isolated))
+    for grp in w.groups:
+        out.append("  other connected group (not joined to this wire): " + " + ".join(names[u] for u in grp))
+    pots = Counter(p.origin for p in res.potentials.values())
+    out.append("  potentials: " + ", ".join(f"{n} from {k}" for k, n in pots.items()))
+    for n in w.notes:
+        out.append(f"  note: {n}")
+    out.append("")
+    out.append("Caution: " + CAUTION)
+    return out

@@ -1,0 +1,571 @@
+"""Survey many structure files: parallel, crash-proof, resumable, with one table per kind.
+
+:func:`survey` finds the structure files among its inputs (files, folders searched
+recursively, glob patterns), runs :func:`analyse_file` — :func:`fescan.scan` plus
+the row builders of :mod:`fescan.tables` — on each in worker processes, streams the
+results to part files in the output folder as they come and merges them at the
+end. One file that raises, runs over its time limit, exhausts its memory cap or
+kills its worker is recorded in ``failures`` and the others go on. A rerun into
+the same folder skips the files already done (see :mod:`fescan.survey_store`);
+engine ``"dask"`` runs the same function on Dask distributed.
+
+Tables (``OUT/<name>.parquet``, or ``.csv``; columns declared once in
+:data:`fescan.tables.SCHEMAS`, full list below and in ``docs/survey_tables.md``)
+-----------------------------------------------------------------------------
+``structures``
+    One row per input file, ``status`` ``ok`` or ``failed``: entry id, title,
+    method, resolution (Å), models, atoms, cofactors per category, flags, and the
+    wall time of its analysis (s).
+``failures``
+    One row per failed file: exception class (``Timeout`` and ``WorkerCrash``
+    for the parent's findings), message, and ``reason``: ``error`` (the file is
+    bad: a :class:`~fescan.errors.FescanError`; any other class is a bug in
+    fescan and is logged as one), ``timeout``, ``memory`` or ``crash``.
+``cofactors``, ``ligands``, ``flags``, ``pairs``, ``hops``, ``wires``
+    The tables of :func:`fescan.tables.result_tables` of every file that
+    succeeded, rows of all files together (``file`` tells them apart). Rates
+    and times (``log10_k_*``, ``*_time_s``) are Moser-Dutton model estimates,
+    not measurements.
+
+Parquet tables keep the declared pandas dtypes (``pandas.read_parquet`` gives
+``string``, ``Int64``, ``boolean``, ``float64``); read CSV tables with
+:func:`fescan.survey_store.read_table` to get them (in CSV an empty string and a
+missing value look the same). Rows come in the order files finished: sort by
+``file`` for a stable order.
+
+Test-only hooks (environment variables; never set them in production): a worker
+handling a file whose path contains the value of ``FESCAN_TEST_CRASH_MARKER``
+calls ``os._exit(1)``; of ``FESCAN_TEST_HANG_MARKER`` sleeps for an hour; of
+``FESCAN_TEST_MEMORY_MARKER`` allocates memory until it fails.
+"""
+
+from __future__ import annotations
+
+import glob
+import gzip
+import hashlib
+import logging
+import os
+import re
+import sys
+import time
+import traceback
+import zlib
+from collections import Counter
+from collections.abc import Callable, Iterable
+from dataclasses import asdict, dataclass, field
+from pathlib import Path
+from typing import Any
+
+from fescan.analysis.scan import CAUTION, scan
+from fescan.analysis.tables import (
+    SCHEMAS,
+    cofactor_rows,
+    flag_rows,
+    hop_rows,
+    ligand_rows,
+    pair_rows,
+    wire_rows,
+)
+from fescan.core.errors import ConfigError, FescanError, StructureNotFound
+from fescan.core.options import ScanOptions
+from fescan.core.records import CATEGORIES
+from fescan.structure.reading import detect_format
+from fescan.surveys.backends import DaskEngine, ProcessPool, TaskResult, default_workers
+from fescan.surveys.store import TABLE_NAMES, SurveyStore, file_key
+
+__all__ = ["STRUCTURE_SUFFIXES", "SurveySummary", "analyse_file", "find_structure_files", "survey"]
+
+logger = logging.getLogger(__name__)
+
+#: File name endings taken from folders without looking inside (each also with ``.gz``).
+STRUCTURE_SUFFIXES: tuple[str, ...] = (".pdb", ".ent", ".cif", ".mmcif")
+
+_ROW_BUILDERS = {"cofactors": cofactor_rows, "ligands": ligand_rows, "flags": flag_rows,
+                 "pairs": pair_rows, "hops": hop_rows, "wires": wire_rows}
+_CATEGORY_COLUMNS = {c: "n_" + c.replace("-", "_") for c in CATEGORIES}
+_GLOB_CHARS = re.compile(r"[*?\[]")
+_SNIFF_BYTES = 65536
+_FLUSH_SECONDS = 5.0
+
+
+# --- the per-file function (runs in the workers) ---------------------------------------
+
+
+def _test_hooks(path: str) -> None:
+    """Test-only misbehaviour, driven by environment variables (see the module docstring)."""
+    env = os.environ
+    if env.get("FESCAN_TEST_CRASH_MARKER") and env["FESCAN_TEST_CRASH_MARKER"] in path:
+        os._exit(1)
+    if env.get("FESCAN_TEST_HANG_MARKER") and env["FESCAN_TEST_HANG_MARKER"] in path:
+        time.sleep(3600)
+    if env.get("FESCAN_TEST_MEMORY_MARKER") and env["FESCAN_TEST_MEMORY_MARKER"] in path:
+        import numpy as np
+
+        hog = []
+        while True:  # address space, untouched: fails fast under the cap without filling memory
+            hog.append(np.empty(64 << 20, dtype=np.uint8))
+
+
+def _failed_structure_row(path: str, seconds: float) -> dict[str, Any]:
+    return {"file": path, "status": "failed", "seconds": seconds}
+
+
+def _failure(path: str, error_class: str, message: str, reason: str, seconds: float) -> dict[str, Any]:
+    return {"file": path, "status": "failed", "seconds": seconds,
+            "structure": _failed_structure_row(path, seconds),
+            "failure": {"file": path, "error_class": error_class, "message": message, "reason": reason}}
+
+
+def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = None,
+                 report_writer: Callable[[Any, Path], Any] | None = None) -> dict[str, Any]:
+    """Analyse one file for a survey: :func:`fescan.scan` and the rows of every table.
+
+    Parameters
+    ----------
+    path : str
+        Structure file.
+    options : dict
+        Keyword options of :func:`fescan.scan`.
+    report_dir : str or None
+        With ``report_writer``: write this file's report into ``report_dir/<safe stem>``.
+    report_writer : callable, optional
+        ``report_writer(result, folder)`` writes one structure's report (injected by the
+        caller, e.g. :func:`fescan.report.write_report`; the survey stage never imports
+        the report stage). A module-level function, so it can be sent to workers.
+
+    Returns
+    -------
+    dict
+        ``file``, ``status`` (``"ok"`` / ``"failed"``), ``seconds``, ``structure``
+        (its row of the ``structures`` table), and ``rows`` (table name → rows,
+        exactly the rows :func:`fescan.tables.result_tables` turns into frames)
+        or ``failure`` (its row of the ``failures`` table, plus ``traceback`` for
+        an unexpected error). Never raises for a bad file.
+    """
+    _test_hooks(path)
+    t0 = time.perf_counter()
+    try:
+        res = scan(path, **options)
+        rows = {name: build(res) for name, build in _ROW_BUILDERS.items()}
+    except MemoryError:
+        raise  # the worker reports it (and is replaced)
+    except FescanError as exc:
+        return _failure(path, type(exc).__name__, str(exc), "error", time.perf_counter() - t0)
+    except Exception as exc:  # a bug in fescan, not a bad file: keep the traceback
+        out = _failure(path, type(exc).__name__, f"{path}: unexpected {type(exc).__name__}: {exc}",
+                       "error", time.perf_counter() - t0)
+        out["traceback"] = traceback.format_exc()
+        return out
+    seconds = time.perf_counter() - t0
+    counts = Counter(c.category for c in res.cofactors)
+    info = res.info
+    structure = {
+        "file": path, "entry_id": info.entry_id, "title": info.title, "method": info.method,
+        "resolution": info.resolution, "n_models": info.n_models, "n_atoms": info.n_atoms,
+        **{col: counts.get(cat, 0) for cat, col in _CATEGORY_COLUMNS.items()},
+        "n_cofactors": len(res.cofactors), "n_flags": sum(len(c.flags) for c in res.cofactors),
+        "status": "ok", "seconds": seconds,
+    }
+    out: dict[str, Any] = {"file": path, "status": "ok", "seconds": seconds, "structure": structure, "rows": rows}
+    if report_dir and report_writer is not None:
+        try:
+            report_writer(res, Path(report_dir) / report_stem(path))
+        except Exception as exc:  # the analysis stands; the parent logs the report problem
+            out["report_error"] = f"{type(exc).__name__}: {exc}"
+    return out
+
+
+def report_stem(path: str) -> str:
+    """A file-name-safe, unique stem for the per-structure report of ``path``."""
+    name = Path(path).name
+    name = name[:-3] if name.lower().endswith(".gz") else name
+    safe = re.sub(r"[^A-Za-z0-9._-]+", "_", name).strip("._") or "structure"
+    # hash of the path as given (not resolved), so the same command run elsewhere names folders alike
+    digest = hashlib.sha1(Path(path).as_posix().encode("utf-8", "surrogateescape")).hexdigest()[:8]
+    return f"{safe}-{digest}"
+
+
+# --- finding the input files -----------------------------------------------------------
+
+
+def _has_structure_suffix(name: str) -> bool:
+    low = name.lower()
+    low = low[:-3] if low.endswith(".gz") else low
+    return low.endswith(STRUCTURE_SUFFIXES)
+
+
+def _looks_like_structure(path: Path) -> bool:
+    """Whether a file of another name holds structure text (gzipped or not), from its start."""
+    try:
+        with open(path, "rb") as fh:
+            head = fh.read(_SNIFF_BYTES)
+        if head.startswith(b"\x1f\x8b"):
+            with gzip.open(path, "rb") as fh:
+                head = fh.read(_SNIFF_BYTES)
+    except (OSError, EOFError, ValueError, zlib.error):
+        return False
+    if b"\0" in head:
+        return False
+    return detect_format(head) != "unknown"
+
+
+def _walk(folder: Path, skip: Path | None) -> Iterable[Path]:
+    for root, dirs, files in os.walk(folder):
+        here = Path(root)
+        dirs[:] = sorted(d for d in dirs if not d.startswith(".")
+                         and (skip is None or (here / d).resolve() != skip))
+        for f in sorted(files):
+            p = here / f
+            if f.startswith(".") or not p.is_file():
+                continue
+            if _has_structure_suffix(f) or _looks_like_structure(p):
+                yield p
+
+
+def find_structure_files(inputs: Iterable[str | os.PathLike[str]],
+                         exclude: str | os.PathLike[str] | None = None) -> list[str]:
+    """List the structure files of the inputs, each once, in input order.
+
+    Parameters
+    ----------
+    inputs : iterable of str or path-like
+        Files (taken whatever their name), folders (searched recursively:
+        files ending in .pdb, .ent, .cif, .mmcif, each optionally .gz, plus
+        files of other names whose content is PDB or mmCIF text; hidden files
+        and folders are skipped) and glob patterns (``**`` matches folders).
+    exclude : path-like, optional
+        A folder never searched (the survey's output folder).
+
+    Returns
+    -------
+    list of str
+        Paths as found (not resolved); a file reached twice is listed once.
+
+    Raises
+    ------
+    fescan.errors.StructureNotFound
+        An input does not exist or a pattern matches nothing.
+    """
+    skip = Path(exclude).resolve() if exclude is not None else None
+    seen: set[str] = set()
+    out: list[str] = []
+    for item in inputs:
+        text = os.fspath(item)
+        if os.path.exists(text):
+            matches = [text]
+        elif _GLOB_CHARS.search(text):
+            matches = sorted(glob.glob(text, recursive=True))
+            if not matches:
+                raise StructureNotFound(f"{text}: the pattern matches no file")
+        else:
+            raise StructureNotFound(f"{text}: no such file or folder")
+        for m in matches:
+            p = Path(m)
+            found = _walk(p, skip) if p.is_dir() else [p]
+            for f in found:
+                key = str(f.resolve())
+                if key not in seen:
+                    seen.add(key)
+                    out.append(str(f))
+    return out
+
+
+# --- the survey ------------------------------------------------------------------------
+
+
+@dataclass
+class SurveySummary:
+    """What a survey did and what its tables hold.
+
+    Attributes
+    ----------
+    out_dir : str
+        Output folder.
+    tables : dict of str to str
+        Table name → merged table file.
+    n_files : int
+        Structure files found in the inputs.
+    n_skipped : int
+        Files already done in an earlier run into ``out_dir`` (not analysed again).
+    n_ok, n_failed : int
+        Files analysed in this run that succeeded / failed.
+    n_unexpected : int
+        Failures of this run with an exception that is not a FescanError (bugs).
+    table_rows : dict of str to int
+        Rows of each merged table (all runs into ``out_dir``).
+    structures_ok, structures_failed : int
+        Rows of ``structures`` with status ok / failed.
+    cofactors_by_class : dict of str to int
+        Cofactors per class label over all structures.
+    n_wires, n_wires_with_gaps : int
+        Wires with at least one hop, and those with a gap or too-slow hop.
+    failures_by_reason : dict of str to int
+        Failed files per reason (error, timeout, memory, crash).
+    engine : str
+    workers : int
+    seconds : float
+        Wall time of this run.
+    """
+
+    out_dir: str
+    tables: dict[str, str] = field(default_factory=dict)
+    n_files: int = 0
+    n_skipped: int = 0
+    n_ok: int = 0
+    n_failed: int = 0
+    n_unexpected: int = 0
+    table_rows: dict[str, int] = field(default_factory=dict)
+    structures_ok: int = 0
+    structures_failed: int = 0
+    cofactors_by_class: dict[str, int] = field(default_factory=dict)
+    n_wires: int = 0
+    n_wires_with_gaps: int = 0
+    failures_by_reason: dict[str, int] = field(default_factory=dict)
+    engine: str = "processes"
+    workers: int = 1
+    seconds: float = 0.0
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready dict of every field."""
+        return asdict(self)
+
+    def to_text(self) -> str:
+        """A short plain-text summary for people."""
+        def listing(d: dict[str, int]) -> str:
+            return ", ".join(f"{k} {v}" for k, v in sorted(d.items(), key=lambda kv: (-kv[1], kv[0]))) or "none"
+
+        rows = ", ".join(f"{k} {v}" for k, v in self.table_rows.items())
+        return "\n".join([
+            f"files: {self.n_files} found; {self.n_ok + self.n_failed} analysed now ({self.n_ok} ok, "
+            f"{self.n_failed} failed), {self.n_skipped} already done; {self.seconds:.1f} s "
+            f"({self.engine}, {self.workers} worker(s))",
+            f"structures in {self.out_dir}: {self.structures_ok} ok, {self.structures_failed} failed",
+            f"table rows: {rows}",
+            f"cofactors by class: {listing(self.cofactors_by_class)}",
+            f"wires: {self.n_wires}, with gaps or too-slow hops: {self.n_wires_with_gaps}",
+            f"failures by reason: {listing(self.failures_by_reason)}"
+            + (f" ({self.n_unexpected} unexpected errors: bugs, see the log)" if self.n_unexpected else ""),
+            CAUTION,
+        ])
+
+
+class _Totals:
+    """Counts over the merged tables, fed chunk by chunk during the merge."""
+
+    def __init__(self, summary: SurveySummary) -> None:
+        self.s = summary
+        self.rows: Counter[str] = Counter()
+        self.classes: Counter[str] = Counter()
+        self.reasons: Counter[str] = Counter()
+        self.status: Counter[str] = Counter()
+        self.wires = self.gapped = 0
+
+    def __call__(self, name: str, table: Any) -> None:
+        self.rows[name] += table.num_rows
+        if name == "structures":
+            self.status.update(table.column("status").to_pylist())
+        elif name == "cofactors":
+            self.classes.update(table.column("class").to_pylist())
+        elif name == "failures":
+            self.reasons.update(table.column("reason").to_pylist())
+        elif name == "wires":
+            self.wires += sum(1 for n in table.column("n_hops").to_pylist() if n)  # rows with a path
+            self.gapped += sum(1 for n in table.column("n_gaps").to_pylist() if n)
+
+    def finish(self) -> None:
+        s = self.s
+        s.table_rows = {name: self.rows.get(name, 0) for name in TABLE_NAMES}
+        s.structures_ok, s.structures_failed = self.status.get("ok", 0), self.status.get("failed", 0)
+        s.cofactors_by_class = dict(self.classes)
+        s.failures_by_reason = dict(self.reasons)
+        s.n_wires, s.n_wires_with_gaps = self.wires, self.gapped
+
+
+def _outcome(result: TaskResult, path: str) -> dict[str, Any]:
+    """The per-file outcome of a task result (failures the parent saw become rows)."""
+    if result.kind == "done":
+        return result.value
+    error_class = {"timeout": "Timeout", "memory": "MemoryError"}.get(result.kind, "WorkerCrash")
+    return _failure(path, error_class, f"{path}: {result.value}", result.kind, result.seconds)
+
+
+def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
+           out_dir: str | os.PathLike[str], workers: int | None = None, *,
+           time_limit: float | None = 300.0, memory_limit: float | None = 4.0,
+           table_format: str = "parquet", quiet: bool = False, retry_failed: bool = False,
+           engine: str = "processes", scheduler: str | None = None, report: bool = False,
+           batch_size: int = 32, report_writer: Callable[[Any, Path], Any] | None = None,
+           page_writer: Callable[[Path], Any] | None = None, **options: Any) -> SurveySummary:
+    """Analyse many structure files into one set of tables (see the module docstring).
+
+    Parameters
+    ----------
+    inputs : path-like or iterable of path-like
+        Files, folders (recursive) and glob patterns (see :func:`find_structure_files`).
+    out_dir : path-like
+        Output folder: merged tables, and the state that makes a rerun resume.
+    workers : int, optional
+        Worker processes (default: every core this process may use).
+    time_limit : float or None, optional
+        Seconds one file may take before its worker is killed (default 300; None: no limit).
+    memory_limit : float or None, optional
+        Address-space cap of each worker in GiB (default 4; None: no cap).
+    table_format : {"parquet", "csv"}, optional
+        Format of the merged tables (Parquet by default).
+    quiet : bool, optional
+        No progress bar.
+    retry_failed : bool, optional
+        Analyse again the files that failed in an earlier run into ``out_dir``.
+    engine : {"processes", "dask"}, optional
+        Local process pool (default) or Dask distributed.
+    scheduler : str or None, optional
+        Dask scheduler address; without one a LocalCluster on 127.0.0.1 is started.
+    report : bool, optional
+        Also write a report per structure (with ``report_writer``) and one for the
+        survey (with ``page_writer``); :func:`fescan.survey` passes the writers of
+        :mod:`fescan.report`.
+    report_writer, page_writer : callable, optional
+        ``report_writer(result, folder)`` and ``page_writer(survey_folder)``.
+    batch_size : int, optional
+        Finished files written together as one part (at least every 5 s).
+    **options
+        Options of :func:`fescan.scan` (fields of :class:`fescan.options.ScanOptions`).
+
+    Returns
+    -------
+    SurveySummary
+
+    Raises
+    ------
+    fescan.errors.StructureNotFound
+        An input does not exist, or the inputs hold no structure file.
+    fescan.errors.ConfigError
+        An option is invalid, or ``out_dir`` was surveyed with other options.
+
+    Notes
+    -----
+    Workers start from a ``forkserver`` and, as with any ``multiprocessing``
+    code, import the caller's main script: a script calling :func:`survey`
+    must guard its entry point with ``if __name__ == "__main__":``.
+
+    Examples
+    --------
+    >>> s = survey(["structures/"], "out", workers=4, cutoff=20.0)  # doctest: +SKIP
+    >>> s.failures_by_reason  # doctest: +SKIP
+    {'error': 2, 'timeout': 1}
+    """
+    t_start = time.monotonic()
+    opts = ScanOptions.from_kwargs(**options).to_dict()
+    if engine not in ("processes", "dask"):
+        raise ConfigError(f"engine must be 'processes' or 'dask', not {engine!r}")
+    if table_format not in ("parquet", "csv"):
+        raise ConfigError(f"table format must be 'parquet' or 'csv', not {table_format!r}")
+    if report and report_writer is None:
+        raise ConfigError("report=True needs a report writer: call fescan.survey, which passes one")
+    if batch_size < 1:
+        raise ConfigError(f"batch_size must be at least 1, got {batch_size}")
+    if isinstance(inputs, (str, os.PathLike)):
+        inputs = [inputs]
+    out = Path(out_dir)
+    files = find_structure_files(list(inputs), exclude=out)
+    if not files:
+        raise StructureNotFound(f"no structure files found in {', '.join(map(os.fspath, inputs))}")
+    store = SurveyStore(out, opts)
+    done = store.latest()
+    todo: list[tuple[str, Any]] = []
+    for f in files:
+        key = file_key(f)
+        rec = done.get(key.resolved)
+        if rec and (rec["size"], rec["mtime_ns"]) == (key.size, key.mtime_ns) and (
+                rec["status"] == "ok" or not retry_failed):
+            # a finished file is analysed again only to write a structure report it lacks
+            if not (report and rec["status"] == "ok"
+                    and not (out / "structures" / report_stem(f) / "report.html").is_file()):
+                continue
+        todo.append((f, key))
+    n_workers = max(1, min(workers or default_workers(), len(todo) or 1))
+    summary = SurveySummary(out_dir=str(out), n_files=len(files), n_skipped=len(files) - len(todo),
+                            engine=engine, workers=n_workers)
+    report_dir = str(out / "structures") if report else None
+    if todo:
+        _run(store, todo, summary, opts, report_dir, report_writer, time_limit=time_limit, memory_limit=memory_limit,
+             engine=engine, scheduler=scheduler, batch_size=batch_size, quiet=quiet)
+    totals = _Totals(summary)
+    summary.tables = {k: str(v) for k, v in store.merge(table_format, on_chunk=totals).items()}
+    totals.finish()
+    if report_dir is not None and page_writer is not None:
+        _survey_report(out, page_writer)
+    summary.seconds = time.monotonic() - t_start
+    logger.info("survey done:\n%s", summary.to_text())
+    return summary
+
+
+def _survey_report(out: Path, page_writer: Callable[[Path], Any]) -> None:
+    try:
+        page_writer(out)
+    except Exception as exc:  # the tables stand; say why the report is missing
+        logger.warning("%s: survey report failed: %s: %s", out, type(exc).__name__, exc)
+
+
+def _run(store: SurveyStore, todo: list[tuple[str, Any]], summary: SurveySummary, opts: dict[str, Any],
+         report_dir: str | None, report_writer: Callable[[Any, Path], Any] | None, *, time_limit: float | None, memory_limit: float | None, engine: str,
+         scheduler: str | None, batch_size: int, quiet: bool) -> None:
+    """Run the engine over ``todo``, committing finished files batch by batch."""
+    from tqdm import tqdm
+
+    if engine == "dask":
+        runner: Any = DaskEngine(summary.workers, scheduler, time_limit, memory_limit)
+    else:
+        runner = ProcessPool(summary.workers, time_limit, memory_limit)
+    tasks = [(path, opts, report_dir, report_writer) for path, _ in todo]
+    buf: list[dict[str, Any]] = []
+    keys: list[Any] = []
+    last = time.monotonic()
+    bar = tqdm(total=len(todo), unit="file", file=sys.stderr, disable=quiet, dynamic_ncols=True,
+               desc="survey")
+    try:
+        for result in runner.run(analyse_file, tasks):
+            path, key = todo[result.index]
+            o = _outcome(result, path)
+            _log_outcome(o)
+            if o["status"] == "ok":
+                summary.n_ok += 1
+            else:
+                summary.n_failed += 1
+                if o["failure"]["reason"] == "error" and "traceback" in o:
+                    summary.n_unexpected += 1
+            buf.append(o)
+            keys.append(key)
+            if len(buf) >= batch_size or time.monotonic() - last > _FLUSH_SECONDS:
+                store.commit(buf, keys)
+                buf, keys, last = [], [], time.monotonic()
+            bar.update(1)
+            bar.set_postfix({"ok": summary.n_ok, "failed": summary.n_failed}, refresh=False)
+    finally:
+        if buf:
+            store.commit(buf, keys)
+        bar.close()
+
+
+def _log_outcome(o: dict[str, Any]) -> None:
+    if o.get("traceback"):
+        logger.error("unexpected error (a bug in fescan, please report it) on %s:\n%s", o["file"], o["traceback"])
+    elif o["status"] == "failed":
+        logger.info("failed (%s): %s", o["failure"]["reason"], o["failure"]["message"])
+    if o.get("report_error"):
+        logger.warning("%s: report failed: %s", o["file"], o["report_error"])
+
+
+def _schema_doc() -> str:
+    lines = ["", "Columns", "-------"]
+    for name in TABLE_NAMES:
+        lines.append(f"``{name}``")
+        for c in SCHEMAS[name]:
+            unit = f" [{c.unit}]" if c.unit else ""
+            lines.append(f"    ``{c.name}`` ({c.dtype}{unit}): {c.doc}")
+    return "\n".join(lines) + "\n"
+
+
+if __doc__:  # python -OO strips docstrings
+    __doc__ += _schema_doc()
