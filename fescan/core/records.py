@@ -16,6 +16,7 @@ __all__ = [
     "Cofactor",
     "residue_key",
     "CATEGORIES",
+    "ROLES",
 ]
 
 #: Cofactor categories, in the order tables list them.
@@ -28,6 +29,10 @@ CATEGORIES: tuple[str, ...] = (
     "iron",
     "metal",
 )
+
+
+#: Roles a cofactor can play in electron transfer (see :class:`Cofactor`).
+ROLES: tuple[str, ...] = ("relay", "catalytic", "structural", "ion or additive")
 
 
 def residue_key(chain: str, seqnum: int, icode: str = "") -> str:
@@ -178,6 +183,21 @@ class Cofactor:
     part : str
         Suffix that tells apart several cofactors named by the same residue
         (altloc letter or a running number); empty otherwise.
+    role : str
+        One of :data:`ROLES`: ``"relay"`` (carries single electrons through a
+        chain), ``"catalytic"`` (a multi-electron active site: a wire may start or
+        end there, never pass through), ``"structural"`` (a metal with no redox role
+        at that site) or ``"ion or additive"`` (oxoanions, adventitious ions,
+        additives). Only relays and catalytic sites enter the wire.
+    role_reason : str
+        Why the role was given, in plain words (table row, geometry, user file).
+    subclass : str
+        Finer type that decides the redox couple (``"HiPIP-type"``,
+        ``"ferredoxin-type"``, ``"bc1/b6f-type"``, ``"His/Met"``, ``"type 1"``...);
+        empty when undetermined.
+    states : tuple of str
+        Alternative states modelled on top of each other and merged into this one
+        cofactor (``"CLF A/1001 occ 0.5"``...); empty for a single state.
     """
 
     model: int
@@ -199,6 +219,10 @@ class Cofactor:
     flags: tuple[Flag, ...] = ()
     motif: str | None = None
     part: str = ""
+    role: str = "relay"
+    role_reason: str = ""
+    subclass: str = ""
+    states: tuple[str, ...] = ()
     extra: dict[str, Any] = field(default_factory=dict, compare=False, hash=False)
 
     @property
@@ -256,6 +280,10 @@ class Cofactor:
             "mean_occupancy": round(self.mean_occupancy, 3),
             "mean_b": round(self.mean_b, 2),
             "detected_by": self.detected_by,
+            "role": self.role,
+            "role_reason": self.role_reason,
+            "subclass": self.subclass,
+            "states": list(self.states),
             "ligands": [
                 {
                     "metal": lig.metal,
