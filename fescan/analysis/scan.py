@@ -6,10 +6,11 @@ it unchanged. Its result is plain data (picklable) with ``to_dict()``.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import networkx as nx
+import numpy as np
 
 from fescan.cofactors import count_not_analysed, find_cofactors
 from fescan.core.errors import CofactorNotFound, ConfigError
@@ -17,14 +18,16 @@ from fescan.core.jsonutil import finite_json
 from fescan.core.options import ScanOptions
 from fescan.core.records import Cofactor
 from fescan.structure.reading import StructureInfo, read_structure
-from fescan.transfer.distances import Pair, pair_distances
+from fescan.transfer.context import context_subclasses
+from fescan.transfer.distances import EDGE_CONVENTION, Pair, pair_distances
 from fescan.transfer.graph import build_cofactor_graph
-from fescan.transfer.paths import Wire, all_pair_paths, trace_wire
+from fescan.transfer.paths import Wire, all_pair_paths, choose_endpoints, trace_wire
 from fescan.transfer.potentials import (
+    CofactorParameters,
     Potential,
-    assign_potentials,
-    load_user_parameters,
-    reorganisation_overrides,
+    UserFile,
+    assign_parameters,
+    load_user_file,
 )
 
 __all__ = ["CAUTION", "ScanResult", "scan", "finite_json"]
@@ -53,7 +56,9 @@ class ScanResult:
     pairs : list of Pair
         Cofactor pairs within the cutoff (indices into ``cofactors``).
     potentials : dict of str to Potential
-        Potential used for each cofactor (uid → value and origin).
+        The couple each cofactor works at on this wire (uid → value and origin):
+        a one-electron centre's couple; ``sq/red`` for a two-electron entry,
+        ``ox/sq`` for other flavins and quinones.
     graph : networkx.DiGraph
         Cofactor graph with a hop on every directed edge.
     wire : Wire
@@ -63,6 +68,10 @@ class ScanResult:
     not_analysed : dict of str to int
         Residues of redox-active groups fescan does not model (chlorophylls,
         nicotinamides...), counted by CCD code.
+    parameters : dict of str to CofactorParameters
+        Every parameter of each cofactor (all couples, λ, role override) with its origin.
+    reservoirs : dict of str to float
+        Reservoir potentials (V) the user file sets (``source``, ``sink``).
     """
 
     path: str
@@ -75,6 +84,13 @@ class ScanResult:
     wire: Wire
     all_pairs: list[dict] = field(default_factory=list)
     not_analysed: dict[str, int] = field(default_factory=dict)
+    parameters: dict[str, CofactorParameters] = field(default_factory=dict)
+    reservoirs: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def reorgs(self) -> dict[str, float]:
+        """Per-cofactor λ from the user file (eV), by uid."""
+        return {u: p.reorg for u, p in self.parameters.items() if p.reorg is not None}
 
     def cofactor(self, uid: str) -> Cofactor:
         """The cofactor with this uid."""
@@ -98,20 +114,34 @@ class ScanResult:
 
         No value is NaN or infinite (undefined times are ``None``).
         """
-        pots = {
-            uid: {"e_v": p.e_v, "low_v": p.low_v, "high_v": p.high_v, "source": p.source, "origin": p.origin}
-            for uid, p in self.potentials.items()
-        }
+        pots = {}
+        for uid, p in self.potentials.items():
+            pots[uid] = {"e_v": p.e_v, "low_v": p.low_v, "high_v": p.high_v, "source": p.source,
+                         "origin": p.origin, "couple": p.couple, "step": p.step, "basis": p.basis,
+                         "citation_kind": p.status}
+            if uid in self.parameters:
+                pots[uid]["all_couples"] = [c.to_dict() for c in self.parameters[uid].couples]
         cofs = []
         for c in self.cofactors:
             rec = c.to_dict()
-            rec["potential_v"] = self.potentials[c.uid].e_v
-            rec["potential_origin"] = self.potentials[c.uid].origin
+            pot = self.potentials[c.uid]
+            rec["potential_v"] = pot.e_v
+            rec["potential_origin"] = pot.origin
+            rec["couple_used"] = pot.couple
+            rec["potential_basis"] = pot.basis
+            if c.uid in self.parameters:
+                par = self.parameters[c.uid]
+                rec["potential_subclass"] = par.subclass
+                rec["potential_subclass_reason"] = par.subclass_reason
+                rec["reorg_ev"] = par.reorg
+                rec["reorg_origin"] = par.reorg_origin
             cofs.append(rec)
+        opts = self.options.to_dict()
+        opts["edge_convention"] = EDGE_CONVENTION[self.options.edge_atoms]
         return finite_json({
             "file": self.path,
             "structure": self.info.to_dict(),
-            "options": self.options.to_dict(),
+            "options": opts,
             "symmetry_mates": "included" if self.options.symmetry else "not included (asymmetric unit only)",
             "caution": CAUTION,
             "cofactors": cofs,
@@ -162,22 +192,43 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         sg = st.find_spacegroup()
         if sg is not None and st.cell.is_crystal():
             cell, ops = st.cell, list(sg.operations())
-    pairs = pair_distances(cofactors, opts.cutoff, cell=cell, symmetry_ops=ops)
-    user = load_user_parameters(opts.potentials_file) if opts.potentials_file else None
-    potentials = assign_potentials(cofactors, user)
-    reorgs = reorganisation_overrides(cofactors, user)
+    pairs = pair_distances(cofactors, opts.cutoff, cell=cell, symmetry_ops=ops, edge_convention=opts.edge_atoms)
+    user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
+    params = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
+    cofactors = [replace(c, role=params[c.uid].role, role_reason=f"set in {params[c.uid].role_origin}")
+                 if params[c.uid].role else c for c in cofactors]
+    reorgs = {u: p.reorg for u, p in params.items() if p.reorg is not None}
     packing = None
     if opts.packing == "measured":
         from fescan.transfer.packing import measured_packing_densities
 
         packing = measured_packing_densities(loaded, cofactors, pairs, scale=opts.packing_scale)
-    g = build_cofactor_graph(cofactors, pairs, potentials, opts, reorgs, packing=packing)
+
+    def graph(entry: str | None) -> nx.DiGraph:
+        pots = {u: p.working(entry=u == entry) for u, p in params.items()}
+        g = build_cofactor_graph(cofactors, pairs, pots, opts, reorgs, packing=packing)
+        for u, p in params.items():
+            g.nodes[u]["parameters"] = p
+        return g
+
     try:
-        wire = trace_wire(g, cofactors, opts)
+        g = graph(None)
+        ends = choose_endpoints(g, cofactors, opts)
+        if ends[0] is not None and params[ends[0]].two_electron:
+            g = graph(ends[0])  # a two-electron entry gives its first electron at sq/red
+        wire = trace_wire(g, cofactors, opts, ends)
     except (CofactorNotFound, ConfigError) as exc:  # name the structure in the message
         raise type(exc)(f"{path}: {exc}") from None
+    potentials = {u: g.nodes[u]["potential"] for u in g.nodes}
     if opts.symmetry and ops is None:
         wire.notes.append("symmetry mates requested but the file has no crystal cell/space group")
     extra = all_pair_paths(g, opts) if opts.all_pairs else []
     return ScanResult(str(path), loaded.info, opts, cofactors, pairs, potentials, g, wire, extra,
-                      count_not_analysed(loaded.model))
+                      count_not_analysed(loaded.model), params, dict(user.reservoirs))
+
+
+def _landmarks(model: Any) -> dict[str, np.ndarray]:
+    """Atoms the context rules use (:mod:`fescan.transfer.context`): Trp side chains."""
+    pts = [(a.pos.x, a.pos.y, a.pos.z) for ch in model for res in ch if res.name == "TRP"
+           for a in res if a.name not in ("N", "CA", "C", "O", "CB")]
+    return {"trp_side_chain": np.asarray(pts, dtype=float).reshape(-1, 3)}

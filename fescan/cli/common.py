@@ -48,7 +48,12 @@ def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> N
     g.add_argument("--temperature", type=float, default=298.15, help="temperature in K (default 298.15)")
     g.add_argument("--potentials", metavar="TOML", help="file of per-cofactor potentials (and λ)")
     g.add_argument("--symmetry", action="store_true", help="also consider hops to crystal-symmetry mates")
+    g.add_argument("--edge-atoms", choices=("core", "core+ligands"), default="core",
+                   help="edge of a metal centre: its core atoms (default) or also its first-shell "
+                        "Cys S / His N / Met S ligands")
     if endpoints:
+        g.add_argument("--reverse", action="store_true",
+                       help="run the default wire against the direction chosen from chemistry")
         g.add_argument("--all-pairs", action="store_true", help="also list the fastest path of every pair")
 
 
@@ -58,9 +63,9 @@ def wire_options(a: argparse.Namespace) -> dict:
         "model": a.model, "altloc": a.altloc, "reorg": a.reorg, "packing_density": a.packing_density,
         "gap_limit": a.gap_limit, "cutoff": a.cutoff, "rate_threshold": a.rate_threshold,
         "temperature": a.temperature, "potentials_file": a.potentials, "symmetry": a.symmetry,
-        "packing": a.packing, "packing_scale": a.packing_scale,
+        "packing": a.packing, "packing_scale": a.packing_scale, "edge_atoms": a.edge_atoms,
     }
-    for k in ("entry", "exit", "all_pairs"):
+    for k in ("entry", "exit", "all_pairs", "reverse"):
         if hasattr(a, k):
             out[k] = getattr(a, k)
     return out

@@ -51,9 +51,8 @@ from fescan.core.jsonutil import finite_json
 from fescan.core.records import Cofactor
 from fescan.structure.reading import read_structure
 from fescan.transfer.distances import edge_distance, redox_coordinates
-from fescan.transfer.graph import Hop
+from fescan.transfer.graph import Hop, HopSpec, build_hop
 from fescan.transfer.paths import trace_wire
-from fescan.transfer.rate_law import dg_from_potentials, log10_hop_rate
 
 __all__ = ["Superposition", "CofactorMatch", "HopChange", "CompareResult", "kabsch", "compare"]
 
@@ -449,18 +448,13 @@ class HopChange:
 
 
 def _model_hop(res: ScanResult, d: str, a: str) -> Hop:
-    """The model's hop d → a: from its graph, or computed directly when beyond the cutoff."""
+    """The model's hop d → a: from its graph, or built by the same hop builder when beyond the cutoff."""
     if res.graph.has_edge(d, a):
         return res.graph.edges[d, a]["hop"]
-    o, cd, ca = res.options, res.cofactor(d), res.cofactor(a)
-    r = edge_distance(redox_coordinates(cd), redox_coordinates(ca))
-    dg = float(dg_from_potentials(res.potentials[d].e_v, res.potentials[a].e_v))
-    kw = {"reorg": o.reorg, "packing_density": o.packing_density, "temperature": o.temperature}
-    lf, lb = float(log10_hop_rate(r, dg, **kw)), float(log10_hop_rate(r, -dg, **kw))
+    cd, ca = res.cofactor(d), res.cofactor(a)
+    r = edge_distance(redox_coordinates(cd, res.options.edge_atoms), redox_coordinates(ca, res.options.edge_atoms))
     centre = float(np.linalg.norm(np.subtract(cd.centroid, ca.centroid)))
-    kf = 10.0**lf
-    return Hop(d, a, round(r, 4), round(centre, 4), dg, o.reorg, lf, lb, kf, 10.0**lb,
-               1.0 / kf if kf > 0 else math.inf, r > o.gap_limit, kf < o.rate_threshold)
+    return build_hop(HopSpec(cd, ca, round(r, 4), round(centre, 4)), res.potentials, res.options, res.reorgs)
 
 
 # ----------------------------------------------------------------------------- result

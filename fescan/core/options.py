@@ -47,6 +47,14 @@ class ScanOptions:
         :mod:`fescan.packing`).
     packing_scale : float
         Factor applied to measured ρ values (clipped to 1).
+    edge_atoms : str
+        Which atoms make the edge of a metal centre for edge-to-edge distances:
+        ``"core"`` (metal ions and bridging S; default) or ``"core+ligands"`` (also
+        the first-shell Cys S, His N, Met S). See
+        :data:`fescan.transfer.distances.EDGE_CONVENTION`.
+    reverse : bool
+        Run the default wire against the direction chosen from chemistry (swap
+        entry and exit); ignored when the user names the endpoints.
     """
 
     model: int = 1
@@ -64,6 +72,8 @@ class ScanOptions:
     all_pairs: bool = False
     packing: str = "default"
     packing_scale: float = 1.0
+    edge_atoms: str = "core"
+    reverse: bool = False
 
     def __post_init__(self) -> None:
         if not isinstance(self.model, int) or self.model < 1:
@@ -76,6 +86,8 @@ class ScanOptions:
                 raise ConfigError(f"{name} must be a positive number, got {v!r}")
         if self.packing not in ("default", "measured"):
             raise ConfigError(f"packing must be 'default' or 'measured', got {self.packing!r}")
+        if self.edge_atoms not in ("core", "core+ligands"):
+            raise ConfigError(f"edge_atoms must be 'core' or 'core+ligands', got {self.edge_atoms!r}")
         if not isinstance(self.packing_scale, (int, float)) or not self.packing_scale > 0:
             raise ConfigError(f"packing_scale must be a positive number, got {self.packing_scale!r}")
         if not 0.0 <= self.packing_density <= 1.0:

@@ -22,7 +22,21 @@ from scipy.spatial import cKDTree
 
 from fescan.core.records import Cofactor
 
-__all__ = ["Pair", "redox_coordinates", "edge_distance", "centre_distance", "pair_distances"]
+__all__ = ["EDGE_ATOMS", "EDGE_CONVENTION", "Pair", "edge_atoms", "redox_coordinates", "edge_distance",
+           "centre_distance", "pair_distances"]
+
+#: Conventions for the edge of a metal centre (option ``edge_atoms``).
+EDGE_ATOMS: tuple[str, ...] = ("core", "core+ligands")
+#: Plain words for each convention, shown in every output.
+EDGE_CONVENTION: dict[str, str] = {
+    "core": "edge = redox-active core atoms (metal ions and bridging S of a cluster, Cu ions, "
+            "conjugated rings of hemes, flavins and quinones); first-shell ligands not included",
+    "core+ligands": "edge = redox-active core plus the first-shell protein ligand atoms of metal centres "
+                    "(Cys S, His N, Met S bound to a metal; hemes keep their macrocycle)",
+}
+#: Ligand kinds counted as first-shell ligand atoms with ``core+ligands``.
+_FIRST_SHELL = ("Cys S", "His N", "Met S")
+
 
 
 @dataclass(frozen=True, slots=True)
@@ -53,9 +67,31 @@ class Pair:
     symmetry: str = ""
 
 
-def redox_coordinates(cofactor: Cofactor) -> np.ndarray:
-    """Coordinates of a cofactor's redox-active atoms, shape (n, 3), Å."""
-    return np.asarray([a.xyz for a in cofactor.redox_atoms], dtype=float).reshape(-1, 3)
+def edge_atoms(cofactor: Cofactor, convention: str = "core") -> list[tuple[str, tuple[float, float, float]]]:
+    """Names and coordinates of the atoms that make a cofactor's edge under a convention.
+
+    With ``"core"`` the redox-active atoms; with ``"core+ligands"`` also the
+    first-shell Cys S, His N and Met S atoms bound to a metal of a non-heme centre
+    (the research behind fescan could not confirm which convention Page et al.
+    1999 and Moser et al. 1992 used, so both are offered; see :data:`EDGE_CONVENTION`).
+    """
+    if convention not in EDGE_ATOMS:
+        raise ValueError(f"edge_atoms must be one of {EDGE_ATOMS}, got {convention!r}")
+    out = [(a.name, a.xyz) for a in cofactor.redox_atoms]
+    if convention == "core+ligands" and cofactor.category != "heme":
+        seen = set()
+        for lig in cofactor.ligands:
+            a = lig.atom
+            k = (a.chain, a.seqnum, a.icode, a.name, a.altloc)
+            if lig.kind in _FIRST_SHELL and k not in seen:
+                seen.add(k)
+                out.append((f"{a.resname}{a.seqnum}:{a.name}", a.xyz))
+    return out
+
+
+def redox_coordinates(cofactor: Cofactor, convention: str = "core") -> np.ndarray:
+    """Coordinates of a cofactor's edge atoms (see :func:`edge_atoms`), shape (n, 3), Å."""
+    return np.asarray([xyz for _, xyz in edge_atoms(cofactor, convention)], dtype=float).reshape(-1, 3)
 
 
 def edge_distance(a: np.ndarray, b: np.ndarray) -> float:
@@ -115,6 +151,7 @@ def pair_distances(
     *,
     cell: object | None = None,
     symmetry_ops: Sequence[object] | None = None,
+    edge_convention: str = "core",
 ) -> list[Pair]:
     """Edge-to-edge and centre-to-centre distances of every cofactor pair within a cutoff.
 
@@ -127,6 +164,9 @@ def pair_distances(
         Unit cell; with ``symmetry_ops`` enables hops to symmetry mates.
     symmetry_ops : sequence of gemmi.Op, optional
         Space-group operations (identity included).
+    edge_convention : {"core", "core+ligands"}, optional
+        Which atoms make a metal centre's edge (:func:`edge_atoms`); centres are
+        always the mean of the core atoms.
 
     Returns
     -------
@@ -136,10 +176,11 @@ def pair_distances(
     """
     if len(cofactors) < 2 and not symmetry_ops:
         return []
-    coords = [redox_coordinates(c) for c in cofactors]
+    atoms = [edge_atoms(c, edge_convention) for c in cofactors]
+    coords = [np.asarray([xyz for _, xyz in a], dtype=float).reshape(-1, 3) for a in atoms]
     offsets = np.cumsum([0] + [len(c) for c in coords])
-    names = [a.name for c in cofactors for a in c.redox_atoms]
-    centres = np.asarray([c.mean(axis=0) for c in coords]) if coords else np.zeros((0, 3))
+    names = [n for a in atoms for n, _ in a]
+    centres = np.asarray([redox_coordinates(c).mean(axis=0) for c in cofactors]) if coords else np.zeros((0, 3))
     pairs: dict[tuple[int, int], Pair] = {}
     for (i, j), (d, ia, ib) in _closest(coords, cutoff).items():
         pairs[(i, j)] = Pair(i, j, round(d, 4), round(float(np.linalg.norm(centres[i] - centres[j])), 4),

@@ -1,14 +1,20 @@
 """The electron wire: entry and exit, fastest path, bottleneck, gaps, transfer times.
 
-Two transfer times are reported (both model estimates):
+Times reported (model estimates):
 
-* the **summed hop time**, Σ 1/k_forward along the fastest path: what an
-  electron needs if it only ever steps forward along that path;
-* the **mean first-passage time** (MFPT) from entry to exit over the whole
-  connected component, with forward and back hops between every pair within
-  the cutoff and the exit absorbing: a master-equation answer that counts back
-  steps, detours into side branches and parallel routes. Uphill hops make the
-  MFPT longer than the sum; parallel routes can make it shorter.
+* the **mean first-passage time** (MFPT) of one electron entering an oxidised
+  chain at the entry until it reaches the exit, over the relays connected to the
+  path, with forward and back hops between every pair within the cutoff and the
+  exit absorbing: it counts back steps, detours and parallel routes;
+* the **sum of forward hop times** Σ 1/k_forward along the fastest path, kept
+  under that plain name: it ignores back hops and is not a transit time.
+
+A "gap" is a hop longer than the gap limit; a hop within it but slower than the
+rate threshold is "slow". The bottleneck is the hop with the largest
+flux-control coefficient of the steady-state model when that is solved, else the
+slowest forward hop (``bottleneck_basis`` says which); the slowest forward hop is
+always kept as ``slowest_hop``. Structural and ion cofactors never carry an
+electron, and catalytic sites are endpoints only (:func:`routable`).
 """
 
 from __future__ import annotations
@@ -27,7 +33,7 @@ from fescan.core.records import Cofactor
 from fescan.transfer.graph import Hop
 from fescan.transfer.rate_law import mean_first_passage_time, summed_hop_time
 
-__all__ = ["Wire", "parse_selector", "find_cofactor", "choose_endpoints", "trace_wire", "all_pair_paths"]
+__all__ = ["Wire", "parse_selector", "find_cofactor", "choose_endpoints", "routable", "trace_wire", "all_pair_paths"]
 
 _SELECTOR = re.compile(r"^\s*([^/\s]+)\s*/\s*(-?\d+)\s*([A-Za-z]?)\s*$")
 
@@ -47,9 +53,16 @@ class Wire:
     hops : list of Hop
         Hops along the path, in order.
     bottleneck : Hop or None
-        The slowest hop of the path.
+        The hop that limits the flux: the largest flux-control coefficient of the
+        steady-state model when it was solved, else the slowest forward hop
+        (``bottleneck_basis`` says which).
+    bottleneck_basis : str
+    slowest_hop : Hop or None
+        The hop with the smallest forward rate.
     gaps : list of Hop
-        Hops of the path longer than the gap limit or slower than the threshold.
+        Hops of the path longer than the gap limit.
+    slow_hops : list of Hop
+        Hops of the path within the gap limit but slower than the rate threshold.
     isolated : list of str
         Cofactors with no partner inside the gap limit.
     branches : list of dict
@@ -60,9 +73,14 @@ class Wire:
         Other groups of two or more cofactors joined within the gap limit but
         not to the path (other copies in the asymmetric unit, other chains).
     summed_hop_time : float or None
-        Σ 1/k_forward along the path (s).
+        Sum of forward hop times Σ 1/k_forward along the path (s): ignores back
+        hops, not a transit time.
     mean_first_passage_time : float or None
-        Mean first-passage time entry → exit over the connected component (s).
+        Mean first-passage time of one electron entering an oxidised chain at the
+        entry, until it reaches the exit (s), over the connected relays.
+    steady_state : dict or None
+        Steady-state flux between reservoirs (``flux_per_s``, ``occupancy``,
+        ``control``, ``sensitivity``...), when solved.
     notes : list of str
     """
 
@@ -72,12 +90,16 @@ class Wire:
     path: list[str] = field(default_factory=list)
     hops: list[Hop] = field(default_factory=list)
     bottleneck: Hop | None = None
+    bottleneck_basis: str = ""
+    slowest_hop: Hop | None = None
     gaps: list[Hop] = field(default_factory=list)
+    slow_hops: list[Hop] = field(default_factory=list)
     isolated: list[str] = field(default_factory=list)
     branches: list[dict] = field(default_factory=list)
     groups: list[list[str]] = field(default_factory=list)
     summed_hop_time: float | None = None
     mean_first_passage_time: float | None = None
+    steady_state: dict | None = None
     notes: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict:
@@ -93,12 +115,19 @@ class Wire:
             "path": list(self.path),
             "hops": [h.to_dict() for h in self.hops],
             "bottleneck": self.bottleneck.to_dict() if self.bottleneck else None,
+            "bottleneck_basis": self.bottleneck_basis,
+            "slowest_hop": self.slowest_hop.to_dict() if self.slowest_hop else None,
             "gaps": [h.to_dict() for h in self.gaps],
+            "slow_hops": [h.to_dict() for h in self.slow_hops],
             "isolated": list(self.isolated),
             "branches": list(self.branches),
             "groups": [list(x) for x in self.groups],
             "summed_hop_time_s": t(self.summed_hop_time),
+            "sum_of_forward_hop_times_s": t(self.summed_hop_time),
             "mean_first_passage_time_s": t(self.mean_first_passage_time),
+            "mean_first_passage_time_meaning": "one electron entering an oxidised chain at the entry, until it "
+                                               "reaches the exit (model estimate)",
+            "steady_state": self.steady_state,
             "connected": bool(self.path),
             "notes": list(self.notes),
         }
@@ -159,65 +188,183 @@ def _farthest(u: nx.Graph, g: nx.DiGraph, source: str) -> str | None:
     return max(sorted(comp), key=lambda n: float(np.linalg.norm(_centre(g, n) - src)))
 
 
+_HYDROGENASE = ("NiFe", "H-cluster")
+_ROUTE_ROLES = ("relay",)
+
+
+def _params(g: nx.DiGraph, n: str):
+    return g.nodes[n].get("parameters")
+
+
+def _subclass(g: nx.DiGraph, n: str) -> str:
+    p = _params(g, n)
+    return p.subclass if p is not None else g.nodes[n]["cofactor"].subclass
+
+
+def _role(g: nx.DiGraph, n: str) -> str:
+    p = _params(g, n)
+    if p is not None and p.role:
+        return p.role
+    return g.nodes[n]["cofactor"].role
+
+
+def _potential(g: nx.DiGraph, n: str) -> float:
+    e = g.nodes[n]["potential"].e_v
+    return e if math.isfinite(e) else 0.0
+
+
+def _fastest(g: nx.DiGraph, entry: str, targets: list[str], order: dict[str, int]) -> str | None:
+    best, best_t = None, math.inf
+    for x in sorted(targets, key=order.__getitem__):
+        try:
+            t = nx.dijkstra_path_length(g, entry, x, weight="hop_time")
+        except nx.NetworkXNoPath:
+            continue
+        if t < best_t:
+            best, best_t = x, t
+    return best
+
+
+def _chemistry_rules(g: nx.DiGraph, cofactors: Sequence[Cofactor], u: nx.Graph,
+                     order: dict[str, int]) -> tuple[str | None, str | None, str]:
+    """Default entry and exit from the cofactors' chemistry (see :func:`choose_endpoints`)."""
+    nodes = [c.uid for c in cofactors if c.uid in u]
+
+    def comp(n: str) -> set[str]:
+        return nx.node_connected_component(u, n)
+
+    def kind(pred) -> list[str]:
+        return [n for n in nodes if pred(g.nodes[n]["cofactor"])]
+
+    quinones = kind(lambda c: c.category == "quinone")
+    hemes = kind(lambda c: c.category == "heme")
+    flavins = kind(lambda c: c.category == "flavin")
+
+    def downstream(entry: str) -> tuple[str | None, str]:
+        reach = comp(entry) - {entry}
+        for label, group in (("quinone", quinones), ("heme", hemes)):
+            x = _fastest(g, entry, [q for q in group if q in reach], order)
+            if x is not None:
+                return x, f"fastest-reached {label} as exit"
+        far = _farthest(u, g, entry)
+        return far, "farthest connected cofactor as exit"
+
+    for n in nodes:  # hydrogenase or Mo/W site -> relays -> quinone
+        c = g.nodes[n]["cofactor"]
+        if c.cls in _HYDROGENASE or c.cls.startswith("NiFe") or c.category == "pterin":
+            exit_, how = downstream(n)
+            if exit_ is not None:
+                site = "hydrogenase site (H2 oxidation)" if c.category != "pterin" else "Mo/W-pterin site (substrate oxidation)"
+                return n, exit_, f"chemistry: {site} as entry, {how}; electrons leave the active site through the relays"
+    cua = kind(lambda c: c.cls == "CuA")
+    if cua:
+        reach = comp(cua[0])
+        a3 = [n for n in hemes if n in reach and _subclass(g, n) == "heme a3"]
+        target = a3 or [n for n in hemes if n in reach]
+        x = _fastest(g, cua[0], target, order)
+        if x is not None:
+            return cua[0], x, ("chemistry: heme-copper oxidase, cytochrome c -> CuA -> heme a -> "
+                               f"{'heme a3-CuB' if a3 else 'heme'} (O2 reduction)")
+    qa = [n for n in quinones if _subclass(g, n) == "photosystem II QA"]
+    for a in qa:
+        qb = [n for n in quinones if _subclass(g, n) == "photosystem II QB" and n in comp(a)]
+        if qb:
+            return a, qb[0], "chemistry: photosystem II, QA -> QB (QA never takes a second electron)"
+    for f in flavins:
+        group = comp(f)
+        mk = [n for n in quinones if g.nodes[n]["cofactor"].cls == "menaquinone" and n in group]
+        fes = [n for n in group if g.nodes[n]["cofactor"].category == "iron-sulfur"]
+        if mk and fes:
+            return mk[0], f, ("chemistry: flavoprotein with Fe-S relays and a menaquinone: menaquinol -> "
+                              "clusters -> flavin (fumarate reduction, as in quinol:fumarate reductase)")
+        sdh = [n for n in fes if _subclass(g, n) == "SDH/QFR-type"]
+        f3s = [n for n in sdh if g.nodes[n]["cofactor"].cls == "[3Fe-4S]"]
+        if f3s and not any(n in group for n in hemes):
+            q = [n for n in quinones if n in group]
+            start = q[0] if q else f3s[0]
+            where = "the quinone" if q else "the [3Fe-4S] next to the (unmodelled) quinol site"
+            return start, f, ("chemistry: succinate dehydrogenase/fumarate reductase family without heme "
+                              "(type D, a quinol:fumarate reductase; Lemos et al. 2002 Biochim Biophys Acta "
+                              f"1553:158, from memory): quinol -> clusters -> flavin, starting at {where}")
+    for f in flavins:
+        exit_, how = downstream(f)
+        if exit_ is not None:
+            return f, exit_, f"chemistry: substrate-oxidising flavin as entry, {how}"
+    comps = sorted(nx.connected_components(u), key=lambda c: (-len(c), min(order[n] for n in c)))
+    if not comps or len(comps[0]) < 2:
+        return None, None, "no two cofactors within the cutoff"
+    members = sorted(comps[0], key=order.__getitem__)
+    a, b = max(
+        ((x, y) for i, x in enumerate(members) for y in members[i + 1:]),
+        key=lambda p: float(np.linalg.norm(_centre(g, p[0]) - _centre(g, p[1]))),
+    )
+    if _potential(g, b) < _potential(g, a):
+        a, b = b, a
+    return a, b, ("default: the two ends of the longest chain, from the lower to the higher "
+                  "potential (electrons run downhill)")
+
+
 def choose_endpoints(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOptions) -> tuple[str | None, str | None, str]:
-    """Pick entry and exit: the user's, else a flavin → quinone/heme, else the longest chain.
+    """Pick entry and exit: the user's, else by the cofactors' chemistry.
 
-    Default rules (every hop up to the cutoff counts as a connection here, so a
-    relay gap shows up on the path instead of silently shortening the wire):
+    Default rules, first that applies (every hop up to the cutoff counts as a
+    connection, so a relay gap shows up on the path; structural and ion cofactors
+    are never endpoints):
 
-    1. entry = the first flavin; exit = the quinone reached fastest from it,
-       else the heme reached fastest;
-    2. a flavin but no reachable quinone or heme: exit = the connected cofactor
-       whose centre lies farthest from the flavin;
-    3. no flavin: the two cofactors farthest apart (centre to centre) in the
-       connected group with the most cofactors.
+    1. a hydrogenase (NiFe, H-cluster) or Mo/W-pterin site → the fastest-reached
+       quinone, else heme, else the farthest relay (H2 or substrate oxidation);
+    2. CuA → heme a3 (heme a next to a copper), else the fastest-reached heme
+       (heme-copper oxidase: cytochrome c → CuA → heme a → heme a3–CuB);
+    3. photosystem II QA → QB;
+    4. a flavin with Fe–S relays and a menaquinone, or with SDH/QFR-type
+       clusters and no heme (type D of the family, a quinol:fumarate
+       reductase): quinone (else the [3Fe-4S] next to the quinol site) → flavin;
+    5. a flavin (substrate-oxidising) → the fastest-reached quinone, else heme,
+       else the farthest connected cofactor;
+    6. otherwise the two ends of the longest chain, from the lower to the
+       higher potential.
+
+    ``options.reverse`` swaps the default entry and exit.
 
     Returns
     -------
     entry, exit : str or None
     how : str
-        Plain-words reason.
+        Which rule, and why, in plain words.
     """
     order = {c.uid: k for k, c in enumerate(cofactors)}
-    u = _undirected_within(g, options.cutoff)
+    usable = [c.uid for c in cofactors if _role(g, c.uid) in ("relay", "catalytic")]
+    u = _undirected_within(g.subgraph(usable), options.cutoff)
     if options.entry or options.exit:
         entry = find_cofactor(cofactors, options.entry).uid if options.entry else None
         exit_ = find_cofactor(cofactors, options.exit).uid if options.exit else None
         if entry and exit_ and entry == exit_:
             raise ConfigError(f"entry and exit name the same cofactor ({options.entry}, {options.exit})")
         if entry and not exit_:
-            exit_ = _farthest(u, g, entry)
+            exit_ = _farthest(u, g, entry) if entry in u else None
             return entry, exit_, "entry chosen by the user, farthest connected cofactor as exit"
         if exit_ and not entry:
-            entry = _farthest(u, g, exit_)
+            entry = _farthest(u, g, exit_) if exit_ in u else None
             return entry, exit_, "exit chosen by the user, farthest connected cofactor as entry"
         return entry, exit_, "chosen by the user"
-    if len(cofactors) < 2:
-        return None, None, "fewer than two cofactors"
-    flavins = [c.uid for c in cofactors if c.category == "flavin"]
-    quinones = [c.uid for c in cofactors if c.category == "quinone"]
-    hemes = [c.uid for c in cofactors if c.category == "heme"]
-    for entry in flavins:
-        comp = nx.node_connected_component(u, entry)
-        for kind, group in (("quinone", quinones), ("heme", hemes)):
-            reach = [x for x in group if x in comp]
-            if reach:
-                best = min(reach, key=lambda x: (nx.dijkstra_path_length(g, entry, x, weight="hop_time"), order[x]))
-                return entry, best, f"default: flavin entry, fastest-reached {kind} exit"
-    if flavins:
-        entry = flavins[0]
-        far = _farthest(u, g, entry)
-        if far is not None:
-            return entry, far, "default: flavin entry, farthest connected cofactor as exit"
-    comps = sorted(nx.connected_components(u), key=lambda c: (-len(c), min(order[n] for n in c)))
-    if not comps or len(comps[0]) < 2:
-        return None, None, f"no two cofactors within {options.cutoff:g} Å"
-    nodes = sorted(comps[0], key=order.__getitem__)
-    a, b = max(
-        ((x, y) for i, x in enumerate(nodes) for y in nodes[i + 1:]),
-        key=lambda p: float(np.linalg.norm(_centre(g, p[0]) - _centre(g, p[1]))),
-    )
-    return a, b, "default: the two ends of the longest chain"
+    if len(usable) < 2:
+        return None, None, "fewer than two relay or catalytic cofactors"
+    entry, exit_, how = _chemistry_rules(g, cofactors, u, order)
+    if options.reverse and entry is not None and exit_ is not None:
+        return exit_, entry, how + "; reversed on request (--reverse)"
+    if entry is not None:
+        how += "; the other direction: --reverse"
+    return entry, exit_, how
+
+
+def routable(g: nx.DiGraph, entry: str, exit_: str) -> nx.DiGraph:
+    """The part of the graph a wire may use: relays, plus the entry and exit.
+
+    Catalytic sites may be an endpoint but never an interior node; structural
+    and ion cofactors never carry an electron.
+    """
+    keep = [n for n in g.nodes if n in (entry, exit_) or _role(g, n) in _ROUTE_ROLES]
+    return g.subgraph(keep)
 
 
 def _mfpt(g: nx.DiGraph, entry: str, exit_: str) -> float:
@@ -232,15 +379,22 @@ def _mfpt(g: nx.DiGraph, entry: str, exit_: str) -> float:
     return float(mean_first_passage_time(rates, ix[entry], ix[exit_]))
 
 
-def trace_wire(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOptions) -> Wire:
+def trace_wire(
+    g: nx.DiGraph,
+    cofactors: Sequence[Cofactor],
+    options: ScanOptions,
+    endpoints: tuple[str | None, str | None, str] | None = None,
+) -> Wire:
     """Trace the wire of one structure (see the module docstring).
 
     Parameters
     ----------
     g : networkx.DiGraph
-        From :func:`fescan.graph.build_cofactor_graph`.
+        From :func:`fescan.transfer.graph.build_cofactor_graph`.
     cofactors : sequence of Cofactor
     options : ScanOptions
+    endpoints : (entry, exit, how), optional
+        Already chosen endpoints (:func:`choose_endpoints`); chosen here when omitted.
 
     Returns
     -------
@@ -250,31 +404,35 @@ def trace_wire(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOption
     u = _undirected_within(g, options.gap_limit)
     order = {c.uid: k for k, c in enumerate(cofactors)}
     w.isolated = [n for n in g.nodes if u.degree(n) == 0] if len(g) > 1 else []
-    entry, exit_, how = choose_endpoints(g, cofactors, options)
+    entry, exit_, how = endpoints if endpoints is not None else choose_endpoints(g, cofactors, options)
     w.entry, w.exit, w.how_chosen = entry, exit_, how
     if entry is None or exit_ is None or entry == exit_:
         w.notes.append("no wire: " + how)
         w.groups = _groups(u, set(), order)
         return w
+    r = routable(g, entry, exit_)
     try:
-        path = nx.dijkstra_path(g, entry, exit_, weight="hop_time")
+        path = nx.dijkstra_path(r, entry, exit_, weight="hop_time")
     except nx.NetworkXNoPath:
-        w.notes.append(f"no chain of hops within {options.cutoff:g} Å joins entry and exit")
+        w.notes.append(f"no chain of relay hops within {options.cutoff:g} Å joins entry and exit")
         w.mean_first_passage_time = math.inf
         w.groups = _groups(u, {entry, exit_}, order)
         return w
     w.path = path
     w.hops = [g.edges[a, b]["hop"] for a, b in zip(path, path[1:])]
-    w.bottleneck = max(w.hops, key=lambda h: h.hop_time)
-    w.gaps = [h for h in w.hops if h.gap or h.slow]
+    w.slowest_hop = max(w.hops, key=lambda h: h.hop_time)
+    w.bottleneck = w.slowest_hop
+    w.bottleneck_basis = "slowest forward hop (no steady-state solution)"
+    w.gaps = [h for h in w.hops if h.gap]
+    w.slow_hops = [h for h in w.hops if h.slow and not h.gap]
     w.summed_hop_time = summed_hop_time([h.k_forward for h in w.hops])
-    w.mean_first_passage_time = _mfpt(g, entry, exit_)
+    w.mean_first_passage_time = _mfpt(r, entry, exit_)
     ratio = w.mean_first_passage_time / w.summed_hop_time if w.summed_hop_time > 0 else 1.0
     if ratio > 3.0:
         uphill = [h for h in w.hops if h.dg > 0.01]
         why = (f"{len(uphill)} uphill hop(s) on the path, largest ΔG {max(h.dg for h in uphill):+.2f} eV"
                if uphill else "detours into side branches and parallel routes")
-        w.notes.append(f"the mean first-passage time is {ratio:.3g} times the summed hop time ({why}); "
+        w.notes.append(f"the mean first-passage time is {ratio:.3g} times the sum of forward hop times ({why}); "
                        "check the potentials used")
     w.branches = _branches(g, u, path, order)
     w.groups = _groups(u, set(path), order)
@@ -285,12 +443,15 @@ def trace_wire(g: nx.DiGraph, cofactors: Sequence[Cofactor], options: ScanOption
 def _caveats(g: nx.DiGraph, w: Wire, options: ScanOptions) -> list[str]:
     """Plain-words warnings about what the path rests on."""
     notes = []
-    weak = [n for n in w.path if g.nodes[n]["potential"].status == "MEMORY"
-            and not g.nodes[n]["potential"].origin.startswith("user")]
+    weak = [n for n in w.path if g.nodes[n]["potential"].status == "from memory"]
     if weak:
-        notes.append("potentials given from memory or as placeholders for: " + ", ".join(
+        notes.append("class defaults given from memory (not measured for this protein) for: " + ", ".join(
             f"{g.nodes[n]['cofactor'].label} ({g.nodes[n]['potential'].e_v:+.3f} V)" for n in weak)
             + "; set measured values in a potentials file")
+    unknown = [g.nodes[n]["cofactor"].label for n in w.path if not g.nodes[n]["potential"].determined]
+    if unknown:
+        notes.append("potential undetermined for " + ", ".join(unknown) + ": hops to and from it assume "
+                     "ΔG = 0; give its potential in a potentials file")
     fe = [g.nodes[n]["cofactor"].label for n in w.path[1:-1] if g.nodes[n]["cofactor"].cls == "mononuclear Fe"]
     if fe:
         notes.append(f"mononuclear non-heme Fe on the path ({', '.join(fe)}): such sites are often not "

@@ -1,38 +1,55 @@
-"""Midpoint potentials of cofactors: packaged defaults per class and user overrides.
+"""One parameter record per cofactor: its couples, λ and role, each with its origin.
 
-The defaults live in the packaged table ``fescan/data/potentials.csv`` (one row per
-cofactor class, plus one fallback row per category with class ``*``); every row
-states its source and whether the value was read in a source (``FOUND``,
-``FOUND (secondary)``) or given from memory (``MEMORY``). A user can override the
-potential and the reorganisation energy of single cofactors with a TOML file::
+Defaults come from the packaged couples table (:mod:`fescan.transfer.couples`),
+chosen by class and sub-class (structural, or by context:
+:mod:`fescan.transfer.context`). A user overrides single cofactors with a TOML
+file; a cofactor is named by its selector ``CHAIN/RESNUM[ICODE]`` or by its full
+id ``MODEL:CHAIN/RESNUM[ICODE]:CODE``::
 
     [cofactor."A/56"]
-    potential = -0.42      # V vs SHE
-    reorganisation = 0.6   # eV, optional
+    potential = -0.42          # V vs SHE, a one-electron centre
+    reorganisation = 0.6       # eV, optional
 
-    [cofactor."B/245A"]
-    potential = 0.06
+    [cofactor."1:A/1:FMN"]
+    potential_ox_sq = -0.414   # V, flavin / quinone oxidised/semiquinone couple
+    potential_sq_red = -0.336  # V, semiquinone/reduced couple
+    role = "catalytic"         # optional: relay, catalytic, structural, ion or additive
 
-Every :class:`Potential` says where it came from (``origin``): ``"default"`` or
-``"user file <path>"``.
+    [reservoirs]
+    source = -0.32             # V, pool feeding the entry (here NAD+/NADH)
+    sink = 0.09                # V, pool draining the exit
+
+**The couple a hop uses** (one electron at a time along the wire): a one-electron
+centre has one couple. A two-electron cofactor at the *entry* starts fully
+reduced by its substrate (a flavin reduced by NADH, a quinol) and gives its first
+electron at the ``sq/red`` couple; everywhere else (an interior quinone, the exit
+quinone receiving its first electron) it works between oxidised and semiquinone,
+at ``ox/sq``; so does a sub-class that is a one-electron carrier in its protein
+(photosystem II QA, photosystem I A1), even at the entry. The steady-state model
+uses both couples.
 """
 
 from __future__ import annotations
 
-import csv
-import io
 import math
 import os
 import re
 import sys
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass
-from functools import lru_cache
-from importlib import resources
+from dataclasses import dataclass, field
 from pathlib import Path
 
 from fescan.core.errors import ConfigError
-from fescan.core.records import Cofactor, residue_key
+from fescan.core.records import ROLES, Cofactor, residue_key
+from fescan.transfer.couples import (
+    CITATION_KINDS,
+    CLASS_DEFAULT,
+    STEPS,
+    Potential,
+    couple_table,
+    default_couples,
+    subclass_steps,
+)
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -40,225 +57,150 @@ else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
 __all__ = [
-    "STATUSES",
+    "STEPS",
+    "CITATION_KINDS",
+    "CLASS_DEFAULT",
     "POTENTIAL_RANGE_V",
     "Potential",
-    "PotentialRow",
     "UserParameters",
-    "potential_table",
+    "UserFile",
+    "CofactorParameters",
+    "couple_table",
+    "default_couples",
     "default_potential",
+    "load_user_file",
     "load_user_parameters",
+    "assign_parameters",
     "assign_potentials",
     "reorganisation_overrides",
 ]
 
-#: Allowed values of the ``status`` column of the packaged table.
-STATUSES: tuple[str, ...] = ("FOUND", "FOUND (secondary)", "MEMORY")
 #: Accepted range (V) of a user-given midpoint potential.
 POTENTIAL_RANGE_V: tuple[float, float] = (-1.5, 1.5)
 
-_COLUMNS = (
-    "class",
-    "category",
-    "e_mid_v",
-    "e_low_v",
-    "e_high_v",
-    "n_electrons",
-    "source",
-    "status",
-    "couple",
-)
-_FALLBACK_CLASS = "*"
-_SELECTOR_RE = re.compile(r"^\s*([^/\s]+)\s*/\s*(-?\d+)\s*([A-Za-z]?)\s*$")
+_SELECTOR_RE = re.compile(r"^\s*([^/\s:]+)\s*/\s*(-?\d+)\s*([A-Za-z]?)\s*$")
+_FULL_ID_RE = re.compile(r"^\s*(\d+)\s*:\s*([^:]+?)\s*:\s*(\S+)\s*$")
 _REORG_KEYS = ("reorganisation", "reorganization")
-_KNOWN_KEYS = ("potential", *_REORG_KEYS)
-
-
-@dataclass(frozen=True, slots=True)
-class Potential:
-    """Midpoint potential assigned to one cofactor.
-
-    Attributes
-    ----------
-    e_v : float
-        Midpoint potential used, in V vs SHE.
-    low_v, high_v : float
-        Typical range of the class in V (both equal ``e_v`` for a user value).
-    source : str
-        Citation or explanation of the value.
-    origin : str
-        ``"default"`` (packaged table) or ``"user file <path>"``.
-    status : str
-        ``FOUND``, ``FOUND (secondary)`` or ``MEMORY`` for defaults, ``"user"`` for
-        user values.
-    couple : str
-        Redox couple the value refers to (e.g. ``"[4Fe-4S] 2+/1+"``), when known.
-    """
-
-    e_v: float
-    low_v: float
-    high_v: float
-    source: str
-    origin: str
-    status: str = ""
-    couple: str = ""
-
-
-@dataclass(frozen=True, slots=True)
-class PotentialRow:
-    """One row of the packaged default-potential table (``fescan/data/potentials.csv``).
-
-    Attributes
-    ----------
-    cls : str
-        Cofactor class, or ``"*"`` for the fallback row of a category.
-    category : str
-        Cofactor category (see :data:`fescan.model.CATEGORIES`).
-    e_mid_v, e_low_v, e_high_v : float
-        Default midpoint potential and typical range of the class, in V vs SHE.
-    n_electrons : int
-        Electrons of the couple the value refers to.
-    source, status, couple : str
-        Citation, evidence status (one of :data:`STATUSES`) and redox couple.
-    """
-
-    cls: str
-    category: str
-    e_mid_v: float
-    e_low_v: float
-    e_high_v: float
-    n_electrons: int
-    source: str
-    status: str
-    couple: str
-
-    def to_potential(self) -> Potential:
-        """Return this row as a default :class:`Potential`."""
-        return Potential(
-            e_v=self.e_mid_v,
-            low_v=self.e_low_v,
-            high_v=self.e_high_v,
-            source=self.source,
-            origin="default",
-            status=self.status,
-            couple=self.couple,
-        )
+_POT_KEYS = ("potential", "potential_ox_sq", "potential_sq_red")
+_KNOWN_KEYS = (*_POT_KEYS, *_REORG_KEYS, "role")
+_RESERVOIR_KEYS = ("source", "sink")
 
 
 @dataclass(frozen=True, slots=True)
 class UserParameters:
-    """Parameters a user file gives for one cofactor.
+    """What a user file gives for one cofactor (``None`` = not given).
 
     Attributes
     ----------
     selector : str
-        Normalised selector ``CHAIN/RESNUM[ICODE]``.
+        Normalised selector ``CHAIN/RESNUM[ICODE]`` or full id ``MODEL:CHAIN/RESNUM:CODE``.
     path : str
         File the values were read from.
-    potential : float or None
-        Midpoint potential in V, or ``None`` when not given.
+    potential, potential_ox_sq, potential_sq_red : float or None
+        Couples in V (one-electron centre; the two couples of a flavin or quinone).
     reorganisation : float or None
-        Reorganisation energy λ in eV, or ``None`` when not given.
+        λ in eV.
+    role : str or None
+        Role override, one of :data:`fescan.core.records.ROLES`.
     """
 
     selector: str
     path: str
     potential: float | None = None
     reorganisation: float | None = None
+    potential_ox_sq: float | None = None
+    potential_sq_red: float | None = None
+    role: str | None = None
+
+    def matches(self, cof: Cofactor) -> bool:
+        """Whether this selector names *cof* (full id, or key in any model)."""
+        return cof.uid == self.selector if ":" in self.selector else cof.key == self.selector
 
 
-def _parse_row(rec: dict[str, str], line: int) -> PotentialRow:
-    """Convert one CSV record of the packaged table, checking it."""
-    where = f"fescan/data/potentials.csv line {line}"
-    try:
-        row = PotentialRow(
-            cls=rec["class"].strip(),
-            category=rec["category"].strip(),
-            e_mid_v=float(rec["e_mid_v"]),
-            e_low_v=float(rec["e_low_v"]),
-            e_high_v=float(rec["e_high_v"]),
-            n_electrons=int(rec["n_electrons"]),
-            source=rec["source"].strip(),
-            status=rec["status"].strip(),
-            couple=rec["couple"].strip(),
-        )
-    except (KeyError, TypeError, ValueError) as exc:
-        raise RuntimeError(f"{where}: malformed row ({exc})") from None
-    if not row.cls or not row.category or not row.source:
-        raise RuntimeError(f"{where}: empty class, category or source")
-    if row.status not in STATUSES:
-        raise RuntimeError(f"{where}: status {row.status!r} is not one of {STATUSES}")
-    if not row.e_low_v <= row.e_mid_v <= row.e_high_v:
-        raise RuntimeError(f"{where}: e_mid_v must lie within [e_low_v, e_high_v]")
-    return row
+@dataclass(frozen=True, slots=True)
+class UserFile:
+    """A parsed parameter file: per-cofactor values and reservoir potentials (V)."""
+
+    path: str
+    cofactors: dict[str, UserParameters] = field(default_factory=dict)
+    reservoirs: dict[str, float] = field(default_factory=dict)
 
 
-@lru_cache(maxsize=1)
-def potential_table() -> tuple[PotentialRow, ...]:
-    """Return the packaged table of default midpoint potentials.
+@dataclass(frozen=True, slots=True)
+class CofactorParameters:
+    """Every parameter of one cofactor, each with where it came from.
 
-    Returns
-    -------
-    tuple of PotentialRow
-        One row per class, then the category fallbacks (class ``"*"``), in file order.
-
-    Examples
-    --------
-    >>> rows = potential_table()
-    >>> next(r for r in rows if r.cls == "[4Fe-4S]").couple
-    '[4Fe-4S] 2+/1+'
-    """
-    text = resources.files("fescan").joinpath("data").joinpath("potentials.csv").read_text("utf-8")
-    reader = csv.DictReader(io.StringIO(text))
-    if tuple(reader.fieldnames or ()) != _COLUMNS:
-        raise RuntimeError(f"fescan/data/potentials.csv: columns must be {_COLUMNS}")
-    rows = tuple(_parse_row(rec, i) for i, rec in enumerate(reader, start=2))
-    keys = [(r.cls, r.category) if r.cls == _FALLBACK_CLASS else r.cls for r in rows]
-    if len(set(keys)) != len(keys):
-        raise RuntimeError("fescan/data/potentials.csv: duplicate class rows")
-    return rows
-
-
-def default_potential(cls: str, category: str) -> Potential:
-    """Return the default midpoint potential of a cofactor class.
-
-    Parameters
+    Attributes
     ----------
-    cls : str
-        Class label as :attr:`fescan.model.Cofactor.cls` writes it (``"[4Fe-4S]"``,
-        ``"FMN"``, ``"heme c"``...). Matched exactly.
-    category : str
-        Category of the cofactor, used when the class has no row of its own.
+    uid, label : str
+    couples : tuple of Potential
+        ``(1e,)`` for a one-electron centre, ``(ox/sq, sq/red)`` for a flavin or quinone.
+    subclass, subclass_reason : str
+        Sub-class used to choose the couples (structural or by context) and why.
+    reorg : float or None
+        λ of this cofactor (eV) from the user file; ``None`` = the option's global λ.
+    reorg_origin : str
+    role : str or None
+        Role override from the user file (``None`` = the detected role).
+    role_origin : str
+    one_electron_carrier : bool
+        A two-electron cofactor whose sub-class works as a one-electron carrier
+        (photosystem II QA, photosystem I A1): it uses ``ox/sq`` even at the entry.
+    """
 
-    Returns
-    -------
-    Potential
-        The class row, else the fallback row of the category, with origin ``"default"``.
+    uid: str
+    label: str
+    couples: tuple[Potential, ...]
+    subclass: str = ""
+    subclass_reason: str = ""
+    reorg: float | None = None
+    reorg_origin: str = "global λ (option)"
+    role: str | None = None
+    role_origin: str = ""
+    one_electron_carrier: bool = False
 
-    Raises
-    ------
-    fescan.errors.ConfigError
-        If neither the class nor the category has a default; give the potential of
-        such a cofactor in a user file.
+    @property
+    def two_electron(self) -> bool:
+        """Whether the cofactor has two one-electron couples (flavin, quinone)."""
+        return len(self.couples) == 2
+
+    def couple(self, step: str) -> Potential:
+        """The couple of this step (``1e``, ``ox/sq`` or ``sq/red``)."""
+        for p in self.couples:
+            if p.step == step:
+                return p
+        raise KeyError(f"{self.label} has no {step} couple")
+
+    def working(self, *, entry: bool = False) -> Potential:
+        """The couple a one-electron hop uses (module docstring): sq/red at the entry, else ox/sq."""
+        if not self.two_electron:
+            return self.couples[0]
+        return self.couple("sq/red" if entry and not self.one_electron_carrier else "ox/sq")
+
+    def to_dict(self) -> dict:
+        """JSON-ready record."""
+        return {"uid": self.uid, "couples": [p.to_dict() for p in self.couples], "subclass": self.subclass,
+                "subclass_reason": self.subclass_reason, "reorg_ev": self.reorg, "reorg_origin": self.reorg_origin,
+                "role": self.role, "role_origin": self.role_origin}
+
+
+def default_potential(cls: str, category: str, subclass: str = "", step: str | None = None) -> Potential:
+    """The default couple of a class: the one-electron couple, or the ``ox/sq`` (or *step*) couple.
 
     Examples
     --------
     >>> default_potential("[4Fe-4S]", "iron-sulfur").e_v
-    -0.4
-    >>> default_potential("NiFe centre", "metal").origin
-    'default'
+    -0.35
+    >>> default_potential("FMN", "flavin", step="sq/red").couple
+    'FMN sq/red'
     """
-    rows = potential_table()
-    for row in rows:
-        if row.cls == cls and cls != _FALLBACK_CLASS:
-            return row.to_potential()
-    for row in rows:
-        if row.cls == _FALLBACK_CLASS and row.category == category:
-            return row.to_potential()
-    raise ConfigError(
-        f"no default midpoint potential for class {cls!r} (category {category!r}); "
-        "give one in a user parameter file"
-    )
+    couples = default_couples(cls, category, subclass)
+    if step is None:
+        return couples[0]
+    for p in couples:
+        if p.step == step:
+            return p
+    raise ConfigError(f"class {cls!r} has no {step} couple")
 
 
 def _number(value: object, where: str, what: str) -> float:
@@ -271,199 +213,215 @@ def _number(value: object, where: str, what: str) -> float:
     return out
 
 
+def _volts(value: object, where: str, what: str) -> float:
+    v = _number(value, where, f"{what} (V)")
+    lo, hi = POTENTIAL_RANGE_V
+    if not lo <= v <= hi:
+        raise ConfigError(f"{where}: {what} {v} V is outside {lo:+.1f}..{hi:+.1f} V")
+    return v
+
+
 def _normalise_selector(selector: str, path: str) -> str:
-    """Return ``CHAIN/RESNUM[ICODE]`` for a selector of the user file."""
-    m = _SELECTOR_RE.match(selector)
+    """Return ``CHAIN/RESNUM[ICODE]`` or ``MODEL:CHAIN/RESNUM[ICODE]:CODE``."""
+    full = _FULL_ID_RE.match(selector)
+    if full is not None:
+        return f"{int(full.group(1))}:{_normalise_selector(full.group(2), path)}:{full.group(3)}"
+    base, _, part = selector.partition("#")
+    m = _SELECTOR_RE.match(base)
     if m is None:
         raise ConfigError(
             f"{path}: cofactor selector {selector!r} is not of the form CHAIN/RESNUM[ICODE] "
-            '(for example "A/56" or "B/245A")'
+            '(for example "A/56" or "B/245A") or a full id MODEL:CHAIN/RESNUM:CODE ("1:B/245:F3S")'
         )
     chain, num, icode = m.groups()
-    return residue_key(chain, int(num), icode)
+    key = residue_key(chain, int(num), icode)
+    return f"{key}#{part.strip()}" if part.strip() else key
 
 
-def load_user_parameters(path: str | os.PathLike[str]) -> dict[str, UserParameters]:
-    """Read a TOML file of per-cofactor potentials and reorganisation energies.
-
-    The file holds one table per cofactor, named by its selector::
-
-        [cofactor."A/56"]
-        potential = -0.42      # midpoint potential, V vs SHE, in [-1.5, 1.5]
-        reorganisation = 0.6   # eV, > 0, optional ("reorganization" also accepted)
-
-    Parameters
-    ----------
-    path : str or os.PathLike
-        Path of the TOML file.
-
-    Returns
-    -------
-    dict of str to UserParameters
-        Keyed by the normalised selector ``CHAIN/RESNUM[ICODE]`` (``"A/056"`` becomes
-        ``"A/56"``).
-
-    Raises
-    ------
-    fescan.errors.ConfigError
-        If the file cannot be read, is not UTF-8 TOML, has keys other than the above,
-        a value that is not a number, a potential outside -1.5..+1.5 V, a
-        reorganisation energy ≤ 0, a malformed or repeated selector, or no cofactor
-        table. The message starts with the file name.
-    """
-    p = os.fspath(path)
+def _read_toml(p: str) -> dict:
     try:
         raw = Path(p).read_bytes()
     except OSError as exc:
         raise ConfigError(f"{p}: cannot read the parameter file ({exc.strerror or exc})") from None
     try:
-        doc = tomllib.loads(raw.decode("utf-8"))
+        return tomllib.loads(raw.decode("utf-8"))
     except UnicodeDecodeError:
         raise ConfigError(f"{p}: the parameter file is not UTF-8 text") from None
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"{p}: not valid TOML ({exc})") from None
 
-    unknown_top = sorted(set(doc) - {"cofactor"})
-    if unknown_top:
-        raise ConfigError(f'{p}: unknown top-level key(s) {unknown_top}; only [cofactor."..."]')
-    tables = doc.get("cofactor")
-    if not isinstance(tables, dict) or not tables:
-        raise ConfigError(f'{p}: no cofactor tables; write [cofactor."CHAIN/RESNUM"] sections')
 
+def _entry(selector: str, entry: object, p: str) -> UserParameters:
+    key = _normalise_selector(selector, p)
+    where = f'{p}: [cofactor."{selector}"]'
+    if not isinstance(entry, dict):
+        raise ConfigError(f"{where} must be a table of potential / reorganisation")
+    unknown = sorted(set(entry) - set(_KNOWN_KEYS))
+    if unknown:
+        raise ConfigError(f"{where}: unknown key(s) {unknown}; allowed: {', '.join(_KNOWN_KEYS)}")
+    if not entry:
+        raise ConfigError(f"{where} is empty; give potential and/or reorganisation")
+    reorg_keys = [k for k in _REORG_KEYS if k in entry]
+    if len(reorg_keys) > 1:
+        raise ConfigError(f"{where}: give either reorganisation or reorganization, not both")
+    if "potential" in entry and ("potential_ox_sq" in entry or "potential_sq_red" in entry):
+        raise ConfigError(f"{where}: give potential (one-electron centre) or potential_ox_sq / "
+                          "potential_sq_red (two-electron cofactor), not both")
+    vals = {k: _volts(entry[k], where, k.replace("_", " ")) for k in _POT_KEYS if k in entry}
+    reorg = None
+    if reorg_keys:
+        reorg = _number(entry[reorg_keys[0]], where, "reorganisation (eV)")
+        if reorg <= 0:
+            raise ConfigError(f"{where}: reorganisation must be > 0 eV; got {reorg}")
+    role = entry.get("role")
+    if role is not None and role not in ROLES:
+        raise ConfigError(f"{where}: role must be one of {', '.join(ROLES)}; got {role!r}")
+    return UserParameters(selector=key, path=p, potential=vals.get("potential"), reorganisation=reorg,
+                          potential_ox_sq=vals.get("potential_ox_sq"),
+                          potential_sq_red=vals.get("potential_sq_red"), role=role)
+
+
+def load_user_file(path: str | os.PathLike[str]) -> UserFile:
+    """Read a TOML parameter file (module docstring): ``[cofactor."..."]`` tables and ``[reservoirs]``.
+
+    Raises
+    ------
+    fescan.core.errors.ConfigError
+        Unreadable or non-UTF-8 file, bad TOML, unknown keys, a value that is not a
+        finite number, a potential outside -1.5..+1.5 V, λ ≤ 0, an unknown role, both
+        ``potential`` and a two-electron couple, a malformed or repeated selector, or
+        nothing to read. The message starts with the file name.
+    """
+    p = os.fspath(path)
+    doc = _read_toml(p)
+    unknown_top = sorted(set(doc) - {"cofactor", "reservoirs"})
+    if unknown_top:
+        raise ConfigError(f'{p}: unknown top-level key(s) {unknown_top}; only [cofactor."..."] and [reservoirs]')
+    tables = doc.get("cofactor", {})
+    res = doc.get("reservoirs", {})
+    if not isinstance(tables, dict) or not isinstance(res, dict) or (not tables and not res):
+        raise ConfigError(f'{p}: no cofactor tables; write [cofactor."CHAIN/RESNUM"] sections')
     out: dict[str, UserParameters] = {}
     for selector, entry in tables.items():
-        key = _normalise_selector(selector, p)
-        where = f'{p}: [cofactor."{selector}"]'
-        if not isinstance(entry, dict):
-            raise ConfigError(f"{where} must be a table of potential / reorganisation")
-        unknown = sorted(set(entry) - set(_KNOWN_KEYS))
-        if unknown:
-            raise ConfigError(
-                f"{where}: unknown key(s) {unknown}; allowed: potential, reorganisation"
-            )
-        if not entry:
-            raise ConfigError(f"{where} is empty; give potential and/or reorganisation")
-        reorg_keys = [k for k in _REORG_KEYS if k in entry]
-        if len(reorg_keys) > 1:
-            raise ConfigError(f"{where}: give either reorganisation or reorganization, not both")
-        potential = reorg = None
-        if "potential" in entry:
-            potential = _number(entry["potential"], where, "potential (V)")
-            lo, hi = POTENTIAL_RANGE_V
-            if not lo <= potential <= hi:
-                raise ConfigError(
-                    f"{where}: potential {potential} V is outside {lo:+.1f}..{hi:+.1f} V"
-                )
-        if reorg_keys:
-            reorg = _number(entry[reorg_keys[0]], where, "reorganisation (eV)")
-            if reorg <= 0:
-                raise ConfigError(f"{where}: reorganisation must be > 0 eV; got {reorg}")
-        if key in out:
-            raise ConfigError(f"{p}: cofactor {key} is given twice (as {selector!r})")
-        out[key] = UserParameters(selector=key, path=p, potential=potential, reorganisation=reorg)
-    return out
+        up = _entry(selector, entry, p)
+        if up.selector in out:
+            raise ConfigError(f"{p}: cofactor {up.selector} is given twice (as {selector!r})")
+        out[up.selector] = up
+    bad = sorted(set(res) - set(_RESERVOIR_KEYS))
+    if bad:
+        raise ConfigError(f"{p}: [reservoirs]: unknown key(s) {bad}; allowed: source, sink")
+    reservoirs = {k: _volts(v, f"{p}: [reservoirs]", k) for k, v in res.items()}
+    return UserFile(p, out, reservoirs)
+
+
+def load_user_parameters(path: str | os.PathLike[str]) -> dict[str, UserParameters]:
+    """The per-cofactor part of a parameter file (see :func:`load_user_file`), by selector."""
+    return load_user_file(path).cofactors
 
 
 def _user_parameters(
     cofactors: list[Cofactor],
-    user_file: str | os.PathLike[str] | Mapping[str, UserParameters] | None,
+    user_file: str | os.PathLike[str] | UserFile | Mapping[str, UserParameters] | None,
 ) -> dict[str, UserParameters]:
-    """Load (if a path) and check the user parameters against the cofactors."""
+    """Load (if a path) and check the user parameters against the cofactors; keyed by uid."""
     if user_file is None:
         return {}
-    if isinstance(user_file, Mapping):
+    if isinstance(user_file, UserFile):
+        params = dict(user_file.cofactors)
+    elif isinstance(user_file, Mapping):
         params = dict(user_file)
     else:
         params = load_user_parameters(user_file)
-    available = sorted({c.key for c in cofactors})
-    unknown = sorted(set(params) - set(available))
+    unknown = sorted(s for s, up in params.items() if not any(up.matches(c) for c in cofactors))
     if unknown:
         files = sorted({params[k].path for k in unknown})
-        raise ConfigError(
-            f"{', '.join(files)}: selector(s) {', '.join(unknown)} match no cofactor; "
-            f"available: {', '.join(available) or '(none)'}"
-        )
-    return params
+        available = ", ".join(sorted({c.key for c in cofactors})) or "(none)"
+        raise ConfigError(f"{', '.join(files)}: selector(s) {', '.join(unknown)} match no cofactor; "
+                          f"available: {available} (or their full ids MODEL:CHAIN/RESNUM:CODE)")
+    out: dict[str, UserParameters] = {}
+    for c in cofactors:  # a full id wins over a CHAIN/RESNUM selector
+        hits = sorted((up for up in params.values() if up.matches(c)), key=lambda up: ":" not in up.selector)
+        if hits:
+            out[c.uid] = hits[0]
+    return out
+
+
+def _user_couples(c: Cofactor, base: tuple[Potential, ...], up: UserParameters) -> tuple[Potential, ...]:
+    def user(p: Potential, v: float) -> Potential:
+        return Potential(v, v, v, f"user value for {c.key}", f"user file {up.path}", "user", p.couple, p.step,
+                         "user value")
+
+    if len(base) == 1:
+        if up.potential_ox_sq is not None or up.potential_sq_red is not None:
+            raise ConfigError(f"{up.path}: {c.label} is a one-electron centre; give potential, "
+                              "not potential_ox_sq / potential_sq_red")
+        return (user(base[0], up.potential),) if up.potential is not None else base
+    if up.potential is not None:
+        raise ConfigError(f"{up.path}: {c.label} has two one-electron couples; give potential_ox_sq and "
+                          "potential_sq_red (V) instead of potential")
+    ox, red = base
+    return (user(ox, up.potential_ox_sq) if up.potential_ox_sq is not None else ox,
+            user(red, up.potential_sq_red) if up.potential_sq_red is not None else red)
+
+
+def assign_parameters(
+    cofactors: Iterable[Cofactor],
+    user_file: str | os.PathLike[str] | UserFile | Mapping[str, UserParameters] | None = None,
+    context: Mapping[str, tuple[str, str]] | None = None,
+) -> dict[str, CofactorParameters]:
+    """Return the parameter record of every cofactor, by uid.
+
+    Parameters
+    ----------
+    cofactors : iterable of Cofactor
+    user_file : path, UserFile, mapping or None, optional
+        A TOML parameter file or its loaded result.
+    context : mapping of uid to (subclass, reason), optional
+        Sub-classes by context (:func:`fescan.transfer.context.context_subclasses`);
+        they take precedence over the structural sub-class for the couples.
+
+    Raises
+    ------
+    fescan.core.errors.ConfigError
+        Invalid file, a selector that names no cofactor, or a key that does not
+        fit the cofactor (``potential`` for a flavin...).
+    """
+    cofs = list(cofactors)
+    params = _user_parameters(cofs, user_file)
+    context = context or {}
+    out: dict[str, CofactorParameters] = {}
+    for c in cofs:
+        sub, why = context.get(c.uid, (c.subclass, "structural sub-class" if c.subclass else ""))
+        couples = default_couples(c.cls, c.category, sub)
+        up = params.get(c.uid)
+        reorg, reorg_origin, role, role_origin = None, "global λ (option)", None, ""
+        if up is not None:
+            couples = _user_couples(c, couples, up)
+            if up.reorganisation is not None:
+                reorg, reorg_origin = up.reorganisation, f"user file {up.path}"
+            if up.role is not None:
+                role, role_origin = up.role, f"user file {up.path}"
+        carrier = subclass_steps(c.cls, sub) == frozenset({"ox/sq"})
+        out[c.uid] = CofactorParameters(c.uid, c.label, couples, sub, why, reorg, reorg_origin, role, role_origin,
+                                        carrier)
+    return out
 
 
 def assign_potentials(
     cofactors: Iterable[Cofactor],
-    user_file: str | os.PathLike[str] | Mapping[str, UserParameters] | None = None,
+    user_file: str | os.PathLike[str] | UserFile | Mapping[str, UserParameters] | None = None,
 ) -> dict[str, Potential]:
-    """Return the midpoint potential of every cofactor, by uid.
+    """The working couple of every cofactor (``ox/sq`` for two-electron ones), by uid.
 
-    Parameters
-    ----------
-    cofactors : iterable of Cofactor
-        The cofactors of a structure.
-    user_file : path, mapping or None, optional
-        A TOML parameter file (see :func:`load_user_parameters`), or its already
-        loaded result. A user potential replaces the default of the cofactor whose
-        :attr:`~fescan.model.Cofactor.key` matches the selector (in every model).
-
-    Returns
-    -------
-    dict of str to Potential
-        Keyed by :attr:`fescan.model.Cofactor.uid`.
-
-    Raises
-    ------
-    fescan.errors.ConfigError
-        If the file is invalid, names a selector that matches no cofactor (the
-        message lists the unknown and the available selectors), or a cofactor has
-        neither a user value nor a default.
+    A convenience over :func:`assign_parameters` for callers that want one number
+    per cofactor.
     """
-    cofs = list(cofactors)
-    params = _user_parameters(cofs, user_file)
-    out: dict[str, Potential] = {}
-    for cof in cofs:
-        user = params.get(cof.key)
-        if user is not None and user.potential is not None:
-            try:
-                couple = default_potential(cof.cls, cof.category).couple
-            except ConfigError:
-                couple = ""
-            out[cof.uid] = Potential(
-                e_v=user.potential,
-                low_v=user.potential,
-                high_v=user.potential,
-                source=f"user value for {cof.key}",
-                origin=f"user file {user.path}",
-                status="user",
-                couple=couple,
-            )
-        else:
-            out[cof.uid] = default_potential(cof.cls, cof.category)
-    return out
+    return {uid: p.working() for uid, p in assign_parameters(cofactors, user_file).items()}
 
 
 def reorganisation_overrides(
     cofactors: Iterable[Cofactor],
-    user_file: str | os.PathLike[str] | Mapping[str, UserParameters] | None = None,
+    user_file: str | os.PathLike[str] | UserFile | Mapping[str, UserParameters] | None = None,
 ) -> dict[str, float]:
-    """Return the user-given reorganisation energies (eV), by cofactor uid.
-
-    Parameters
-    ----------
-    cofactors : iterable of Cofactor
-        The cofactors of a structure.
-    user_file : path, mapping or None, optional
-        As for :func:`assign_potentials`.
-
-    Returns
-    -------
-    dict of str to float
-        Only the cofactors whose λ the file sets; the others keep the global λ.
-
-    Raises
-    ------
-    fescan.errors.ConfigError
-        As for :func:`assign_potentials`.
-    """
-    cofs = list(cofactors)
-    params = _user_parameters(cofs, user_file)
-    return {
-        cof.uid: params[cof.key].reorganisation
-        for cof in cofs
-        if cof.key in params and params[cof.key].reorganisation is not None
-    }
+    """The user-given reorganisation energies (eV), by cofactor uid (others keep the global λ)."""
+    return {uid: p.reorg for uid, p in assign_parameters(cofactors, user_file).items() if p.reorg is not None}

@@ -26,7 +26,7 @@ from __future__ import annotations
 
 import math
 from collections import deque
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 
 import numpy as np
 import scipy.sparse as sp
@@ -40,7 +40,9 @@ __all__ = [
     "MAX_LOG10_RATE",
     "DEFAULT_REORG",
     "DEFAULT_PACKING_DENSITY",
+    "RateLaw",
     "log10_hop_rate",
+    "log10_rate_slopes",
     "hop_rates",
     "hop_reorganisation",
     "dg_from_potentials",
@@ -196,6 +198,41 @@ def log10_hop_rate(
     if log_k.ndim == 0:
         return float(log_k)
     return log_k
+
+
+#: A rate law: ``law(distance, dg, reorg, packing_density, *, temperature) -> log10 k``
+#: (s⁻¹), vectorised over numpy arrays. :func:`log10_hop_rate` (Moser–Dutton) is the
+#: one fescan uses; another law is passed where a ``law=`` parameter is taken
+#: (:func:`fescan.transfer.graph.build_hops`).
+RateLaw = Callable[..., "float | np.ndarray"]
+
+
+def log10_rate_slopes(
+    distance: float, dg: float, reorg: float = DEFAULT_REORG, packing_density: float = DEFAULT_PACKING_DENSITY,
+    temperature: float = DEFAULT_TEMPERATURE_K,
+) -> tuple[float, float]:
+    """∂log10k/∂R (per Å) and ∂log10k/∂ΔG (per eV) of :func:`log10_hop_rate`.
+
+    The distance slope is the law's ``-(1.2 - 0.8 ρ)`` (0 inside the contact
+    distance, where R is clamped); the ΔG slope is ``-6.2 (ΔG + λ)/λ`` downhill and
+    ``6.2 (λ - ΔG)/λ - 1/(k_B T ln 10)`` uphill (detailed balance); at ΔG = 0 the
+    law has a kink and the root mean square of the two sides is returned.
+
+    Examples
+    --------
+    >>> [round(s, 4) for s in log10_rate_slopes(10.0, -0.35, reorg=0.7)]
+    [-0.592, -3.1]
+    """
+    d_r = -(1.2 - 0.8 * packing_density) if distance > CONTACT_DISTANCE else 0.0
+    down = -2.0 * _PARABOLA_COEFF * (dg + reorg) / reorg
+    up = 2.0 * _PARABOLA_COEFF * (reorg - dg) / reorg - 1.0 / kt_ln10_ev(temperature)
+    if dg < 0:
+        d_g = down
+    elif dg > 0:
+        d_g = up
+    else:
+        d_g = -math.sqrt(0.5 * (down**2 + up**2))
+    return d_r, d_g
 
 
 def hop_rates(

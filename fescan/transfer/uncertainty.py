@@ -75,6 +75,7 @@ from fescan.transfer.rate_law import (
     DEFAULT_PACKING_DENSITY,
     DEFAULT_REORG,
     log10_hop_rate,
+    log10_rate_slopes,
 )
 
 __all__ = [
@@ -202,29 +203,6 @@ def potential_sigma(p: Potential, model: str = "gaussian") -> float:
     if model == "uniform":
         return width / math.sqrt(12.0)
     raise ConfigError(f"potential_model must be 'gaussian' or 'uniform', got {model!r}")
-
-
-def log10_rate_slopes(
-    distance: float, dg: float, reorg: float = DEFAULT_REORG, packing_density: float = DEFAULT_PACKING_DENSITY,
-    temperature: float = DEFAULT_TEMPERATURE_K,
-) -> tuple[float, float]:
-    """∂log10k/∂R (per Å) and ∂log10k/∂ΔG (per eV) of the Moser–Dutton law.
-
-    Examples
-    --------
-    >>> [round(s, 4) for s in log10_rate_slopes(10.0, -0.35, reorg=0.7)]
-    [-0.592, -3.1]
-    """
-    d_r = -(1.2 - 0.8 * packing_density) if distance > CONTACT_DISTANCE else 0.0
-    down = -6.2 * (dg + reorg) / reorg
-    up = 6.2 * (reorg - dg) / reorg - 1.0 / kt_ln10_ev(temperature)
-    if dg < 0:
-        d_g = down
-    elif dg > 0:
-        d_g = up
-    else:
-        d_g = -math.sqrt(0.5 * (down**2 + up**2))
-    return d_r, d_g
 
 
 def linear_log10_rate(
