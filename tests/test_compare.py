@@ -113,22 +113,23 @@ def test_rewritten_copy_reports_exactly_those_changes(yq9_rewritten):
 def test_rewritten_copy_hop_deltas_match_a_scan_of_the_file(yq9_rewritten):
     path, r = yq9_rewritten
     mod = fescan.scan(path)
-    assert [h.status for h in r.hops] == ["broken", "changed", "changed"]
-    for h in r.hops[1:]:
+    # default direction from chemistry: Ni site -> proximal -> medial -> distal (H2 oxidation)
+    assert [h.status for h in r.hops] == ["changed", "changed", "broken"]
+    for h in r.hops[:2]:
         own = mod.graph.edges[h.model_donor, h.model_acceptor]["hop"]
         assert h.model.edge == own.edge and h.model.log10_k_forward == own.log10_k_forward
         assert h.delta("edge") == pytest.approx(own.edge - h.reference.edge)
         assert h.delta("log10_k_forward") == pytest.approx(own.log10_k_forward - h.reference.log10_k_forward)
         assert h.delta("dg") == 0.0  # same classes, same default potentials
-    # the 3 Å shift lengthens the medial–proximal hop and shortens the proximal–Ni hop
-    assert r.hops[1].delta("edge") > 1.0 and r.hops[2].delta("edge") < 0.0
+    # the 3 Å shift lengthens the proximal–medial hop and shortens the Ni–proximal hop
+    assert r.hops[1].delta("edge") > 1.0 and r.hops[0].delta("edge") < 0.0
 
 
 def test_rewritten_copy_verdict(yq9_rewritten):
     _, r = yq9_rewritten
     codes = {p["step"]: {x["code"] for x in p["reasons"]} for p in r.problems()}
-    assert codes[1] == {"missing_cofactor"}
-    assert "misligated" in codes[2] and "misligated" in codes[3]
+    assert codes[3] == {"missing_cofactor"}
+    assert "misligated" in codes[1] and "misligated" in codes[2]
     drop = -r.hops[1].delta("log10_k_forward")
     assert ("rate_drop" in codes[2]) == (drop > 1.0)
     v = r.to_dict()["verdict"]

@@ -15,56 +15,30 @@ import pytest
 
 from fescan.core.errors import ConfigError
 from fescan.core.records import CATEGORIES, Cofactor
+from fescan.transfer.couples import couple_table, reservoir_potential
 from fescan.transfer.potentials import (
+    CITATION_KINDS,
+    CLASS_DEFAULT,
     POTENTIAL_RANGE_V,
-    STATUSES,
+    STEPS,
     Potential,
     UserParameters,
+    assign_parameters,
     assign_potentials,
+    default_couples,
     default_potential,
+    load_user_file,
     load_user_parameters,
-    potential_table,
     reorganisation_overrides,
 )
 
-REQUIRED_CLASSES = (
-    "[2Fe-2S]",
-    "Rieske [2Fe-2S]",
-    "[3Fe-4S]",
-    "linear [3Fe-4S]",
-    "[4Fe-4S]",
-    "[4Fe-3S]",
-    "Fe(Cys)4",
-    "mononuclear Fe",
-    "FMN",
-    "FAD",
-    "riboflavin",
-    "flavin",
-    "ubiquinone",
-    "menaquinone",
-    "plastoquinone",
-    "quinone",
-    "heme b",
-    "heme c",
-    "heme a",
-    "heme o",
-    "heme d",
-    "siroheme",
-    "heme",
-    "Cu",
-    "CuA",
-)
-COLUMNS = [
-    "class",
-    "category",
-    "e_mid_v",
-    "e_low_v",
-    "e_high_v",
-    "n_electrons",
-    "source",
-    "status",
-    "couple",
-]
+COLUMNS = ["class", "subclass", "category", "couple", "step", "e_v", "e_low_v", "e_high_v", "citation",
+           "citation_kind"]
+#: Classes fescan detects that must have couples (or an explicit "undetermined" row).
+REQUIRED_CLASSES = ("[2Fe-2S]", "Rieske [2Fe-2S]", "[3Fe-4S]", "linear [3Fe-4S]", "[4Fe-4S]", "[4Fe-3S]",
+                    "Fe(Cys)4", "mononuclear Fe", "FMN", "FAD", "riboflavin", "flavin", "ubiquinone",
+                    "menaquinone", "plastoquinone", "quinone", "heme b", "heme c", "heme a", "heme o", "heme d",
+                    "siroheme", "heme", "Cu", "CuA")
 
 
 def make_cofactor(
@@ -116,83 +90,93 @@ def write(tmp_path: Path, text: str, name: str = "params.toml") -> Path:
 
 def test_csv_columns():
     text = resources.files("fescan").joinpath("data").joinpath("potentials.csv").read_text("utf-8")
-    header = next(csv.reader(text.splitlines()))
-    assert header == COLUMNS
+    assert next(csv.reader(text.splitlines())) == COLUMNS
 
 
 def test_required_classes_and_category_fallbacks():
-    rows = potential_table()
-    classes = [r.cls for r in rows if r.cls != "*"]
-    assert sorted(classes) == sorted(REQUIRED_CLASSES)
-    fallbacks = sorted(r.category for r in rows if r.cls == "*")
-    assert fallbacks == sorted(CATEGORIES)
-    assert all(r.category in CATEGORIES for r in rows)
+    rows = couple_table()
+    classes = {r.cls for r in rows}
+    assert set(REQUIRED_CLASSES) <= classes
+    assert {r.category for r in rows if r.cls == "*"} >= set(CATEGORIES)
 
 
-@pytest.mark.parametrize("row", potential_table(), ids=lambda r: f"{r.cls}|{r.category}")
-def test_every_row_has_source_status_and_consistent_range(row):
-    assert row.source.strip()
-    assert row.status in STATUSES
-    assert row.couple.strip()
-    assert row.e_low_v <= row.e_mid_v <= row.e_high_v
-    assert POTENTIAL_RANGE_V[0] <= row.e_low_v and row.e_high_v <= POTENTIAL_RANGE_V[1]
-    assert row.n_electrons in (1, 2)
-    if row.status == "MEMORY":
-        assert "from memory" in row.source
-    if "midpoint of the range" in row.source and row.status != "MEMORY":
-        assert row.e_mid_v == pytest.approx((row.e_low_v + row.e_high_v) / 2, abs=1e-3)
+_BAD_SOURCE = re.compile(r"https?://|www\.|\.org\b|\.com\b|mirror|wikipedia|grokipedia|encyclop|code file|"
+                         r"github|equilibrator|redox\.tsv|arxiv", re.IGNORECASE)
+_CITATION = re.compile(r"\b(1[89]\d\d|20\d\d)\b.*\d+:\d+")  # "Author 1999, Journal 402:47"
 
 
-@pytest.mark.parametrize(
-    ("cls", "expected"),
-    [
-        ("FMN", -0.219),  # REFERENCES.md §3: free FMN/FMNH2, eQuilibrator redox.tsv (CRC 2010)
-        ("FAD", -0.219),  # REFERENCES.md §3: free FAD/FADH2, eQuilibrator redox.tsv (CRC 2010)
-        ("menaquinone", -0.074),  # REFERENCES.md §3: eQuilibrator redox.tsv (Thauer 1977)
-        ("ubiquinone", 0.045),  # REFERENCES.md §3: textbook table (grokipedia)
-        ("plastoquinone", 0.0),  # REFERENCES.md §3: Blankenship 2014 Table A1.2
-        ("[2Fe-2S]", -0.43),  # REFERENCES.md §3: plant-type ferredoxin (Falkowski & Raven 2007)
-        ("Rieske [2Fe-2S]", 0.125),  # REFERENCES.md §3: middle of -0.15..+0.40 (Brown 2008)
-        ("heme c", 0.254),  # REFERENCES.md §3: cytochrome c (grokipedia table)
-        ("heme a", 0.29),  # REFERENCES.md §3: cytochrome a (aw-bc Mathews page)
-    ],
-)
-def test_found_values(cls, expected):
-    assert default_potential(cls, "unused").e_v == pytest.approx(expected, abs=1e-9)
+@pytest.mark.parametrize("row", couple_table(), ids=lambda r: f"{r.cls}|{r.subclass}|{r.category}|{r.step}")
+def test_every_row_cites_a_paper_or_says_from_memory(row):
+    # the rule: every row a primary citation (paper or handbook: author, year, journal volume:page)
+    # or "from memory"; never a web page, mirror, encyclopedia or code file
+    assert row.citation_kind in CITATION_KINDS
+    assert not _BAD_SOURCE.search(row.citation), row.citation
+    if row.e_v is None:  # an undetermined class says why, from memory
+        assert row.citation_kind == "from memory" and "from memory" in row.citation
+    else:
+        assert _CITATION.search(row.citation), row.citation
+        assert row.e_low_v <= row.e_v <= row.e_high_v
+        assert POTENTIAL_RANGE_V[0] <= row.e_low_v and row.e_high_v <= POTENTIAL_RANGE_V[1]
+    assert row.step in STEPS and row.couple
 
 
-def test_4fe4s_default_is_ferredoxin_couple_not_hipip():
-    # REFERENCES.md §3: bacterial [4Fe-4S] ferredoxin (2+/1+) -0.3 to -0.7 V (Wikipedia mirror);
-    # HiPIP (3+/2+) +0.1 to +0.4 V is a different couple.
-    pot = default_potential("[4Fe-4S]", "iron-sulfur")
-    assert -0.7 <= pot.e_v <= -0.3
-    assert pot.couple == "[4Fe-4S] 2+/1+"
-    assert "HiPIP" in pot.source
+def test_the_source_check_fails_on_a_url_or_mirror():
+    # the check above must be able to fail
+    for bad in ("Smith 2001, J X 1:2 (https://example.org)", "a Polish mirror of an encyclopedia",
+                "quoted in a public code file"):
+        assert _BAD_SOURCE.search(bad)
 
 
-def test_default_potential_class_then_category_then_error():
-    pot = default_potential("[4Fe-4S]", "iron-sulfur")
-    assert isinstance(pot, Potential)
-    assert pot.origin == "default"
-    assert pot.status in STATUSES
-    fallback = default_potential("[8Fe-7S]", "iron-sulfur")
-    assert "fallback" in fallback.source
-    assert default_potential("NiFe", "metal").origin == "default"
-    with pytest.raises(ConfigError, match="no default midpoint potential"):
-        default_potential("mystery", "no-such-category")
-    with pytest.raises(ConfigError):
-        default_potential("*", "no-such-category")
+def test_two_electron_classes_have_both_couples_and_one_electron_classes_one():
+    for cls, cat in (("FMN", "flavin"), ("FAD", "flavin"), ("ubiquinone", "quinone"),
+                     ("plastoquinone", "quinone"), ("menaquinone", "quinone")):
+        assert [p.step for p in default_couples(cls, cat)] == ["ox/sq", "sq/red"]
+    for cls, cat in (("[4Fe-4S]", "iron-sulfur"), ("heme c", "heme"), ("CuA", "copper")):
+        assert [p.step for p in default_couples(cls, cat)] == ["1e"]
 
 
-def test_every_ccd_table_class_has_a_default():
-    # Cross-check with the CCD code table of fescan.cofactors (skipped while it is absent).
+def test_hipip_is_a_subclass_couple_not_the_ferredoxin_default():
+    # Stephens, Jollie & Warshel 1996 Chem Rev 96:2491 (from memory): HiPIP 3+/2+ about +0.1 to +0.45 V,
+    # ferredoxin-type 2+/1+ about -0.7 to -0.25 V
+    fd = default_potential("[4Fe-4S]", "iron-sulfur")
+    hipip = default_potential("[4Fe-4S]", "iron-sulfur", "HiPIP-type")
+    assert fd.couple == "[4Fe-4S] 2+/1+" and fd.e_v < -0.2
+    assert hipip.couple == "[4Fe-4S] 3+/2+" and hipip.e_v > 0.2
+    assert fd.basis == CLASS_DEFAULT == "class default, not measured for this protein"
+    assert "HiPIP-type" in hipip.basis and "not measured for this protein" in hipip.basis
+
+
+def test_subclass_rows_for_couples_by_enzyme():
+    # Euro et al. 2008 Biochemistry 47:3185 (primary, seen): complex I [2Fe-2S] about -0.25 V;
+    # de Causmaecker et al. 2019 PNAS 116:19458 (primary, seen): QB/QB- about +0.09 V
+    assert default_potential("[2Fe-2S]", "iron-sulfur", "complex I (N1a/N1b)").e_v == pytest.approx(-0.25)
+    assert default_potential("plastoquinone", "quinone", "photosystem II QB").e_v == pytest.approx(0.09)
+    # QA has no physiological second couple: the class row stands in for sq/red
+    qa = default_couples("plastoquinone", "quinone", "photosystem II QA")
+    assert qa[0].e_v == pytest.approx(-0.145) and "QA" in qa[0].basis
+    assert qa[1].basis == CLASS_DEFAULT
+
+
+def test_unknown_subclass_falls_back_to_class_and_unknown_class_is_undetermined():
+    assert default_potential("heme c", "heme", "no such type") == default_potential("heme c", "heme")
+    assert default_potential("[8Fe-7S]", "iron-sulfur").couple == "P1+/PN"
+    odd = default_potential("mystery", "no-such-category")
+    assert not odd.determined and odd.status == "undetermined"
+    assert not default_potential("linear [3Fe-4S]", "iron-sulfur").determined
+
+
+def test_every_ccd_table_class_has_a_row_or_a_category_fallback():
     path = resources.files("fescan").joinpath("data").joinpath("ccd_cofactors.csv")
-    if not path.is_file():
-        pytest.skip("fescan/data/ccd_cofactors.csv not present")
     for rec in csv.DictReader(path.read_text("utf-8").splitlines()):
-        if rec["category"] == "not analysed":  # listed only to be reported as skipped
+        if rec["category"] == "not analysed":
             continue
-        assert default_potential(rec["class"], rec["category"]).source
+        assert default_couples(rec["class"], rec["category"])[0].source
+
+
+def test_reservoirs():
+    # Thauer, Jungermann & Decker 1977 Bacteriol Rev 41:100 (from memory): NAD+/NADH -0.32 V at pH 7
+    assert reservoir_potential("NAD+/NADH").e_v == pytest.approx(-0.32)
+    assert reservoir_potential("H+/H2 at pH 7").e_v == pytest.approx(-0.414)
 
 
 # --------------------------------------------------------------------------- user file
@@ -285,7 +269,8 @@ def test_assign_defaults_without_user_file(cofactors):
     pots = assign_potentials(cofactors)
     assert set(pots) == {c.uid for c in cofactors}
     assert all(p.origin == "default" for p in pots.values())
-    assert pots["1:A/1:FMN"].e_v == pytest.approx(-0.219)
+    # Anderson 1983 BBA 722:158 (from memory): free FMN ox/sq -0.31 V; the working couple is ox/sq
+    assert pots["1:A/1:FMN"].e_v == pytest.approx(-0.31) and pots["1:A/1:FMN"].step == "ox/sq"
     assert reorganisation_overrides(cofactors) == {}
 
 
@@ -300,6 +285,8 @@ def test_toml_override(tmp_path, cofactors):
         origin=f"user file {path}",
         status="user",
         couple="[4Fe-4S] 2+/1+",
+        step="1e",
+        basis="user value",
     )
     assert pots["1:B/245A:HEC"].e_v == pytest.approx(0.06)
     assert pots["1:B/245A:HEC"].origin == f"user file {path}"
@@ -340,10 +327,45 @@ def test_override_applies_to_every_model(tmp_path):
     assert pots["1:A/56:SF4"].e_v == pots["2:A/56:SF4"].e_v == pytest.approx(-0.42)
 
 
-def test_unclassified_cofactor_needs_user_value(tmp_path):
+def test_unclassified_cofactor_is_undetermined_until_given(tmp_path):
     odd = make_cofactor("C", 7, "", "mystery", "no-such-category", None)
-    with pytest.raises(ConfigError, match="user parameter file"):
-        assign_potentials([odd])
+    assert not assign_potentials([odd])["1:C/7:-"].determined
     pots = assign_potentials([odd], write(tmp_path, '[cofactor."C/7"]\npotential = 0.2\n'))
     assert pots["1:C/7:-"].e_v == pytest.approx(0.2)
-    assert pots["1:C/7:-"].couple == ""
+
+
+def test_two_electron_couples_full_id_role_and_reservoirs(tmp_path, cofactors):
+    # Sled et al. 1994 Biochemistry 33:10069 (from memory): complex I FMN ox/sq -0.414, sq/red -0.336 V
+    path = write(tmp_path, '[cofactor."1:A/1:FMN"]\npotential_ox_sq = -0.414\npotential_sq_red = -0.336\n'
+                           'role = "catalytic"\n[cofactor."A/56"]\npotential = -0.25\n'
+                           '[reservoirs]\nsource = -0.32\nsink = 0.09\n')
+    uf = load_user_file(path)
+    assert uf.reservoirs == {"source": -0.32, "sink": 0.09}
+    params = assign_parameters(cofactors, uf)
+    fmn = params["1:A/1:FMN"]
+    assert fmn.two_electron and fmn.role == "catalytic" and str(path) in fmn.role_origin
+    assert fmn.working().e_v == pytest.approx(-0.414) and fmn.working(entry=True).e_v == pytest.approx(-0.336)
+    assert fmn.working(entry=True).basis == "user value"
+    assert params["1:A/56:SF4"].working().e_v == pytest.approx(-0.25)
+
+
+@pytest.mark.parametrize(("text", "match"), [
+    ('[cofactor."A/1"]\npotential = -0.3\n', "two one-electron couples"),
+    ('[cofactor."A/56"]\npotential_ox_sq = -0.3\n', "one-electron centre"),
+])
+def test_couple_keys_must_fit_the_cofactor(tmp_path, cofactors, text, match):
+    with pytest.raises(ConfigError, match=match):
+        assign_parameters(cofactors, write(tmp_path, text))
+
+
+@pytest.mark.parametrize(("text", "match"), [
+    ('[cofactor."A/1"]\npotential = -0.3\npotential_ox_sq = -0.4\n', "not both"),
+    ('[cofactor."A/1"]\nrole = "boss"\n', "role must be one of"),
+    ('[reservoirs]\nsauce = 0.1\n', "unknown key"),
+    ('[reservoirs]\nsource = 3.0\n', "outside"),
+])
+def test_bad_new_keys(tmp_path, text, match):
+    path = write(tmp_path, text)
+    with pytest.raises(ConfigError, match=match) as info:
+        load_user_file(path)
+    assert str(path) in str(info.value)

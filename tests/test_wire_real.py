@@ -81,13 +81,18 @@ def test_2fug_both_times_reported(fug):
     assert "not measurements" in d["caution"]
 
 
-def test_1kf6_flavin_to_clusters():
-    # Fumarate reductase / SDH: FAD -> [2Fe-2S] -> [4Fe-4S] -> [3Fe-4S] (REFERENCES.md s4b, from memory),
-    # every hop < 14 Å (REFERENCES.md s4b: assert only "all hops < 14 Å")
+def test_1kf6_quinol_to_flavin_and_reverse():
+    # E. coli quinol:fumarate reductase (SOURCES.md 1KF6): no heme, so type D of the SDH/QFR family
+    # (Lemos et al. 2002 Biochim Biophys Acta 1553:158, from memory); physiology menaquinol -> [3Fe-4S]
+    # -> [4Fe-4S] -> [2Fe-2S] -> FAD -> fumarate (REFERENCES.md s4b order, from memory). Every hop < 14 Å
+    # (REFERENCES.md s4b: assert only "all hops < 14 Å").
     r = fescan.scan(entry_path("1KF6"))
-    assert [r.cofactor(u).cls for u in r.wire.path] == ["FAD", "[2Fe-2S]", "[4Fe-4S]", "[3Fe-4S]"]
-    assert keys(r, r.wire.path) == ["A/721", "B/244", "B/246", "B/245"]
+    assert keys(r, r.wire.path) == ["B/245", "B/246", "B/244", "A/721"]
+    assert "fumarate reductase" in r.wire.how_chosen and "--reverse" in r.wire.how_chosen
     assert all(h.edge < 14.0 for h in r.wire.hops)
+    back = fescan.scan(entry_path("1KF6"), reverse=True)
+    assert [back.cofactor(u).cls for u in back.wire.path] == ["FAD", "[2Fe-2S]", "[4Fe-4S]", "[3Fe-4S]"]
+    assert "reversed on request" in back.wire.how_chosen
 
 
 def test_1yq9_relay_from_active_site():

@@ -38,7 +38,7 @@ def test_two_site_times_equal_inverse_rate():
     cofs = [point("A", 1, 0.0, category="flavin", cls="FMN"), point("A", 2, 10.0, category="quinone", cls="ubiquinone")]
     g, w = run(cofs, {"A/1": -0.2, "A/2": 0.0})
     k = 10 ** log10_hop_rate(10.0, -0.2, reorg=0.7, packing_density=0.76)
-    assert w.how_chosen.startswith("default: flavin entry")
+    assert w.how_chosen.startswith("chemistry: substrate-oxidising flavin as entry")
     assert w.summed_hop_time == pytest.approx(1 / k)
     assert w.mean_first_passage_time == pytest.approx(1 / k)
 
@@ -71,7 +71,7 @@ def test_no_path_beyond_cutoff():
     cofs = [point("A", 1, 0.0), point("A", 2, 40.0)]
     g, w = run(cofs, entry="A/1", exit="A/2")
     assert w.path == [] and math.isinf(w.mean_first_passage_time)
-    assert any("no chain of hops" in n for n in w.notes)
+    assert any("no chain of relay hops" in n for n in w.notes)
 
 
 def test_longest_chain_default():
