@@ -216,7 +216,7 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         ends = choose_endpoints(g, cofactors, opts)
         if ends[0] is not None and params[ends[0]].two_electron:
             g = graph(ends[0])  # a two-electron entry gives its first electron at sq/red
-        wire = trace_wire(g, cofactors, opts, ends)
+        wire = trace_wire(g, cofactors, opts, ends, user.reservoirs, user.path)
     except (CofactorNotFound, ConfigError) as exc:  # name the structure in the message
         raise type(exc)(f"{path}: {exc}") from None
     potentials = {u: g.nodes[u]["potential"] for u in g.nodes}

@@ -6,6 +6,7 @@ import math
 from collections import Counter
 
 from fescan.analysis.scan import CAUTION, ScanResult
+from fescan.transfer.distances import EDGE_CONVENTION
 
 __all__ = ["render_text", "format_time", "signed", "table"]
 
@@ -92,10 +93,10 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                                    f"{note} note{'s' * (note != 1)}" if note else "") if x) or "ok"
         pot = res.potentials[c.uid]
         rows.append([c.key, c.cls, c.ccd_code or "-", c.detected_by, str(len(c.atoms)), _ligand_summary(c),
-                     c.motif or "-", signed(pot.e_v), fl])
+                     c.motif or "-", signed(pot.e_v) if pot.determined else "undetermined", pot.couple or "-", fl])
     lines.append(f"Cofactors ({len(res.cofactors)})")
-    lines.append(table(["cofactor", "class", "code", "found by", "atoms", "ligands", "motif", "E (V)", "checks"],
-                       rows))
+    lines.append(table(["cofactor", "class", "code", "found by", "atoms", "ligands", "motif", "E (V)", "couple used",
+                        "checks"], rows))
     if details:
         for c in res.cofactors:
             if not c.ligands and not c.flags:
@@ -133,7 +134,8 @@ def _wire_text(res: ScanResult) -> list[str]:
     names = {c.uid: c.label for c in res.cofactors}
     rho = "ρ measured per hop" if o.packing == "measured" else f"ρ = {o.packing_density:g}"
     out = [f"Electron wire (λ = {o.reorg:g} eV, {rho}, gap limit {o.gap_limit:g} Å, "
-           f"T = {o.temperature:g} K; symmetry mates {'included' if o.symmetry else 'not included'})"]
+           f"T = {o.temperature:g} K; symmetry mates {'included' if o.symmetry else 'not included'})",
+           f"  distances: {EDGE_CONVENTION[o.edge_atoms]}"]
     if not w.path:
         out.append("  " + ("; ".join(w.notes) or "no wire"))
         if w.isolated:
@@ -161,11 +163,30 @@ def _wire_text(res: ScanResult) -> list[str]:
                       "remarks"],
                      rows))
     out.append(f"  bottleneck: {names[w.bottleneck.donor]} > {names[w.bottleneck.acceptor]} "
-               f"({w.bottleneck.edge:.2f} Å, {format_time(w.bottleneck.hop_time)})")
-    out.append(f"  gaps: {len(w.gaps)}" + (" - " + "; ".join(
+               f"({w.bottleneck.edge:.2f} Å, {format_time(w.bottleneck.hop_time)}; {w.bottleneck_basis})")
+    if w.slowest_hop is not None and w.slowest_hop is not w.bottleneck:
+        out.append(f"  slowest forward hop: {names[w.slowest_hop.donor]} > {names[w.slowest_hop.acceptor]} "
+                   f"({format_time(w.slowest_hop.hop_time)})")
+    out.append(f"  gaps (hops over {o.gap_limit:g} Å): {len(w.gaps)}" + (" - " + "; ".join(
         f"{names[h.donor]} > {names[h.acceptor]} {h.edge:.2f} Å" for h in w.gaps) if w.gaps else ""))
-    out.append(f"  transfer time, sum of hop times:     {format_time(w.summed_hop_time)}")
-    out.append(f"  transfer time, mean first passage:   {format_time(w.mean_first_passage_time)}")
+    if w.slow_hops:
+        out.append(f"  slow hops (within {o.gap_limit:g} Å, slower than {o.rate_threshold:g}/s): " + "; ".join(
+            f"{names[h.donor]} > {names[h.acceptor]}" for h in w.slow_hops))
+    couples = [f"{names[u]} at {res.potentials[u].step}" for u in w.path if res.potentials[u].step != "1e"]
+    if couples:
+        out.append("  two-electron cofactors work at: " + "; ".join(couples))
+    out.append(f"  mean first-passage time, one electron entering an oxidised chain: "
+               f"{format_time(w.mean_first_passage_time)}")
+    out.append(f"  sum of forward hop times (ignores back hops; not a transit time): {format_time(w.summed_hop_time)}")
+    ss = w.steady_state
+    if ss and ss.get("flux_per_s") is not None:
+        src, snk = ss["source"], ss["sink"]
+        out.append(f"  steady state between reservoirs {src['pool']} ({signed(src['e_v'])} V) and {snk['pool']} "
+                   f"({signed(snk['e_v'])} V): flux {ss['flux_per_s']:.3g} electrons/s, transit time "
+                   f"{format_time(ss['transit_time_s'])} (electrons on the path / flux)")
+        sens = sorted(ss["sensitivity"].items(), key=lambda kv: -abs(kv[1] or 0.0))[:3]
+        out.append("  potentials that drive the flux (d log10 flux / dE, per V): " + ", ".join(
+            f"{names[u]} {v:+.1f}" for u, v in sens if v is not None))
     if w.branches:
         out.append("  side branches: " + "; ".join(
             f"{names[b['cofactor']]} (at {names[b['attached_to']]}, {b['edge_distance']:.1f} Å)" for b in w.branches))
@@ -173,8 +194,8 @@ def _wire_text(res: ScanResult) -> list[str]:
         out.append("  isolated (no partner within the gap limit): " + ", ".join(names[u] for u in w.isolated))
     for grp in w.groups:
         out.append("  other connected group (not joined to this wire): " + " + ".join(names[u] for u in grp))
-    pots = Counter(p.origin for p in res.potentials.values())
-    out.append("  potentials: " + ", ".join(f"{n} from {k}" for k, n in pots.items()))
+    pots = Counter(p.basis if p.origin == "default" else p.origin for p in res.potentials.values())
+    out.append("  potentials: " + "; ".join(f"{k} ({n})" for k, n in pots.items()))
     for n in w.notes:
         out.append(f"  note: {n}")
     out.append("")

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import networkx as nx
@@ -32,6 +32,7 @@ from fescan.core.options import ScanOptions
 from fescan.core.records import Cofactor
 from fescan.transfer.graph import Hop
 from fescan.transfer.rate_law import mean_first_passage_time, summed_hop_time
+from fescan.transfer.reservoirs import default_reservoirs, wire_steady_state
 
 __all__ = ["Wire", "parse_selector", "find_cofactor", "choose_endpoints", "routable", "trace_wire", "all_pair_paths"]
 
@@ -384,6 +385,8 @@ def trace_wire(
     cofactors: Sequence[Cofactor],
     options: ScanOptions,
     endpoints: tuple[str | None, str | None, str] | None = None,
+    reservoirs: Mapping[str, float] | None = None,
+    reservoirs_file: str = "",
 ) -> Wire:
     """Trace the wire of one structure (see the module docstring).
 
@@ -395,6 +398,9 @@ def trace_wire(
     options : ScanOptions
     endpoints : (entry, exit, how), optional
         Already chosen endpoints (:func:`choose_endpoints`); chosen here when omitted.
+    reservoirs : mapping, optional
+        User reservoir potentials (``source``, ``sink``, V) from *reservoirs_file*;
+        defaults by role otherwise (:mod:`fescan.transfer.reservoirs`).
 
     Returns
     -------
@@ -436,8 +442,39 @@ def trace_wire(
                        "check the potentials used")
     w.branches = _branches(g, u, path, order)
     w.groups = _groups(u, set(path), order)
+    _steady(g, w, options, reservoirs, reservoirs_file)
     w.notes += _caveats(g, w, options)
     return w
+
+
+def _steady(g: nx.DiGraph, w: Wire, options: ScanOptions, reservoirs: Mapping[str, float] | None,
+            reservoirs_file: str) -> None:
+    """Solve the steady state between reservoirs; the bottleneck becomes the largest flux control."""
+    src, snk = default_reservoirs(g, w.entry, w.exit, reservoirs, reservoirs_file)
+    missing = [f"{k} (no default pool for {g.nodes[n]['cofactor'].label})"
+               for k, r, n in (("source", src, w.entry), ("sink", snk, w.exit)) if r is None]
+    if missing:
+        w.notes.append("steady state not solved: give the reservoir potential(s) " + ", ".join(missing)
+                       + " in a potentials file ([reservoirs] source = ..., sink = ... in V)")
+        return
+    try:
+        w.steady_state = wire_steady_state(g, w.path, w.hops, options.temperature, src, snk)
+    except ImportError:  # the steady-state engine is not installed in this tree
+        w.notes.append("steady state not solved: the steady-state engine is not available")
+        return
+    except ConfigError as exc:
+        w.notes.append(f"steady state not solved: {exc}")
+        return
+    ctrl = {(c["donor"], c["acceptor"]): c["coefficient"] for c in w.steady_state["control"]}
+    scored = [(ctrl.get((h.donor, h.acceptor)), h) for h in w.hops]
+    scored = [(c, h) for c, h in scored if c is not None and math.isfinite(c)]
+    if scored:
+        c, h = max(scored, key=lambda x: x[0])
+        w.bottleneck = h
+        w.bottleneck_basis = f"largest flux-control coefficient of the steady state ({c:.2f})"
+        top = max(ctrl.items(), key=lambda x: -math.inf if x[1] is None else x[1])
+        if top[0][0] == "source" or top[0][1] == "sink":
+            w.notes.append("the exchange with a reservoir controls the flux more than any hop")
 
 
 def _caveats(g: nx.DiGraph, w: Wire, options: ScanOptions) -> list[str]:
@@ -445,7 +482,7 @@ def _caveats(g: nx.DiGraph, w: Wire, options: ScanOptions) -> list[str]:
     notes = []
     weak = [n for n in w.path if g.nodes[n]["potential"].status == "from memory"]
     if weak:
-        notes.append("class defaults given from memory (not measured for this protein) for: " + ", ".join(
+        notes.append("packaged defaults given from memory (not measured for this protein) for: " + ", ".join(
             f"{g.nodes[n]['cofactor'].label} ({g.nodes[n]['potential'].e_v:+.3f} V)" for n in weak)
             + "; set measured values in a potentials file")
     unknown = [g.nodes[n]["cofactor"].label for n in w.path if not g.nodes[n]["potential"].determined]

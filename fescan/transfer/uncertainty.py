@@ -66,12 +66,11 @@ from typing import Any
 import numpy as np
 from scipy.spatial import cKDTree
 
-from fescan.core.constants import DEFAULT_TEMPERATURE_K, kt_ln10_ev
+from fescan.core.constants import DEFAULT_TEMPERATURE_K
 from fescan.core.errors import ConfigError
 from fescan.core.records import AtomRef
 from fescan.transfer.potentials import Potential
 from fescan.transfer.rate_law import (
-    CONTACT_DISTANCE,
     DEFAULT_PACKING_DENSITY,
     DEFAULT_REORG,
     log10_hop_rate,
