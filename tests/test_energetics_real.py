@@ -182,3 +182,16 @@ def test_compare_and_scan_agree_beyond_the_cutoff_with_per_cofactor_lambda(tmp_p
         assert h.model.packing_density == pytest.approx(own.packing_density)
         assert h.model.log10_k_forward == pytest.approx(own.log10_k_forward, abs=1e-9)
     assert not math.isclose(beyond[0].model.reorg, 0.7)
+
+
+def test_1kf6_each_copy_gets_its_own_wire():
+    # SOURCES.md: 1KF6 holds two FrdABCD copies (chains A-D and M-P); the file's assemblies 1 and 2
+    # are the two copies, assembly 3 joins them, so no hop between them is a crystal contact
+    r = fescan.scan(entry_path("1KF6"))
+    w = r.wire
+    assert keys(r, w.path) == ["B/245", "B/246", "B/244", "A/721"]
+    (other,) = w.copies
+    assert keys(r, other["path"]) == ["N/245", "N/246", "N/244", "M/821"]
+    assert "fumarate reductase" in other["how_chosen"]
+    assert not any(h.crystal_contact for _, _, h in r.graph.edges(data="hop"))
+    json.dumps(r.to_dict(), allow_nan=False)

@@ -21,7 +21,13 @@ from fescan.structure.reading import StructureInfo, read_structure
 from fescan.transfer.context import context_subclasses
 from fescan.transfer.distances import EDGE_CONVENTION, Pair, pair_distances
 from fescan.transfer.graph import build_cofactor_graph
-from fescan.transfer.paths import Wire, all_pair_paths, choose_endpoints, trace_wire
+from fescan.transfer.paths import (
+    Wire,
+    all_pair_paths,
+    choose_endpoints,
+    mark_crystal_contacts,
+    trace_wire,
+)
 from fescan.transfer.potentials import (
     CofactorParameters,
     Potential,
@@ -209,7 +215,10 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         g = build_cofactor_graph(cofactors, pairs, pots, opts, reorgs, packing=packing)
         for u, p in params.items():
             g.nodes[u]["parameters"] = p
+        mark_crystal_contacts(g, assemblies)
         return g
+
+    assemblies = _assembly_chains(loaded.structure)
 
     try:
         g = graph(None)
@@ -225,6 +234,16 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     extra = all_pair_paths(g, opts) if opts.all_pairs else []
     return ScanResult(str(path), loaded.info, opts, cofactors, pairs, potentials, g, wire, extra,
                       count_not_analysed(loaded.model), params, dict(user.reservoirs))
+
+
+def _assembly_chains(st: Any) -> list[set[str]]:
+    """Author chain names of each biological assembly the file declares (PDB REMARK 350 style)."""
+    out = []
+    for asm in getattr(st, "assemblies", []):
+        chains = {c for gen in asm.generators for c in gen.chains}
+        if chains:
+            out.append(chains)
+    return out
 
 
 def _landmarks(model: Any) -> dict[str, np.ndarray]:

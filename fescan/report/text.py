@@ -156,6 +156,8 @@ def _wire_text(res: ScanResult) -> list[str]:
             mark.append(f"slower than {o.rate_threshold:g}/s")
         if h.symmetry:
             mark.append(f"symmetry mate {h.symmetry}")
+        if h.crystal_contact:
+            mark.append("possible crystal contact")
         rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
                      signed(h.dg), f"{h.reorg:.2f}", f"{h.packing_density:.2f}", f"{h.log10_k_forward:.2f}",
                      format_time(h.hop_time), ", ".join(mark)])
@@ -187,6 +189,10 @@ def _wire_text(res: ScanResult) -> list[str]:
         sens = sorted(ss["sensitivity"].items(), key=lambda kv: -abs(kv[1] or 0.0))[:3]
         out.append("  potentials that drive the flux (d log10 flux / dE, per V): " + ", ".join(
             f"{names[u]} {v:+.1f}" for u, v in sens if v is not None))
+    for cp in w.copies:
+        out.append(f"  other copy: {' > '.join(names[u] for u in cp['path']) or 'no path'}"
+                   + (f" (mean first passage {format_time(cp['mean_first_passage_time_s'])})"
+                      if cp.get("mean_first_passage_time_s") is not None else ""))
     if w.branches:
         out.append("  side branches: " + "; ".join(
             f"{names[b['cofactor']]} (at {names[b['attached_to']]}, {b['edge_distance']:.1f} Å)" for b in w.branches))

@@ -56,6 +56,9 @@ class Hop:
         The couple each side uses for this electron (``"FMN sq/red"``, ``"[4Fe-4S] 2+/1+"``).
     dg_assumed : bool
         A potential of this hop is undetermined; ΔG = 0 was assumed.
+    crystal_contact : bool
+        The two cofactors belong to different copies of the complex in the file
+        and no biological assembly of the file joins them: a possible crystal contact.
     """
 
     donor: str
@@ -76,6 +79,7 @@ class Hop:
     donor_couple: str = ""
     acceptor_couple: str = ""
     dg_assumed: bool = False
+    crystal_contact: bool = False
 
     def to_dict(self) -> dict:
         """JSON-ready record (distances in Å, energies in eV, rates in s⁻¹, time in s)."""
@@ -98,6 +102,7 @@ class Hop:
             "donor_couple": self.donor_couple,
             "acceptor_couple": self.acceptor_couple,
             "dg_assumed": self.dg_assumed,
+            "possible_crystal_contact": self.crystal_contact,
         }
 
 

@@ -22,7 +22,7 @@ from __future__ import annotations
 import math
 import re
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import networkx as nx
 import numpy as np
@@ -34,7 +34,8 @@ from fescan.transfer.graph import Hop
 from fescan.transfer.rate_law import mean_first_passage_time, summed_hop_time
 from fescan.transfer.reservoirs import default_reservoirs, wire_steady_state
 
-__all__ = ["Wire", "parse_selector", "find_cofactor", "choose_endpoints", "routable", "trace_wire", "all_pair_paths"]
+__all__ = ["Wire", "parse_selector", "find_cofactor", "choose_endpoints", "routable", "trace_wire", "all_pair_paths",
+           "mark_crystal_contacts"]
 
 _SELECTOR = re.compile(r"^\s*([^/\s]+)\s*/\s*(-?\d+)\s*([A-Za-z]?)\s*$")
 
@@ -82,6 +83,9 @@ class Wire:
     steady_state : dict or None
         Steady-state flux between reservoirs (``flux_per_s``, ``occupancy``,
         ``control``, ``sensitivity``...), when solved.
+    copies : list of dict
+        The wires of the other copies of the same set of cofactors in the file
+        (each copy of a complex in the asymmetric unit gets its own wire).
     notes : list of str
     """
 
@@ -101,6 +105,7 @@ class Wire:
     summed_hop_time: float | None = None
     mean_first_passage_time: float | None = None
     steady_state: dict | None = None
+    copies: list[dict] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
 
     def to_dict(self) -> dict:
@@ -129,6 +134,7 @@ class Wire:
             "mean_first_passage_time_meaning": "one electron entering an oxidised chain at the entry, until it "
                                                "reaches the exit (model estimate)",
             "steady_state": self.steady_state,
+            "copies": list(self.copies),
             "connected": bool(self.path),
             "notes": list(self.notes),
         }
@@ -387,6 +393,8 @@ def trace_wire(
     endpoints: tuple[str | None, str | None, str] | None = None,
     reservoirs: Mapping[str, float] | None = None,
     reservoirs_file: str = "",
+    *,
+    copies: bool = True,
 ) -> Wire:
     """Trace the wire of one structure (see the module docstring).
 
@@ -401,6 +409,9 @@ def trace_wire(
     reservoirs : mapping, optional
         User reservoir potentials (``source``, ``sink``, V) from *reservoirs_file*;
         defaults by role otherwise (:mod:`fescan.transfer.reservoirs`).
+    copies : bool, optional
+        With default endpoints, also trace the wire of every other copy of the
+        same set of cofactors (connected within the cutoff) into ``Wire.copies``.
 
     Returns
     -------
@@ -444,7 +455,81 @@ def trace_wire(
     w.groups = _groups(u, set(path), order)
     _steady(g, w, options, reservoirs, reservoirs_file)
     w.notes += _caveats(g, w, options)
+    if any(h.crystal_contact for h in w.hops):
+        w.notes.append("the path crosses between copies of the complex that no biological assembly of the "
+                       "file joins: possible crystal contact, not a physiological route")
+    if copies and not (options.entry or options.exit):
+        w.copies = _other_copies(g, cofactors, options, w, reservoirs, reservoirs_file)
     return w
+
+
+def _other_copies(g, cofactors, options, w: Wire, reservoirs, reservoirs_file) -> list[dict]:
+    """Wires of the other groups holding the same classes as the wire's group (other copies)."""
+    usable = [c.uid for c in cofactors if _role(g, c.uid) in ("relay", "catalytic")]
+    u = nx.Graph()
+    u.add_nodes_from(usable)
+    u.add_edges_from((a, b) for a, b, d in g.subgraph(usable).edges(data="hop")
+                     if d.edge <= options.cutoff and not d.crystal_contact and not d.symmetry)
+    if w.entry not in u:
+        return []
+    main = nx.node_connected_component(u, w.entry)
+
+    def sig(comp):
+        return sorted(g.nodes[n]["cofactor"].cls for n in comp)
+
+    order = {c.uid: k for k, c in enumerate(cofactors)}
+    out = []
+    for comp in sorted(nx.connected_components(u), key=lambda c: min(order[n] for n in c)):
+        if comp is main or comp == main or sig(comp) != sig(main):
+            continue
+        sub = g.subgraph(comp)
+        cofs = [c for c in cofactors if c.uid in comp]
+        cw = trace_wire(sub, cofs, options, choose_endpoints(sub, cofs, options), reservoirs, reservoirs_file,
+                        copies=False)
+        ss = cw.steady_state or {}
+        out.append({"entry": cw.entry, "exit": cw.exit, "how_chosen": cw.how_chosen, "path": list(cw.path),
+                    "bottleneck": [cw.bottleneck.donor, cw.bottleneck.acceptor] if cw.bottleneck else None,
+                    "bottleneck_basis": cw.bottleneck_basis,
+                    "mean_first_passage_time_s": cw.mean_first_passage_time
+                    if cw.mean_first_passage_time is not None and math.isfinite(cw.mean_first_passage_time) else None,
+                    "flux_per_s": ss.get("flux_per_s"), "transit_time_s": ss.get("transit_time_s")})
+    return out
+
+
+def mark_crystal_contacts(g: nx.DiGraph, assemblies: Sequence[set[str]]) -> int:
+    """Flag hops between copies of the complex that no biological assembly joins.
+
+    Parameters
+    ----------
+    g : networkx.DiGraph
+        The cofactor graph (edges replaced in place).
+    assemblies : sequence of set of str
+        Author chain names of each biological assembly of the file.
+
+    Returns
+    -------
+    int
+        Number of directed hops flagged. The copies are the smallest assemblies
+        (those holding no other); a hop whose two cofactors lie in different copies
+        is a possible crystal contact unless one assembly holds both chains. Without
+        two or more copies nothing is flagged.
+    """
+    sets = [frozenset(a) for a in assemblies if a]
+    copies = [a for a in sets if not any(b < a for b in sets)]
+    if len(copies) < 2:
+        return 0
+    def copy_of(chain: str) -> int | None:
+        return next((k for k, a in enumerate(copies) if chain in a), None)
+    n = 0
+    for a, b, hop in list(g.edges(data="hop")):
+        ca, cb = g.nodes[a]["cofactor"].chain, g.nodes[b]["cofactor"].chain
+        ka, kb = copy_of(ca), copy_of(cb)
+        if ka is None or kb is None or ka == kb or any(ca in s and cb in s for s in sets if s not in copies):
+            continue
+        new = replace(hop, crystal_contact=True)
+        g.edges[a, b]["hop"] = new
+        n += 1
+    return n
 
 
 def _steady(g: nx.DiGraph, w: Wire, options: ScanOptions, reservoirs: Mapping[str, float] | None,
