@@ -28,9 +28,11 @@ Mean-field (independent-site) approximation
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.linalg
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
@@ -41,6 +43,8 @@ __all__ = ["RESERVOIR", "KineticNetwork", "StateSpace", "ExactSolution", "state_
 
 #: End index used for a reservoir in :attr:`KineticNetwork.ends`.
 RESERVOIR: int = -1
+#: Below this many states the stationary state is found by a dense LU (faster for tiny blocks).
+_DENSE_BELOW: int = 300
 
 
 @dataclass(frozen=True)
@@ -192,30 +196,50 @@ def _measured_step(net: KineticNetwork, space: StateSpace, p: np.ndarray,
 
 
 def _stationary(net: KineticNetwork, space: StateSpace, reference: int):
-    """Stationary probabilities (sparse LU with one state's weight fixed), the LU, the mask."""
+    """Stationary probabilities with one state's weight fixed, a solver for the same matrix
+    (``solve(rhs, trans)``) and the mask of the other states. Dense below 300 states (small
+    blocks of the cluster approximation), sparse LU above."""
     n = net.n_states
     if n == 1:
         raise ConfigError("the network has a single occupancy state; nothing can move")
-    gen = sp.csr_matrix((space.rate, (space.src, space.dst)), shape=(n, n))
-    out = np.asarray(gen.sum(axis=1)).ravel()
-    q = (gen - sp.diags(out)).tocsr()
     keep = np.ones(n, dtype=bool)
     keep[reference] = False
-    mt = q.T.tocsc()
-    a = mt[keep][:, keep].tocsc()
-    rhs = -np.asarray(mt[keep][:, [reference]].todense()).ravel()
-    try:
-        lu = spla.splu(a)
-    except RuntimeError as exc:  # singular: some states cannot reach the others
-        raise ConfigError(f"the kinetic network is not connected (singular master equation: {exc})") from None
+    if n < _DENSE_BELOW:
+        mt = np.zeros((n, n))  # transpose of the generator: mt[target, source]
+        np.add.at(mt, (space.dst, space.src), space.rate)
+        np.add.at(mt, (space.src, space.src), -space.rate)
+        a = mt[keep][:, keep]
+        rhs = -mt[keep, reference]
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", scipy.linalg.LinAlgWarning)
+            lu_piv = scipy.linalg.lu_factor(a, check_finite=False)
+        if not np.all(np.isfinite(lu_piv[0])) or np.any(np.diag(lu_piv[0]) == 0.0):
+            raise ConfigError("the kinetic network is not connected (singular master equation)")
+
+        def solve(b: np.ndarray, trans: str = "N") -> np.ndarray:
+            return scipy.linalg.lu_solve(lu_piv, b, trans=0 if trans == "N" else 1)
+    else:
+        gen = sp.csr_matrix((space.rate, (space.src, space.dst)), shape=(n, n))
+        out = np.asarray(gen.sum(axis=1)).ravel()
+        mts = (gen - sp.diags(out)).T.tocsc()
+        a = mts[keep][:, keep].tocsc()
+        rhs = -np.asarray(mts[keep][:, [reference]].todense()).ravel()
+        try:
+            lu = spla.splu(a)
+        except RuntimeError as exc:  # singular: some states cannot reach the others
+            raise ConfigError(f"the kinetic network is not connected (singular master equation: {exc})") from None
+
+        def solve(b: np.ndarray, trans: str = "N") -> np.ndarray:
+            return lu.solve(b, trans=trans)
     p = np.empty(n)
-    p[keep] = lu.solve(rhs)
+    with np.errstate(all="ignore"):
+        p[keep] = solve(rhs)
     p[reference] = 1.0
     if not np.isfinite(p).all():
         raise ConfigError("the kinetic network is not connected (non-finite stationary state)")
     p = np.clip(p, 0.0, None)
     p /= p.sum()
-    return p, lu, keep
+    return p, solve, keep
 
 
 def stationary(net: KineticNetwork, space: StateSpace, reference: int) -> np.ndarray:
@@ -239,12 +263,12 @@ def solve_exact(net: KineticNetwork, space: StateSpace, cut_steps: list[int],
         State whose probability is fixed before normalising (best a probable one).
     """
     n = net.n_states
-    p, lu, keep = _stationary(net, space, reference)
+    p, solve, keep = _stationary(net, space, reference)
     step, flux, _ = _measured_step(net, space, p, cut_steps)
     in_step = space.step == step
     c = np.bincount(space.src[in_step], weights=space.rate[in_step] * space.sign[in_step], minlength=n)
     y = np.zeros(n)
-    y[keep] = lu.solve((c - flux)[keep], trans="T")
+    y[keep] = solve((c - flux)[keep], trans="T")
     return ExactSolution(p, flux, step, y)
 
 
