@@ -104,7 +104,7 @@ def context_subclasses(
                     out[c.uid] = ("complex I (N3, N4, N5, N6a, N6b)", why)
         if by_cls.get("FAD") and all(by_cls.get(k) for k in _FES):
             why = "by context: FAD with [2Fe-2S], [3Fe-4S] and [4Fe-4S] in one group (SDH/QFR)"
-            for k in _FES:
+            for k in (*_FES, "FAD"):
                 for c in by_cls[k]:
                     out[c.uid] = ("SDH/QFR-type", why)
         if by_cls.get("[3Fe-4S]") and any(c.cls == "NiFe" or c.cls.startswith("NiFe") for c in cofs):
