@@ -525,6 +525,8 @@ def _monte_carlo(rows, result, pmodel, dmodel, kw, n, seed):
         else:
             r = _all_atom_distances(rng, dx, ax, sd, sa, n)
         g = pot[h.donor] - pot[h.acceptor]  # ΔG = -(E_acc - E_don), eV
+        if getattr(h, "dg_assumed", False):  # an undetermined potential: ΔG = 0 as in the hop builder
+            g = np.zeros(n)
         lk = np.asarray(log10_hop_rate(r, g, h.reorg, **_hop_kw(h, kw)))
         total += 10.0 ** -lk
         hops.append(_record(h, by[h.donor], by[h.acceptor], i, j, (sd[i], sa[j]), float(np.std(r)),
