@@ -7,8 +7,9 @@ n-electron couples at pH 7):
 * entry: a hydrogenase site → H⁺/H2 at pH 7; a flavin of the SDH/QFR family →
   fumarate/succinate; another flavin (substrate-oxidising) → NAD⁺/NADH; a
   menaquinone, or the [3Fe-4S] next to the quinol site of a type D fumarate
-  reductase → the menaquinone pool; a ubiquinone → the ubiquinone pool; a
-  plastoquinone → the plastoquinone pool; CuA → soluble cytochrome c;
+  reductase → the menaquinone pool; photosystem II QA → the reduced pheophytin
+  that feeds it; a ubiquinone → the ubiquinone pool; a plastoquinone → the
+  plastoquinone pool; CuA → soluble cytochrome c;
 * exit: a quinone → its pool (ubiquinone, menaquinone, plastoquinone); the last
   [4Fe-4S] of complex I (N2, which reduces ubiquinone) → the ubiquinone pool;
   heme a3 → O2/H2O; a flavin of the SDH/QFR family → fumarate/succinate.
@@ -66,7 +67,9 @@ def _source(g: nx.DiGraph, uid: str) -> Reservoir | None:
         return _pool("H+/H2 at pH 7")
     if c.category == "flavin":
         return _pool("fumarate/succinate") if _in_sdh(g, uid) else _pool("NAD+/NADH")
-    if c.category == "quinone" and c.cls in _QUINONE_POOL and "QA" not in sub:
+    if c.category == "quinone" and "QA" in sub:
+        return _pool("pheophytin (photosystem II)")
+    if c.category == "quinone" and c.cls in _QUINONE_POOL:
         return _pool(_QUINONE_POOL[c.cls])
     if c.cls == "[3Fe-4S]" and sub == "SDH/QFR-type":
         return _pool("menaquinone pool")
