@@ -22,6 +22,7 @@ and a note says so.
 from __future__ import annotations
 
 from collections import defaultdict
+from dataclasses import replace
 
 import gemmi
 import numpy as np
@@ -36,8 +37,10 @@ from fescan.cofactors.metal_sites import (
     core_class,
     find_metal_sites,
 )
+from fescan.cofactors.pterins import PTERIN_METALS, bound_pterins
 from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
 from fescan.cofactors.rings import isoalloxazine_atoms, porphyrin_atoms, quinone_ring_atoms
+from fescan.cofactors.subclasses import fes_pocket
 from fescan.core.records import Cofactor, Flag
 
 __all__ = ["find_cofactors", "count_not_analysed", "LOW_RESOLUTION_LIMIT"]
@@ -47,6 +50,7 @@ LOW_RESOLUTION_LIMIT = 3.0
 _THIOETHER_MAX = 2.1  # Å heme vinyl C - Cys SG in c-type hemes
 _CXXCH_SG_MAX = 3.6  # Å: a CxxC pair this close to the vinyl carbons is an unmodelled heme c link
 _HEME_N_MAX = 2.6  # Å Fe - pyrrole N
+_ENV_ATOM_RADIUS = 6.0  # Å: any atom of a non-standard residue this close to a metal brings the residue in
 
 
 def _rows_by_residue(atoms: AtomArrays) -> dict[int, np.ndarray]:
@@ -85,13 +89,34 @@ class _Builder:
         self.cand = self.index.candidates()
         self.by_res = _rows_by_residue(self.cand)
         self.cofactors: list[tuple[int, Cofactor]] = []
+        self.pterin_codes = frozenset(k for k, v in self.table.items() if v.category == "pterin")
+        self.pterin_res: set[int] = set()
+        self._chain_len: dict[str, int] | None = None
+        self._cand_tree = cKDTree(self.cand.xyz) if len(self.cand) else None
         self.env: AtomArrays | None = None
         self._env_key: dict[tuple[int, int], int] = {}
         self._env_tree: cKDTree | None = None
 
-    def prepare_environment(self, points: np.ndarray) -> None:
-        """Extract, once, every residue near the given points (metal and heme Fe atoms)."""
-        self.env = self.index.environment(points, radius=12.5) if len(points) else None
+    def prepare_environment(self, points: np.ndarray, own: set[int] | None = None) -> None:
+        """Extract, once, every residue near the given points (metal and heme Fe atoms).
+
+        A residue is taken when its first atom lies within 12.5 Å of a point, or
+        when it is a candidate (non-standard) residue with any atom within
+        :data:`_ENV_ATOM_RADIUS` Å of a point, or when it holds a cofactor atom
+        (``own``): a large residue (a pterin cofactor, a 60-atom ligand) whose
+        first atom is far from its metal is never missing from the environment.
+        """
+        if not len(points):
+            self.env = None
+            return
+        ids = set(self.index.residues_near(points, radius=12.5).tolist())
+        if own:
+            ids.update(int(r) for r in own)
+        if len(self.cand):
+            tree = cKDTree(self.cand.xyz)
+            for hit in tree.query_ball_point(np.asarray(points, dtype=float), r=_ENV_ATOM_RADIUS):
+                ids.update(int(self.cand.res_id[j]) for j in hit)
+        self.env = self.index.extract(np.asarray(sorted(ids), dtype=int))
         if self.env is not None and len(self.env):
             self._env_key = dict(zip(zip(self.env.res_id.tolist(), self.env.ordinal.tolist()),
                                      range(len(self.env))))
@@ -148,7 +173,7 @@ class _Builder:
             rn = str(self.cand.resname[rows[0]])
             entry = self.table.get(rn)
             cat = entry.category if entry else None
-            if cat in ("iron-sulfur", "copper"):
+            if cat in ("iron-sulfur", "copper", "pterin", "metal"):
                 continue
             fe = heme_fe.get(rid)
             if cat == "heme" or (cat is None and fe is not None):
@@ -232,6 +257,30 @@ class _Builder:
         )
         self.cofactors.append((rid, cof))
 
+    def chain_residues(self) -> dict[str, int]:
+        """Amino-acid residues per chain of the model (counted once)."""
+        if self._chain_len is None:
+            out: dict[str, int] = defaultdict(int)
+            for cname, res in self.index.residues:
+                info = gemmi.find_tabulated_residue(res.name)
+                if info is not None and info.is_amino_acid():
+                    out[cname] += 1
+            self._chain_len = dict(out)
+        return self._chain_len
+
+    def _ligand_rows(self, ligands) -> list[int]:
+        env = self.env
+        want = {(lig.atom.chain, lig.atom.seqnum, lig.atom.icode, lig.atom.name) for lig in ligands}
+        nums = {lig.atom.seqnum for lig in ligands}
+        rows = np.flatnonzero(np.isin(env.seqnum, list(nums)))
+        return [int(i) for i in rows if (env.chain[i], int(env.seqnum[i]), env.icode[i], env.name[i]) in want]
+
+    @staticmethod
+    def _is_dithiolene(lig, pterins) -> bool:
+        labels = {p.label for p in pterins}
+        a = lig.atom
+        return a.element == "S" and f"{a.chain}/{a.seqnum}{a.icode} {a.resname}" in labels
+
     @staticmethod
     def _thioether_cys(env: AtomArrays, heme_rows: list[int], max_d: float) -> list[tuple[str, int, str]]:
         """Cys residues (chain, number, icode) whose SG lies within ``max_d`` Å of a heme carbon."""
@@ -261,10 +310,16 @@ class _Builder:
             atom_rows = np.asarray([i for i in atom_rows if c.altloc[i] in core_alts or not c.altloc[i]], dtype=int)
         env_core = self._env_rows(core)
         env_metals = [e for e, ci in zip(env_core, core) if c.element[ci] in METALS]
-        ligs, clashes = find_ligands(env, env_metals, set(env_core), set(res_ids), tree=self._env_tree)
+        pterins = bound_pterins(c, self.by_res, [i for i in core if c.element[i] in PTERIN_METALS],
+                                self.pterin_codes, tree=self._cand_tree)
+        own = set(res_ids) | {p.res_id for p in pterins}
+        ligs, clashes = find_ligands(env, env_metals, set(env_core), own, tree=self._env_tree)
         elements = [str(c.element[i]) for i in core]
         composition = composition_string(elements)
         category, cls = core_class(elements, site.bonds, core)
+        if pterins:
+            ligs = [(m, replace(lig, kind="dithiolene S") if self._is_dithiolene(lig, pterins) else lig)
+                    for m, lig in ligs]
         ligands = [lig for _, lig in ligs]
         his_per_fe: dict[str, int] = defaultdict(int)
         cys = 0
@@ -300,10 +355,33 @@ class _Builder:
             flags.append(Flag("class_mismatch", "warning",
                               f"atoms form {core_class(elements, site.bonds, core)[1]} but the code says {entry.cls}"))
         first_metal = next(i for i in core if c.element[i] in METALS)
+        extra: dict = {"coordination": coordination}
+        if category == "iron-sulfur" and "S" in elements:
+            lig_rows = self._ligand_rows(ligands)
+            extra["pocket"] = fes_pocket(env, env_core, lig_rows, self.chain_residues())
+        redox_rows = list(core)
+        if pterins:
+            metal = next(str(c.element[i]) for i in core if c.element[i] in PTERIN_METALS).capitalize()
+            n = len(pterins)
+            cls = f"{metal}-bis-pterin" if n >= 2 else f"{metal}-pterin"
+            if any(e not in PTERIN_METALS and e in METALS for e in elements):
+                cls = f"{composition}-pterin"
+            category = "metal"
+            code = None if len(res_ids) > 1 or code not in METAL_ION_CODES else code
+            detected_by = "geometry" if not any(p.label.split()[-1] in self.pterin_codes for p in pterins) else "ccd+geometry"
+            extra["pterins"] = [p.label for p in pterins]
+            extra["dithiolene_s"] = sum(len(p.sulfur_rows) for p in pterins)
+            own_rows = {int(i) for i in atom_rows}
+            for p in pterins:
+                rows = [int(i) for i in self.by_res[p.res_id] if int(i) not in own_rows]
+                atom_rows = np.concatenate([atom_rows, np.asarray(rows, dtype=int)])
+                own_rows.update(rows)
+                redox_rows += [r for r in list(p.ring_rows) + list(p.sulfur_rows) if r not in redox_rows]
+            self.pterin_res.update(p.res_id for p in pterins)
         cof = self._record(
-            c, atom_rows, core, first_metal, ccd_code=code, category=category, cls=cls,
+            c, atom_rows, redox_rows, first_metal, ccd_code=code, category=category, cls=cls,
             composition=composition, detected_by=detected_by, ligands=tuple(ligands), flags=flags,
-            motif=binding_motif(ligands), extra={"coordination": coordination},
+            motif=binding_motif(ligands), extra=extra,
         )
         self.cofactors.append((int(c.res_id[first_metal]), cof))
 
@@ -330,7 +408,9 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     sites = b.find_sites(heme_fe)
     points = [b.cand.xyz[i] for i in heme_fe.values()]
     points += [b.cand.xyz[i] for s in sites for i in s.core if b.cand.element[i] in METALS]
-    b.prepare_environment(np.asarray(points, dtype=float).reshape(-1, 3))
+    own = {int(b.cand.res_id[i]) for i in heme_fe.values()}
+    own |= {int(b.cand.res_id[i]) for s in sites for i in s.core}
+    b.prepare_environment(np.asarray(points, dtype=float).reshape(-1, 3), own)
     b.organic(heme_fe)
     for site in sites:
         b.metal_site(site)
@@ -340,8 +420,6 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
 
 def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
     """Give a part suffix to cofactors that share a naming residue (altloc letter, else 1, 2...)."""
-    from dataclasses import replace
-
     groups: dict[str, list[int]] = defaultdict(list)
     for k, c in enumerate(cofactors):
         groups[c.key].append(k)

@@ -205,6 +205,8 @@ def core_class(elements: list[str], bonds: list[tuple[int, int]], rows: list[int
                 return "iron-sulfur", "[3Fe-4S]"
             return "iron-sulfur", "linear [3Fe-4S]"
         return "iron-sulfur", f"[{n_fe}Fe-{n_s}S]"
+    if n_fe == 7 and n_s in (8, 9) and others & {"MO", "V"} and others <= {"MO", "V", "C", "N", "O"}:
+        return "iron-sulfur", "FeMo-co" if "MO" in others else "FeV-co"  # nitrogenase cofactors
     if n_fe and n_s:
         return "iron-sulfur", composition_string(elements)
     if cnt.get("CU", 0) and set(cnt) == {"CU"}:

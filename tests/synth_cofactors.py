@@ -1,0 +1,186 @@
+"""Synthetic cofactors built in code for the role and ring tests (idealised geometry).
+
+Ring systems are drawn on a flat hexagonal lattice (C-C and C-N 1.40 Å, a
+common-practice aromatic bond length, no source); the element pattern alone
+tells a flavin (isoalloxazine: benzo + pyrazine + pyrimidine rings) from a
+molybdopterin (pyran + pyrazine + pyrimidine, dithiolene S on the pyran ring).
+Mo-S(dithiolene) 2.4 Å and Mo=O 1.7 Å are typical values (from memory, Hille
+1996 Chem Rev 96:2757 reviews them). Atom and residue names can be scrambled
+to ``UNL`` / ``X1``... so that only geometry can tell the groups apart.
+"""
+
+from __future__ import annotations
+
+import gemmi
+import numpy as np
+
+from tests.synth import _atom, _residue
+
+BOND = 1.40
+_ANG = {30: 0, 90: 1, 150: 2, 210: 3, 270: 4, 330: 5}
+
+
+def _hexagon(cx: float) -> dict[int, np.ndarray]:
+    return {
+        a: np.array([cx + BOND * np.cos(np.radians(a)), BOND * np.sin(np.radians(a)), 0.0])
+        for a in _ANG
+    }
+
+
+def tricycle(kind: str) -> list[tuple[str, str, np.ndarray]]:
+    """Atoms (name, element, xyz) of a flavin (``"flavin"``) or a pyranopterin (``"pterin"``) ring system.
+
+    Rings sit in a row along x (left ring 0, middle ring 1, right ring 2), in
+    the z = 0 plane. The middle ring carries N at 90° and 270° (pyrazine); the
+    right ring is the pyrimidine (N at 30° and 270°) with an exocyclic O at 90°
+    and an O (flavin) or amino N (pterin) at 330°.
+    """
+    step = 2 * BOND * np.cos(np.radians(30))
+    rings = [_hexagon(k * step) for k in range(3)]
+    atoms: list[tuple[str, str, np.ndarray]] = []
+
+    def add(name: str, el: str, xyz: np.ndarray) -> None:
+        for _, _, p in atoms:
+            if np.linalg.norm(p - xyz) < 0.1:
+                return
+        atoms.append((name, el, np.asarray(xyz, dtype=float)))
+
+    def out(r: int, a: int, d: float) -> np.ndarray:
+        v = rings[r][a]
+        u = v - np.array([r * step, 0.0, 0.0])
+        return v + d * u / np.linalg.norm(u)
+
+    # right ring: pyrimidine
+    r2 = rings[2]
+    add("C4A", "C", r2[150])
+    add("C4", "C", r2[90])
+    add("N3", "N", r2[30])
+    add("C2", "C", r2[330])
+    add("N1", "N", r2[270])
+    add("C10A", "C", r2[210])
+    add("O4", "O", out(2, 90, 1.23))
+    add("O2" if kind == "flavin" else "N2", "O" if kind == "flavin" else "N", out(2, 330, 1.30))
+    # middle ring: pyrazine
+    r1 = rings[1]
+    add("N5", "N", r1[90])
+    add("N10", "N", r1[270])
+    add("C5A", "C", r1[150])
+    add("C9A", "C", r1[210])
+    # left ring
+    r0 = rings[0]
+    if kind == "flavin":
+        for k, a in enumerate((90, 150, 210, 270)):
+            add(f"C{6 + k}", "C", r0[a])
+        add("C7M", "C", out(0, 150, 1.50))
+        add("C8M", "C", out(0, 210, 1.50))
+        add("C1'", "C", out(1, 270, 1.47))
+        add("C2'", "C", out(1, 270, 2.9))
+    else:
+        add("C1'", "C", r0[90])
+        add("C2'", "C", r0[150])
+        add("C3'", "C", r0[210])
+        add("O3'", "O", r0[270])
+        add("S1'", "S", out(0, 90, 1.75))
+        add("S2'", "S", out(0, 150, 1.75))
+        add("C4'", "C", out(0, 210, 1.52))
+        add("O4'", "O", out(0, 210, 2.9))
+    return atoms
+
+
+def _dithiolene_mo(pterin: list[tuple[str, str, np.ndarray]], mo_s: float = 2.4) -> np.ndarray:
+    s = [p for n, e, p in pterin if e == "S"]
+    mid = (s[0] + s[1]) / 2
+    half = np.linalg.norm(s[0] - s[1]) / 2
+    centre = np.mean([p for _, _, p in pterin], axis=0)
+    u = mid - centre
+    u -= np.dot(u, s[0] - s[1]) / np.dot(s[0] - s[1], s[0] - s[1]) * (s[0] - s[1])
+    u /= np.linalg.norm(u)
+    return mid + np.sqrt(mo_s**2 - half**2) * u
+
+
+def _structure(residues: list[gemmi.Residue]) -> gemmi.Structure:
+    ch = gemmi.Chain("A")
+    for r in residues:
+        ch.add_residue(r)
+    st = gemmi.Structure()
+    st.name = "SYNTH"
+    m = gemmi.Model(1)
+    m.add_chain(ch)
+    st.add_model(m)
+    st.setup_entities()
+    return st
+
+
+def _res(name: str, num: int, atoms, scramble: bool, offset=(0.0, 0.0, 0.0)) -> gemmi.Residue:
+    r = _residue("UNL" if scramble else name, num, het=True)
+    off = np.asarray(offset, dtype=float)
+    for k, (n, e, p) in enumerate(atoms, start=1):
+        r.add_atom(_atom(f"X{k}" if scramble else n, e, p + off))
+    return r
+
+
+def flavin_and_mo_bis_pterin(scramble: bool = True, metal: str = "MO") -> gemmi.Structure:
+    """A flavin far from a Mo (or W) bound by the dithiolenes of two pyranopterins.
+
+    Residues (chain A): 1 the flavin, 2 and 3 the pterins, 4 the metal with one
+    oxo O. With ``scramble`` every residue is ``UNL`` and atoms are ``X1``...
+    """
+    p1 = tricycle("pterin")
+    mo = _dithiolene_mo(p1)
+    p2 = [(n, e, 2 * mo - p) for n, e, p in p1]  # inversion through the metal: second dithiolene
+    fl = [(n, e, p + np.array([0.0, 0.0, 25.0])) for n, e, p in tricycle("flavin")]
+    metal_res = _residue("UNL" if scramble else metal, 4, het=True)
+    metal_res.add_atom(_atom("X1" if scramble else metal, metal.capitalize(), mo))
+    metal_res.add_atom(_atom("X2" if scramble else "O1", "O", mo + np.array([0.0, 0.0, 1.7])))
+    return _structure([
+        _res("FMN", 1, fl, scramble),
+        _res("MGD", 2, p1, scramble),
+        _res("MGD", 3, p2, scramble),
+        metal_res,
+    ])
+
+
+def molybdate_on_lysine(code: str = "MOO") -> gemmi.Structure:
+    """A MoO4 tetrahedron (Mo-O 1.75 Å) held by a surface Lys NZ at 2.9 Å from one O (a salt bridge)."""
+    mo = np.array([5.0, 5.0, 5.0])
+    dirs = np.array([[1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1]], dtype=float) / np.sqrt(3)
+    moo = _residue(code, 301, het=True)
+    moo.add_atom(_atom("MO", "Mo", mo))
+    for k, d in enumerate(dirs, start=1):
+        moo.add_atom(_atom(f"O{k}", "O", mo + 1.75 * d))
+    nz = mo + (1.75 + 2.9) * dirs[0]
+    lys = _residue("LYS", 42)
+    chain = [("N", "N", 4.5), ("CA", "C", 3.2), ("CB", "C", 2.0), ("CD", "C", 1.0), ("NZ", "N", 0.0)]
+    for name, el, off in chain:
+        lys.add_atom(_atom(name, el, nz + off * dirs[0]))
+    return _structure([lys, moo])
+
+
+def big_metal_residue(n_atoms: int = 60, metal: str = "MO") -> gemmi.Structure:
+    """One residue of ``n_atoms`` atoms: a zig-zag carbon chain over 20+ Å with a metal near the far end.
+
+    The first atom is far (> 12.5 Å) from the metal, the case that crashed the
+    environment look-up. Two S on the chain's last carbons bind the metal.
+    """
+    atoms = []
+    for k in range(n_atoms - 3):
+        atoms.append((f"C{k}", "C", np.array([1.25 * k, 0.8 * (k % 2), 0.0])))
+    end = atoms[-1][2]
+    s1 = end + np.array([0.0, 0.0, 1.8])
+    s2 = atoms[-2][2] + np.array([0.0, 0.0, 1.8])
+    m = (s1 + s2) / 2 + np.array([0.0, 0.0, 2.2])
+    atoms += [("S1", "S", s1), ("S2", "S", s2), ("M1", metal.capitalize(), m)]
+    return _structure([_res("UNL", 1, atoms, scramble=False)])
+
+
+def many_iron_residue(n_fe: int = 40) -> gemmi.Structure:
+    """One residue holding ``n_fe`` Fe atoms on a 2.7 Å grid (all in metal-metal contact)."""
+    atoms = []
+    k = 0
+    for x in range(5):
+        for y in range(4):
+            for z in range(3):
+                if k < n_fe:
+                    atoms.append((f"FE{k}", "Fe", np.array([2.7 * x, 2.7 * y, 2.7 * z])))
+                    k += 1
+    return _structure([_res("UNL", 1, atoms, scramble=False)])
