@@ -192,6 +192,8 @@ def test_every_ccd_table_class_has_a_default():
     for rec in csv.DictReader(path.read_text("utf-8").splitlines()):
         if rec["category"] == "not analysed":  # listed only to be reported as skipped
             continue
+        if rec["category"] == "pterin":  # never a cofactor alone: part of its Mo/W site (category metal)
+            continue
         assert default_potential(rec["class"], rec["category"]).source
 
 

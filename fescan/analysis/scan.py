@@ -6,16 +6,20 @@ it unchanged. Its result is plain data (picklable) with ``to_dict()``.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+import re
+from dataclasses import dataclass, field, replace
+from pathlib import Path
 from typing import Any
 
 import networkx as nx
+import tomllib
 
 from fescan.cofactors import count_not_analysed, find_cofactors
+from fescan.cofactors.roles import apply_role_overrides
 from fescan.core.errors import CofactorNotFound, ConfigError
 from fescan.core.jsonutil import finite_json
 from fescan.core.options import ScanOptions
-from fescan.core.records import Cofactor
+from fescan.core.records import ROLES, Cofactor
 from fescan.structure.reading import StructureInfo, read_structure
 from fescan.transfer.distances import Pair, pair_distances
 from fescan.transfer.graph import build_cofactor_graph
@@ -63,6 +67,13 @@ class ScanResult:
     not_analysed : dict of str to int
         Residues of redox-active groups fescan does not model (chlorophylls,
         nicotinamides...), counted by CCD code.
+    off_wire : list of dict
+        Cofactors kept off the wire (role ``structural`` or ``ion or
+        additive``): ``id``, ``label``, ``role`` and ``reason``. They are listed in
+        ``cofactors`` but are no node of ``graph`` and in no pair.
+    notes : list of str
+        Findings about the file as a whole (cofactors named in the header but
+        absent from the coordinates, other models holding cofactors...).
     """
 
     path: str
@@ -75,10 +86,17 @@ class ScanResult:
     wire: Wire
     all_pairs: list[dict] = field(default_factory=list)
     not_analysed: dict[str, int] = field(default_factory=dict)
+    off_wire: list[dict] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
 
     def cofactor(self, uid: str) -> Cofactor:
-        """The cofactor with this uid."""
-        return self.graph.nodes[uid]["cofactor"]
+        """The cofactor with this uid (on the wire or not)."""
+        if uid in self.graph:
+            return self.graph.nodes[uid]["cofactor"]
+        for c in self.cofactors:
+            if c.uid == uid:
+                return c
+        raise KeyError(uid)
 
     def pair_records(self) -> list[dict[str, Any]]:
         """Every pair considered, with both distances, ΔG (first → second), k_f and k_b."""
@@ -105,8 +123,9 @@ class ScanResult:
         cofs = []
         for c in self.cofactors:
             rec = c.to_dict()
-            rec["potential_v"] = self.potentials[c.uid].e_v
-            rec["potential_origin"] = self.potentials[c.uid].origin
+            pot = self.potentials.get(c.uid)
+            rec["potential_v"] = pot.e_v if pot is not None else None
+            rec["potential_origin"] = pot.origin if pot is not None else None
             cofs.append(rec)
         return finite_json({
             "file": self.path,
@@ -120,6 +139,8 @@ class ScanResult:
             "wire": self.wire.to_dict(),
             "all_pairs": self.all_pairs,
             "not_analysed": dict(self.not_analysed),
+            "off_wire": list(self.off_wire),
+            "notes": list(self.notes),
         })
 
 
@@ -156,6 +177,14 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
     cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution)
+    if opts.potentials_file:
+        roles = read_role_overrides(opts.potentials_file)
+        if roles:
+            cofactors = apply_role_overrides(cofactors, roles, origin=f"parameter file {opts.potentials_file}")
+    everything = cofactors
+    cofactors = [c for c in everything if c.role in WIRE_ROLES]  # only these enter the wire
+    off_wire = [{"id": c.uid, "label": c.label, "role": c.role, "reason": c.role_reason}
+                for c in everything if c.role not in WIRE_ROLES]
     cell = ops = None
     if opts.symmetry:
         st = loaded.structure
@@ -164,8 +193,8 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
             cell, ops = st.cell, list(sg.operations())
     pairs = pair_distances(cofactors, opts.cutoff, cell=cell, symmetry_ops=ops)
     user = load_user_parameters(opts.potentials_file) if opts.potentials_file else None
-    potentials = assign_potentials(cofactors, user)
-    reorgs = reorganisation_overrides(cofactors, user)
+    potentials = assign_potentials(everything, user)
+    reorgs = reorganisation_overrides(everything, user)
     packing = None
     if opts.packing == "measured":
         from fescan.transfer.packing import measured_packing_densities
@@ -179,5 +208,51 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     if opts.symmetry and ops is None:
         wire.notes.append("symmetry mates requested but the file has no crystal cell/space group")
     extra = all_pair_paths(g, opts) if opts.all_pairs else []
-    return ScanResult(str(path), loaded.info, opts, cofactors, pairs, potentials, g, wire, extra,
-                      count_not_analysed(loaded.model))
+    # pairs index the wired cofactors; the result lists every cofactor in file order
+    index = {c.uid: k for k, c in enumerate(everything)}
+    pairs = [replace(p, i=index[cofactors[p.i].uid], j=index[cofactors[p.j].uid]) for p in pairs]
+    if off_wire:
+        wire.notes.append(
+            f"{len(off_wire)} cofactor(s) kept off the wire (structural metals and ions): "
+            + "; ".join(f"{o['label']} ({o['role']})" for o in off_wire))
+    return ScanResult(str(path), loaded.info, opts, everything, pairs, potentials, g, wire, extra,
+                      count_not_analysed(loaded.model), off_wire)
+
+
+#: Roles whose cofactors enter the cofactor graph (relays carry electrons through;
+#: catalytic sites may be an entry or an exit, the path rules keep them off the inside).
+WIRE_ROLES = frozenset({"relay", "catalytic"})
+
+
+def read_role_overrides(path: str | Path) -> dict[str, str]:
+    """Per-cofactor ``role = "..."`` keys of the parameter TOML file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The parameter file (``[cofactor."A/557"]`` tables, see
+        :func:`fescan.transfer.potentials.load_user_parameters`).
+
+    Returns
+    -------
+    dict of str to str
+        Selector → role, for the tables that give a role.
+
+    Raises
+    ------
+    fescan.core.errors.ConfigError
+        If a role is not a string naming one of the roles.
+    """
+    try:
+        doc = tomllib.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return {}  # the potentials reader reports a bad file with its own message
+    out = {}
+    for sel, table in (doc.get("cofactor") or {}).items():
+        if isinstance(table, dict) and "role" in table:
+            role = table["role"]
+            if role not in ROLES:
+                raise ConfigError(f"{path}: [cofactor.\"{sel}\"] role {role!r} is not one of {', '.join(ROLES)}")
+            m = re.match(r"^\s*([^/\s]+)/(-?\d+)([A-Za-z]?)\s*$", str(sel))
+            out[f"{m.group(1)}/{int(m.group(2))}{m.group(3)}" if m else str(sel).strip()] = role
+    return out

@@ -40,6 +40,7 @@ from fescan.cofactors.metal_sites import (
 from fescan.cofactors.pterins import PTERIN_METALS, bound_pterins
 from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
 from fescan.cofactors.rings import isoalloxazine_atoms, porphyrin_atoms, quinone_ring_atoms
+from fescan.cofactors.roles import assign_roles
 from fescan.cofactors.subclasses import fes_pocket
 from fescan.core.records import Cofactor, Flag
 
@@ -415,7 +416,7 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    return _unique_keys([cof for _, cof in b.cofactors])
+    return assign_roles(_unique_keys([cof for _, cof in b.cofactors]))
 
 
 def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:

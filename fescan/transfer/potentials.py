@@ -71,7 +71,7 @@ _COLUMNS = (
 _FALLBACK_CLASS = "*"
 _SELECTOR_RE = re.compile(r"^\s*([^/\s]+)\s*/\s*(-?\d+)\s*([A-Za-z]?)\s*$")
 _REORG_KEYS = ("reorganisation", "reorganization")
-_KNOWN_KEYS = ("potential", *_REORG_KEYS)
+_KNOWN_KEYS = ("potential", *_REORG_KEYS, "role")  # role: read by fescan.cofactors.roles
 
 
 @dataclass(frozen=True, slots=True)
