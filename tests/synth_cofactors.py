@@ -184,3 +184,25 @@ def many_iron_residue(n_fe: int = 40) -> gemmi.Structure:
                     atoms.append((f"FE{k}", "Fe", np.array([2.7 * x, 2.7 * y, 2.7 * z])))
                     k += 1
     return _structure([_res("UNL", 1, atoms, scramble=False)])
+
+
+def quinone(kind: str, scramble: bool = True) -> gemmi.Structure:
+    """A quinone built on the hexagon lattice: ``"benzo"``, ``"naphtho"`` (para O) or ``"catechol"`` (ortho O).
+
+    C=O 1.23 Å (common practice, no source); a methyl and a short tail make the
+    residue look like a natural quinone head group.
+    """
+    step = 2 * BOND * np.cos(np.radians(30))
+    r0 = _hexagon(0.0)
+    atoms: list[tuple[str, str, np.ndarray]] = [(f"C{_ANG[a] + 1}", "C", p) for a, p in r0.items()]
+    o_at = (90, 150) if kind == "catechol" else (90, 270)
+    for k, a in enumerate(o_at, start=1):
+        atoms.append((f"O{k}", "O", r0[a] * (1 + 1.23 / BOND)))
+    subst = (210, 270) if kind == "catechol" else (150, 210)
+    atoms.append(("CM", "C", r0[subst[0]] * (1 + 1.5 / BOND)))
+    atoms.append(("CT", "C", r0[subst[1]] * (1 + 1.5 / BOND)))
+    if kind == "naphtho":
+        r1 = _hexagon(step)
+        for a in (90, 30, 330, 270):
+            atoms.append((f"C{11 + _ANG[a]}", "C", r1[a]))
+    return _structure([_res("PQN" if kind == "naphtho" else "PL9", 1, atoms, scramble)])

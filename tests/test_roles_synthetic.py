@@ -104,3 +104,23 @@ def test_role_override_rejects_an_unknown_role(tmp_path):
     toml.write_text('[cofactor."A/301"]\nrole = "spectator"\n', encoding="utf-8")
     with pytest.raises(ConfigError, match="spectator"):
         _scan(sc.molybdate_on_lysine("MOO"), tmp_path, potentials_file=str(toml))
+
+
+# -- quinones by ring -----------------------------------------------------------
+@pytest.mark.parametrize(("kind", "cls"), [("benzo", "quinone"), ("naphtho", "naphthoquinone")])
+def test_quinone_with_an_unknown_code_is_found_by_its_ring(tmp_path, kind, cls):
+    # para-quinone ring: six ring C, two terminal O in 1,4 positions (common practice, no source);
+    # a fused all-carbon ring makes it a naphthoquinone (phylloquinone, menaquinones)
+    (q,) = _scan(sc.quinone(kind, scramble=True), tmp_path).cofactors
+    assert q.category == "quinone" and q.cls == cls and q.detected_by == "geometry"
+    assert len(q.redox_atoms) == 8 and q.role == "relay"
+
+
+def test_phylloquinone_code_is_a_quinone(tmp_path):
+    # wwPDB CCD PQN = phylloquinone, the A1 acceptor of photosystem I (Jordan et al. 2001 Nature 411:909)
+    (q,) = _scan(sc.quinone("naphtho", scramble=False), tmp_path).cofactors
+    assert q.ccd_code == "PQN" and q.cls == "phylloquinone"
+
+
+def test_ortho_diol_with_an_unknown_code_is_no_quinone(tmp_path):
+    assert _scan(sc.quinone("catechol", scramble=True), tmp_path).cofactors == []

@@ -39,7 +39,12 @@ from fescan.cofactors.metal_sites import (
 )
 from fescan.cofactors.pterins import PTERIN_METALS, bound_pterins
 from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
-from fescan.cofactors.rings import isoalloxazine_atoms, porphyrin_atoms, quinone_ring_atoms
+from fescan.cofactors.rings import (
+    isoalloxazine_atoms,
+    porphyrin_atoms,
+    quinone_kind,
+    quinone_ring_atoms,
+)
 from fescan.cofactors.roles import assign_roles
 from fescan.cofactors.subclasses import fes_pocket
 from fescan.core.records import Cofactor, Flag
@@ -180,9 +185,12 @@ class _Builder:
             if cat == "heme" or (cat is None and fe is not None):
                 self._heme(rid, rows, fe, entry)
             elif cat == "flavin" or (cat is None and _might_be_flavin(self.cand, rows)):
-                self._flavin(rows, entry)
+                if not self._flavin(rows, entry) and cat is None:
+                    self._quinone_by_ring(rows)
             elif cat == "quinone":
                 self._quinone(rows, entry)
+            elif cat is None:
+                self._quinone_by_ring(rows)
 
     def _ring_or_all(self, rows, found, what: str) -> tuple[list[int], list[Flag]]:
         if found is None:
@@ -190,11 +198,32 @@ class _Builder:
                                      f"{what} not found in the atoms: all atoms used for distances")]
         return [int(rows[i]) for i in found], []
 
-    def _flavin(self, rows: np.ndarray, entry) -> None:
+    def _quinone_by_ring(self, rows: np.ndarray) -> None:
+        """A residue of unknown code holding a para-quinone/quinol ring (benzo- or naphthoquinone)."""
+        c = self.cand
+        el = c.element[rows]
+        if len(rows) < 8 or any(e in METALS or e in ("MG", "ZN", "CO", "NI") for e in el):
+            return
+        if int(np.sum(el == "C")) < 6 or int(np.sum(el == "O")) < 2:
+            return
+        found = quinone_kind(c.xyz[rows], el)
+        if found is None:
+            return
+        kind, local = found
+        cls = "naphthoquinone" if kind == "naphthoquinone" else "quinone"
+        cof = self._record(
+            c, rows, [int(rows[i]) for i in local], int(rows[0]), ccd_code=None, category="quinone", cls=cls,
+            composition=composition_string(el), detected_by="geometry",
+            flags=[Flag("found_by_ring", "note", f"code {c.resname[rows[0]]} is not in the table: found as a "
+                        f"{kind} by its ring (two para O on a six-carbon ring)")],
+        )
+        self.cofactors.append((int(c.res_id[rows[0]]), cof))
+
+    def _flavin(self, rows: np.ndarray, entry) -> bool:
         c = self.cand
         ring = isoalloxazine_atoms(c.xyz[rows], c.element[rows])
         if entry is None and ring is None:
-            return  # an unknown residue that is no flavin
+            return False  # an unknown residue that is no flavin
         redox, flags = self._ring_or_all(rows, ring, "isoalloxazine ring")
         code = str(c.resname[rows[0]])
         cof = self._record(
@@ -204,6 +233,7 @@ class _Builder:
             flags=flags,
         )
         self.cofactors.append((int(c.res_id[rows[0]]), cof))
+        return True
 
     def _quinone(self, rows: np.ndarray, entry) -> None:
         c = self.cand
