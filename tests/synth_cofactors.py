@@ -206,3 +206,40 @@ def quinone(kind: str, scramble: bool = True) -> gemmi.Structure:
         for a in (90, 30, 330, 270):
             atoms.append((f"C{11 + _ANG[a]}", "C", r1[a]))
     return _structure([_res("PQN" if kind == "naphtho" else "PL9", 1, atoms, scramble)])
+
+
+def two_state_cluster(code_b: str = "SF4", shift: float = 0.6, occ: tuple[float, float] = (0.6, 0.4)) -> gemmi.Structure:
+    """A [4Fe-4S] with its four Cys, modelled twice: residue 101 and residue 102 (code ``code_b``) moved by ``shift`` Å."""
+    from tests.synth import four_fe_cluster
+
+    st = four_fe_cluster()
+    ch = st[0]["A"]
+    first = ch[len(ch) - 1]
+    twin = _residue(code_b, 102, het=True)
+    for a in first:
+        a.occ = occ[0]
+        b = _atom(a.name, a.element.name, np.asarray(a.pos.tolist()) + np.array([shift, 0.0, 0.0]))
+        b.occ = occ[1]
+        twin.add_atom(b)
+    ch.add_residue(twin)
+    return st
+
+
+def two_iron_positions(gap: float = 1.2) -> gemmi.Structure:
+    """One Fe modelled at two positions ``gap`` Å apart (residues FE2 601 and 602, occupancy 0.5 each),
+    held by three His-like N donors (residue names HIS, atoms NE2) at 2.1 Å from the midpoint."""
+    mid = np.array([0.0, 0.0, 0.0])
+    residues = []
+    for k, d in enumerate(np.array([[1, 0, 0], [0, 1, 0], [0, 0, 1]], dtype=float)):
+        his = _residue("HIS", 10 + k)
+        ne2 = mid - 2.1 * d
+        his.add_atom(_atom("NE2", "N", ne2))
+        his.add_atom(_atom("CE1", "C", ne2 - 1.33 * d))
+        residues.append(his)
+    for k, sign in enumerate((-1, 1)):
+        r = _residue("FE2", 601 + k, het=True)
+        a = _atom("FE", "Fe", mid + sign * np.array([gap / 2, -gap / 2, 0.0]) / np.sqrt(2))
+        a.occ = 0.5
+        r.add_atom(a)
+        residues.append(r)
+    return _structure(residues)

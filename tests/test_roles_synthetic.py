@@ -124,3 +124,22 @@ def test_phylloquinone_code_is_a_quinone(tmp_path):
 
 def test_ortho_diol_with_an_unknown_code_is_no_quinone(tmp_path):
     assert _scan(sc.quinone("catechol", scramble=True), tmp_path).cofactors == []
+
+
+# -- alternative states -----------------------------------------------------------
+@pytest.mark.parametrize("code_b", ["SF4", "FS4"])
+def test_overlapping_states_are_one_cofactor_without_clashes(tmp_path, code_b):
+    # one [4Fe-4S] modelled twice (occupancies 0.6 + 0.4, second copy 0.6 Å away, same or other code)
+    res = _scan(sc.two_state_cluster(code_b), tmp_path)
+    (c,) = res.cofactors
+    assert c.cls == "[4Fe-4S]" and c.key == "A/101"
+    assert c.states == ("SF4 A/101 occ 0.60", f"{code_b} A/102 occ 0.40")
+    assert not any(f.code in ("clash", "class_mismatch") for f in c.flags)
+    assert len(c.ligands) == 4  # the four Cys, no S of the twin
+
+
+def test_two_positions_of_one_iron_are_no_diiron_site(tmp_path):
+    # Fe at two positions 1.2 Å apart (occupancy 0.5 each): no metal-metal bond is that short
+    res = _scan(sc.two_iron_positions(1.2), tmp_path)
+    (c,) = res.cofactors
+    assert c.cls == "mononuclear Fe" and len(c.states) == 2

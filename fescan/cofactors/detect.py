@@ -46,6 +46,7 @@ from fescan.cofactors.rings import (
     quinone_ring_atoms,
 )
 from fescan.cofactors.roles import assign_roles
+from fescan.cofactors.states import find_alternative_states
 from fescan.cofactors.subclasses import fes_pocket
 from fescan.core.records import Cofactor, Flag
 
@@ -90,6 +91,8 @@ class _Builder:
         self.table = ccd_table()
         skip = frozenset(k for k, v in self.table.items() if v.category == "not analysed")
         self.index = ModelIndex(model, skip=skip)
+        self.states = find_alternative_states(self.index.residues, np.flatnonzero(self.index.is_candidate))
+        self.index.hide(st.res_id for group in self.states.values() for st in group[1:])
         self.model_number = model_number
         self.low_res = resolution is not None and resolution > LOW_RESOLUTION_LIMIT
         self.cand = self.index.candidates()
@@ -118,6 +121,7 @@ class _Builder:
         ids = set(self.index.residues_near(points, radius=12.5).tolist())
         if own:
             ids.update(int(r) for r in own)
+        ids -= self.index.hidden
         if len(self.cand):
             tree = cKDTree(self.cand.xyz)
             for hit in tree.query_ball_point(np.asarray(points, dtype=float), r=_ENV_ATOM_RADIUS):
@@ -446,7 +450,26 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    return assign_roles(_unique_keys([cof for _, cof in b.cofactors]))
+    cofs = [_with_states(cof, b) for _, cof in b.cofactors]
+    return assign_roles(_unique_keys(cofs))
+
+
+def _with_states(cof: Cofactor, b: _Builder) -> Cofactor:
+    """Name the alternative states merged into this cofactor (see :mod:`fescan.cofactors.states`)."""
+    if not b.states:
+        return cof
+    labels = set(cof.residues)
+    states: list[str] = []
+    for kept, group in b.states.items():
+        cname, res = b.index.residues[kept]
+        if f"{cname}/{res.seqid.num}{res.seqid.icode.strip()} {res.name}" in labels:
+            states += [st.label for st in group]
+    if not states:
+        return cof
+    flag = Flag("alternative_states", "note",
+                f"modelled in {len(states)} overlapping states ({'; '.join(states)}): analysed as one cofactor, "
+                f"in the state of highest occupancy")
+    return replace(cof, states=tuple(states), flags=cof.flags + (flag,))
 
 
 def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
