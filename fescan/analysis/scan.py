@@ -15,6 +15,7 @@ import networkx as nx
 import tomllib
 
 from fescan.cofactors import count_not_analysed, find_cofactors
+from fescan.cofactors.header_check import missing_cofactor_notes, models_with_cofactors
 from fescan.cofactors.roles import apply_role_overrides
 from fescan.core.errors import CofactorNotFound, ConfigError
 from fescan.core.jsonutil import finite_json
@@ -216,7 +217,25 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
             f"{len(off_wire)} cofactor(s) kept off the wire (structural metals and ions): "
             + "; ".join(f"{o['label']} ({o['role']})" for o in off_wire))
     return ScanResult(str(path), loaded.info, opts, everything, pairs, potentials, g, wire, extra,
-                      count_not_analysed(loaded.model), off_wire)
+                      count_not_analysed(loaded.model), off_wire, _file_notes(path, loaded, everything))
+
+
+def _file_notes(path, loaded, cofactors: list[Cofactor]) -> list[str]:
+    """Cofactors the header names but the coordinates lack; other models holding cofactors."""
+    notes: list[str] = []
+    try:
+        notes += missing_cofactor_notes(path, loaded.model)
+        if not cofactors and loaded.info.n_models > 1:
+            others = {k: v for k, v in models_with_cofactors(path).items() if k != loaded.model_number}
+            if others:
+                which = ", ".join(str(k) for k in sorted(others))
+                codes = sorted({c for v in others.values() for c in v})
+                notes.append(f"model {loaded.model_number} holds no cofactor; model{'s' if len(others) > 1 else ''} "
+                             f"{which} hold{'' if len(others) > 1 else 's'} {', '.join(codes)} (choose one with the "
+                             "model option)")
+    except (OSError, RuntimeError, ValueError) as exc:  # the header is a courtesy check: never fail the scan
+        notes.append(f"header not checked ({exc})")
+    return notes
 
 
 #: Roles whose cofactors enter the cofactor graph (relays carry electrons through;
