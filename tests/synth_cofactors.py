@@ -243,3 +243,148 @@ def two_iron_positions(gap: float = 1.2) -> gemmi.Structure:
         r.add_atom(a)
         residues.append(r)
     return _structure(residues)
+
+
+def _his(num: int, metal: np.ndarray, direction, d: float = 2.05) -> gemmi.Residue:
+    """A His whose NE2 binds ``metal`` at ``d`` Å along ``direction`` (ring atoms further out)."""
+    u = np.asarray(direction, dtype=float)
+    u /= np.linalg.norm(u)
+    p = _perp_any(u)
+    ne2 = metal + d * u
+    r = _residue("HIS", num)
+    for name, el, xyz in (("NE2", "N", ne2), ("CE1", "C", ne2 + 1.32 * (0.5 * u + 0.87 * p)),
+                          ("CD2", "C", ne2 + 1.37 * (0.5 * u - 0.87 * p)), ("CG", "C", ne2 + 2.2 * u),
+                          ("CB", "C", ne2 + 3.7 * u)):
+        r.add_atom(_atom(name, el, xyz))
+    return r
+
+
+def _perp_any(u: np.ndarray) -> np.ndarray:
+    v = np.cross(u, [0.0, 0.0, 1.0])
+    if np.linalg.norm(v) < 1e-3:
+        v = np.cross(u, [0.0, 1.0, 0.0])
+    return v / np.linalg.norm(v)
+
+
+def _ligand(resname: str, atom: str, el: str, num: int, metal: np.ndarray, direction, d: float) -> gemmi.Residue:
+    u = np.asarray(direction, dtype=float)
+    u /= np.linalg.norm(u)
+    r = _residue(resname, num)
+    x = metal + d * u
+    r.add_atom(_atom(atom, el, x))
+    r.add_atom(_atom("CB" if resname == "CYS" else "CG", "C", x + 1.81 * u))
+    return r
+
+
+def copper(num: int, xyz) -> gemmi.Residue:
+    r = _residue("CU", num, het=True)
+    r.add_atom(_atom("CU", "Cu", xyz))
+    return r
+
+
+def porphyrin(code: str, num: int, fe_xyz) -> gemmi.Residue:
+    """An Fe porphyrin core in the xy plane: Fe, four pyrrole rings (N 2.0 Å from Fe) and four meso C."""
+    fe = np.asarray(fe_xyz, dtype=float)
+    r = _residue(code, num, het=True)
+    r.add_atom(_atom("FE", "Fe", fe))
+    side = 1.38
+    rad = side / (2 * np.sin(np.radians(36)))
+    alphas = []
+    for k in range(4):
+        ang = np.radians(90 * k)
+        u = np.array([np.cos(ang), np.sin(ang), 0.0])
+        v = np.array([-np.sin(ang), np.cos(ang), 0.0])
+        c = fe + (2.0 + rad) * u
+        for j in range(5):
+            t = np.radians(180 + 72 * j)
+            x = c + rad * (np.cos(t) * u + np.sin(t) * v)
+            name = "N" + "ABCD"[k] if j == 0 else f"C{j}{'ABCD'[k]}"
+            r.add_atom(_atom(name, "N" if j == 0 else "C", x))
+            if j in (1, 4):
+                alphas.append((k, j, x))
+    for k in range(4):
+        a = next(x for kk, j, x in alphas if kk == k and j == 1)
+        b = next(x for kk, j, x in alphas if kk == (k + 1) % 4 and j == 4)
+        mid = (a + b) / 2
+        out = mid - fe
+        out[2] = 0.0
+        r.add_atom(_atom(f"CH{'ABCD'[k]}", "C", mid + 0.5 * out / np.linalg.norm(out)))
+    return r
+
+
+def oxidase_site() -> gemmi.Structure:
+    """Heme a (bis-His, residue 1) 14 Å from heme a3 (residue 2: one His, CuB 4.8 Å above its Fe, 3 His on CuB)."""
+    fe_a = np.array([0.0, 0.0, 0.0])
+    fe_a3 = np.array([14.0, 0.0, 0.0])
+    cub = fe_a3 + np.array([0.0, 0.0, 4.8])
+    res = [
+        _his(61, fe_a, (0, 0, 1)), _his(378, fe_a, (0, 0, -1)), _his(376, fe_a3, (0, 0, -1)),
+        _his(240, cub, (1, 0, 0.3)), _his(290, cub, (-0.5, 0.87, 0.3)), _his(291, cub, (-0.5, -0.87, 0.3)),
+        porphyrin("HEA", 1, fe_a), porphyrin("HEA", 2, fe_a3), copper(3, cub),
+    ]
+    return _structure(res)
+
+
+def copper_sites(with_type2: bool = True) -> gemmi.Structure:
+    """Type 1 Cu (2 His, Cys, Met) 20 Å from a trinuclear cluster (type 3 pair 3.6 Å apart + type 2 Cu),
+    and a Cu with no protein ligand 30 Å away. Without ``with_type2`` the pair alone is a type 3 site."""
+    t1 = np.array([0.0, 0.0, 0.0])
+    res = [_his(10, t1, (1, 0, 0), 2.0), _his(11, t1, (-0.5, 0.87, 0), 2.0),
+           _ligand("CYS", "SG", "S", 12, t1, (-0.5, -0.87, 0), 2.15), _ligand("MET", "SD", "S", 13, t1, (0, 0, 1), 2.9)]
+    base = np.array([20.0, 0.0, 0.0])
+    t3a, t3b, t2 = base + np.array([-1.8, 0, 0]), base + np.array([1.8, 0, 0]), base + np.array([0, 3.3, 0])
+    n = 20
+    for cu, dirs in ((t3a, ((-1, 0, 0), (0, -1, 0.5), (0, -1, -0.5))),
+                     (t3b, ((1, 0, 0), (0, -1, 0.5), (0, -1, -0.5))),
+                     *(((t2, ((0, 1, 0), (1, 0.5, 0))),) if with_type2 else ())):
+        for d in dirs:
+            res.append(_his(n, cu, d, 2.05))
+            n += 1
+    res += [copper(301, t1), copper(302, t3a), copper(303, t3b)]
+    res += [copper(304, t2)] if with_type2 else []
+    res += [copper(305, (50.0, 0, 0))]
+    return _structure(res)
+
+
+def h_cluster() -> gemmi.Structure:
+    """A [4Fe-4S] whose fourth Cys SG also binds one Fe of a 2Fe unit (Fe-Fe 2.6 Å, two thiolate S
+    bridges carrying C, CO/CN-like C=O on each Fe): the H-cluster layout (Peters et al. 1998 Science 282:1853)."""
+    from tests.synth import FE_SG, cube, cys
+
+    centre = np.array([10.0, 10.0, 10.0])
+    fe, s = cube(centre)
+    ch = gemmi.Chain("A")
+    for k, num in enumerate((8, 11, 14, 18)):
+        ch.add_residue(cys(num, fe[k], centre))
+    cl = _residue("SF4", 101, het=True)
+    for k in range(4):
+        cl.add_atom(_atom(f"FE{k + 1}", "Fe", fe[k]))
+        cl.add_atom(_atom(f"S{k + 1}", "S", s[k]))
+    ch.add_residue(cl)
+    u = (fe[3] - centre) / np.linalg.norm(fe[3] - centre)
+    sg = fe[3] + FE_SG * u
+    p = _perp_any(u)
+    q = np.cross(u, p)
+    fe1 = sg + 2.3 * (0.8 * u + 0.6 * q)
+    fe2 = fe1 + 2.6 * p
+    mid = (fe1 + fe2) / 2
+    w = (fe1 - sg) / np.linalg.norm(fe1 - sg)
+    two = _residue("UNL", 102, het=True)
+    two.add_atom(_atom("FE1", "Fe", fe1))
+    two.add_atom(_atom("FE2", "Fe", fe2))
+    for k, sign in enumerate((1, -1), start=1):
+        sx = mid + sign * 1.6 * np.cross(p, w) + 0.4 * w
+        two.add_atom(_atom(f"S{k}", "S", sx))
+        two.add_atom(_atom(f"C{k}", "C", sx + 1.82 * w))
+    for k, (f, d) in enumerate(((fe1, p * -1), (fe2, p)), start=1):
+        c = f + 1.8 * d
+        two.add_atom(_atom(f"C{k + 2}", "C", c))
+        two.add_atom(_atom(f"O{k + 2}", "O", c + 1.15 * d))
+    ch.add_residue(two)
+    st = gemmi.Structure()
+    st.name = "SYNTH"
+    m = gemmi.Model(1)
+    m.add_chain(ch)
+    st.add_model(m)
+    st.setup_entities()
+    return st
