@@ -143,3 +143,13 @@ def test_two_positions_of_one_iron_are_no_diiron_site(tmp_path):
     res = _scan(sc.two_iron_positions(1.2), tmp_path)
     (c,) = res.cofactors
     assert c.cls == "mononuclear Fe" and len(c.states) == 2
+
+
+def test_pterins_without_metal_are_listed_as_not_analysed(tmp_path):
+    # the two MGD of the bis-pterin site with the Mo removed: no cofactor, but not silent either
+    st = sc.flavin_and_mo_bis_pterin(scramble=False)
+    ch = st[0]["A"]
+    ch.__delitem__(len(ch) - 1)
+    res = _scan(st, tmp_path)
+    assert [c.category for c in res.cofactors] == ["flavin"]
+    assert res.not_analysed == {"MGD": 2}

@@ -217,7 +217,7 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
             f"{len(off_wire)} cofactor(s) kept off the wire (structural metals and ions): "
             + "; ".join(f"{o['label']} ({o['role']})" for o in off_wire))
     return ScanResult(str(path), loaded.info, opts, everything, pairs, potentials, g, wire, extra,
-                      count_not_analysed(loaded.model), off_wire, _file_notes(path, loaded, everything))
+                      count_not_analysed(loaded.model, everything), off_wire, _file_notes(path, loaded, everything))
 
 
 def _file_notes(path, loaded, cofactors: list[Cofactor]) -> list[str]:

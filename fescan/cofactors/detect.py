@@ -488,12 +488,15 @@ def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
     return out
 
 
-def count_not_analysed(model: gemmi.Model) -> dict[str, int]:
+def count_not_analysed(model: gemmi.Model, cofactors: list[Cofactor] | None = None) -> dict[str, int]:
     """Residues of known redox-active groups that fescan does not model, by CCD code.
 
     Parameters
     ----------
     model : gemmi.Model
+    cofactors : list of Cofactor, optional
+        The cofactors found; pterin residues (MGD, MTE...) that are part of none
+        (no Mo/W bound to their dithiolene) are then counted too.
 
     Returns
     -------
@@ -503,9 +506,13 @@ def count_not_analysed(model: gemmi.Model) -> dict[str, int]:
     """
     table = ccd_table()
     wanted = {k for k, v in table.items() if v.category == "not analysed"}
+    pterins = {k for k, v in table.items() if v.category == "pterin"} if cofactors is not None else set()
+    used = {r for c in cofactors or [] for r in c.residues}
     counts: dict[str, int] = {}
     for ch in model:
         for res in ch:
-            if res.name in wanted:
-                counts[res.name] = counts.get(res.name, 0) + 1
+            name = res.name
+            if name in wanted or (name in pterins and f"{ch.name}/{res.seqid.num}{res.seqid.icode.strip()} {name}"
+                                  not in used):
+                counts[name] = counts.get(name, 0) + 1
     return dict(sorted(counts.items()))
