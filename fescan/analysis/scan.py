@@ -231,8 +231,8 @@ def _file_notes(path, loaded, cofactors: list[Cofactor]) -> list[str]:
                 which = ", ".join(str(k) for k in sorted(others))
                 codes = sorted({c for v in others.values() for c in v})
                 notes.append(f"model {loaded.model_number} holds no cofactor; model{'s' if len(others) > 1 else ''} "
-                             f"{which} hold{'' if len(others) > 1 else 's'} {', '.join(codes)} (choose one with the "
-                             "model option)")
+                             f"{which} hold{'' if len(others) > 1 else 's'} {', '.join(codes)} (choose one with --model-number, "
+                             "or model= in Python)")
     except (OSError, RuntimeError, ValueError) as exc:  # the header is a courtesy check: never fail the scan
         notes.append(f"header not checked ({exc})")
     return notes

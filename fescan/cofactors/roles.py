@@ -245,14 +245,18 @@ def _metal(cof: Cofactor, others: Sequence[Cofactor]) -> tuple[str, str, str]:
         if "S" in {a.element for a in cof.redox_atoms}:
             return "catalytic", "CODH C-cluster", "Ni and Fe with sulfide: the C-cluster of CO dehydrogenase"
         sub = "NiFeSe" if kinds["Sec Se"] else "NiFe"
-        return "catalytic", sub, f"Ni and Fe bridged by {kinds['Cys S'] + kinds['Sec Se']} Cys/Sec: the [{sub}] active site"
+        n_res = len({(lig.atom.chain, lig.atom.seqnum, lig.atom.icode) for lig in prot
+                     if lig.kind in ("Cys S", "Sec Se")})
+        return "catalytic", sub, (f"Ni and Fe held by {n_res} Cys/Sec: the [{sub}] active site "
+                                  "(Volbeda et al. 1995 Nature 373:580)")
     if m["MN"] >= 3:
         return "catalytic", "Mn4CaO5", f"cluster of {m['MN']} Mn{' and Ca' if m['CA'] else ''}: the water-oxidising Mn4CaO5 site"
     if set(m) & {"MO", "W", "V"}:
-        if len(prot) <= 1 or len(cof.redox_atoms) == 1 and len(cof.ligands) >= 3 and len(prot) <= 1:
+        if len(prot) <= 1:
             return "ion or additive", "", ("Mo/W/V with no pterin dithiolene and no protein ligand sphere: "
                                            "an oxoanion or ion bound from the solution")
-        return "ion or additive", "", "Mo/W/V with no pterin dithiolene: not a Mo/W-pterin site"
+        return "ion or additive", "", (f"Mo/W/V with {len(prot)} protein ligands but no pterin dithiolene: "
+                                       "not a Mo/W-pterin site, kept off the wire")
     if len(prot) <= 1:
         el = "/".join(sorted(x.capitalize() for x in m))
         return "ion or additive", "", f"{el} with {len(prot)} protein ligand(s): no binding site, an adventitious ion"
