@@ -365,10 +365,11 @@ def h_cluster() -> gemmi.Structure:
     sg = fe[3] + FE_SG * u
     p = _perp_any(u)
     q = np.cross(u, p)
-    fe1 = sg + 2.3 * (0.8 * u + 0.6 * q)
-    fe2 = fe1 + 2.6 * p
+    fe1 = sg + 2.3 * (0.6 * u - 0.8 * p)  # away from the Cys CB, which lies along +p
+    fe2 = fe1 + 2.6 * q
     mid = (fe1 + fe2) / 2
     w = (fe1 - sg) / np.linalg.norm(fe1 - sg)
+    p = q  # the Fe-Fe axis, for the CO/CN-like ligands below
     two = _residue("UNL", 102, het=True)
     two.add_atom(_atom("FE1", "Fe", fe1))
     two.add_atom(_atom("FE2", "Fe", fe2))

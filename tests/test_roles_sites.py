@@ -43,12 +43,15 @@ def test_copper_types(tmp_path, with_type2, cluster):
         assert c["A/304"].subclass == "trinuclear"
 
 
-def test_h_cluster_is_one_catalytic_site(tmp_path):
-    res = _scan(sc.h_cluster(), tmp_path)
-    (h,) = res.cofactors
+@pytest.mark.parametrize("code", ["UNL", "HC1"])
+def test_h_cluster_is_one_catalytic_site(tmp_path, code):
+    st = sc.h_cluster()
+    st[0]["A"][len(st[0]["A"]) - 1].name = code  # the 2Fe unit, unnamed or with its CCD code
+    (h,) = _scan(st, tmp_path).cofactors
     assert h.cls == "H-cluster" and h.role == "catalytic"
     assert h.composition == "Fe6S4" and len(h.residues) == 2
     assert h.extra["bridging_ligands"] == ["A/18 SG"]
+    assert not any(f.severity == "warning" for f in h.flags)
 
 
 @pytest.mark.parametrize(("elements", "cls"), [

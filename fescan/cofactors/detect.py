@@ -378,11 +378,15 @@ class _Builder:
             base = cls.replace("Rieske ", "")
             if base == entry.cls or cls == entry.cls:
                 detected_by = "ccd+geometry"
+            elif entry.category == "metal" and _same_metals(entry.composition, elements):
+                # a named site (molybdate, H-cluster 2Fe unit, CODH C-cluster...): the code names what
+                # the geometry cannot, and the metals agree
+                detected_by, cls, category = "ccd+geometry", entry.cls, entry.category
             else:
                 detected_by = "ccd"
                 cls = entry.cls
                 category = entry.category
-            expected = entry.composition or None
+            expected = (entry.composition or None) if entry.category != "metal" else None
         flags, coordination = check_metal_site(
             cls, composition, expected, env, env_core, ligs, clashes, self.low_res
         )
@@ -452,6 +456,16 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     b.cofactors.sort(key=lambda t: t[0])
     cofs = [_with_states(cof, b) for _, cof in b.cofactors]
     return assign_roles(_unique_keys(cofs))
+
+
+def _same_metals(expected: str, elements: list[str]) -> bool:
+    """True when a table composition (``"MoO4"``, empty when unknown) names the same metals as the core."""
+    if not expected:
+        return True
+    import re
+
+    want = {e.upper() for e in re.findall(r"[A-Z][a-z]?", expected)} & METALS
+    return want == {e for e in elements if e in METALS}
 
 
 def _with_states(cof: Cofactor, b: _Builder) -> Cofactor:
