@@ -154,3 +154,16 @@ def test_pterins_without_metal_are_listed_as_not_analysed(tmp_path):
     res = _scan(st, tmp_path)
     assert [c.category for c in res.cofactors] == ["flavin"]
     assert res.not_analysed == {"MGD": 2}
+
+
+@pytest.mark.parametrize("altloc", ["occupancy", "all"])
+def test_overlapping_states_with_altloc_labels_and_other_code(tmp_path, altloc):
+    # the same twin cluster written as altloc A (SF4 101) and altloc B (an unknown code, 102)
+    st = sc.two_state_cluster("CLX")
+    ch = st[0]["A"]
+    for a in ch[len(ch) - 2]:
+        a.altloc = "A"
+    for a in ch[len(ch) - 1]:
+        a.altloc = "B"
+    (c,) = _scan(st, tmp_path, altloc=altloc).cofactors
+    assert c.cls == "[4Fe-4S]" and c.states == ("SF4 A/101 occ 0.60", "CLX A/102 occ 0.40")
