@@ -29,6 +29,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays, ModelIndex
+from fescan.cofactors.inventory import count_not_analysed, unique_keys, with_states
 from fescan.cofactors.ligation import binding_motif, check_metal_site, find_ligands, occupancy_flags
 from fescan.cofactors.metal_sites import (
     METALS,
@@ -37,14 +38,9 @@ from fescan.cofactors.metal_sites import (
     core_class,
     find_metal_sites,
 )
+from fescan.cofactors.organic import OrganicMixin
 from fescan.cofactors.pterins import PTERIN_METALS, bound_pterins
 from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
-from fescan.cofactors.rings import (
-    isoalloxazine_atoms,
-    porphyrin_atoms,
-    quinone_kind,
-    quinone_ring_atoms,
-)
 from fescan.cofactors.roles import assign_roles
 from fescan.cofactors.states import find_alternative_states
 from fescan.cofactors.subclasses import fes_pocket
@@ -54,8 +50,6 @@ __all__ = ["find_cofactors", "count_not_analysed", "LOW_RESOLUTION_LIMIT"]
 
 #: Data worse than this (Å) are checked against the wide bond windows.
 LOW_RESOLUTION_LIMIT = 3.0
-_THIOETHER_MAX = 2.1  # Å heme vinyl C - Cys SG in c-type hemes
-_CXXCH_SG_MAX = 3.6  # Å: a CxxC pair this close to the vinyl carbons is an unmodelled heme c link
 _HEME_N_MAX = 2.6  # Å Fe - pyrrole N
 _ENV_ATOM_RADIUS = 6.0  # Å: any atom of a non-standard residue this close to a metal brings the residue in
 
@@ -84,7 +78,7 @@ def _might_be_flavin(atoms: AtomArrays, rows: np.ndarray) -> bool:
     return len(rows) >= 16 and el.count("N") >= 4 and el.count("O") >= 2
 
 
-class _Builder:
+class _Builder(OrganicMixin):
     """Collects cofactors of one model."""
 
     def __init__(self, model: gemmi.Model, model_number: int, resolution: float | None) -> None:
@@ -196,102 +190,6 @@ class _Builder:
             elif cat is None:
                 self._quinone_by_ring(rows)
 
-    def _ring_or_all(self, rows, found, what: str) -> tuple[list[int], list[Flag]]:
-        if found is None:
-            return list(rows), [Flag("redox_atoms_fallback", "note",
-                                     f"{what} not found in the atoms: all atoms used for distances")]
-        return [int(rows[i]) for i in found], []
-
-    def _quinone_by_ring(self, rows: np.ndarray) -> None:
-        """A residue of unknown code holding a para-quinone/quinol ring (benzo- or naphthoquinone)."""
-        c = self.cand
-        el = c.element[rows]
-        if len(rows) < 8 or any(e in METALS or e in ("MG", "ZN", "CO", "NI") for e in el):
-            return
-        if int(np.sum(el == "C")) < 6 or int(np.sum(el == "O")) < 2:
-            return
-        found = quinone_kind(c.xyz[rows], el)
-        if found is None:
-            return
-        kind, local = found
-        cls = "naphthoquinone" if kind == "naphthoquinone" else "quinone"
-        cof = self._record(
-            c, rows, [int(rows[i]) for i in local], int(rows[0]), ccd_code=None, category="quinone", cls=cls,
-            composition=composition_string(el), detected_by="geometry",
-            flags=[Flag("found_by_ring", "note", f"code {c.resname[rows[0]]} is not in the table: found as a "
-                        f"{kind} by its ring (two para O on a six-carbon ring)")],
-        )
-        self.cofactors.append((int(c.res_id[rows[0]]), cof))
-
-    def _flavin(self, rows: np.ndarray, entry) -> bool:
-        c = self.cand
-        ring = isoalloxazine_atoms(c.xyz[rows], c.element[rows])
-        if entry is None and ring is None:
-            return False  # an unknown residue that is no flavin
-        redox, flags = self._ring_or_all(rows, ring, "isoalloxazine ring")
-        code = str(c.resname[rows[0]])
-        cof = self._record(
-            c, rows, redox, int(rows[0]), ccd_code=code if entry else None, category="flavin",
-            cls=entry.cls if entry else "flavin", composition=composition_string(c.element[rows]),
-            detected_by=("ccd+geometry" if ring is not None else "ccd") if entry else "geometry",
-            flags=flags,
-        )
-        self.cofactors.append((int(c.res_id[rows[0]]), cof))
-        return True
-
-    def _quinone(self, rows: np.ndarray, entry) -> None:
-        c = self.cand
-        ring = quinone_ring_atoms(c.xyz[rows], c.element[rows])
-        redox, flags = self._ring_or_all(rows, ring, "quinone ring with two terminal O")
-        cof = self._record(
-            c, rows, redox, int(rows[0]), ccd_code=str(c.resname[rows[0]]), category="quinone",
-            cls=entry.cls, composition=composition_string(c.element[rows]),
-            detected_by="ccd+geometry" if ring is not None else "ccd", flags=flags,
-        )
-        self.cofactors.append((int(c.res_id[rows[0]]), cof))
-
-    def _heme(self, rid: int, rows: np.ndarray, fe: int | None, entry) -> None:
-        c = self.cand
-        flags: list[Flag] = []
-        cls = entry.cls if entry else "heme"
-        ligands: list = []
-        extra: dict = {}
-        if fe is not None:
-            local = porphyrin_atoms(c.xyz[rows], c.element[rows], int(np.flatnonzero(rows == fe)[0]))
-            redox, flags = self._ring_or_all(rows, local, "porphyrin macrocycle")
-            env = self.env
-            env_rows = self._env_rows(rows)
-            env_fe = env_rows[list(rows).index(fe)]
-            ligs, _ = find_ligands(env, [env_fe], set(env_rows), {rid}, tree=self._env_tree)
-            ligands = [lig for _, lig in ligs]
-            extra["axial_ligands"] = [f"{lig.kind} {lig.atom.residue}" for lig in ligands]
-            linked = self._thioether_cys(env, env_rows, _THIOETHER_MAX)
-            extra["thioether_links"] = len(linked)
-            if linked and cls in ("heme b", "heme"):
-                flags.append(Flag("heme_reclassified", "note",
-                                  f"filed as {c.resname[rows[0]]} but bound to {len(linked)} Cys by thioether "
-                                  f"link{'s' if len(linked) > 1 else ''}: classed as heme c"))
-                cls = "heme c"
-            elif cls in ("heme b", "heme"):
-                near = self._thioether_cys(env, env_rows, _CXXCH_SG_MAX)
-                pair = [(a, b) for a in near for b in near if a[0] == b[0] and b[1] - a[1] == 3]
-                if pair:
-                    (ch, n1, _), (_, n2, _) = pair[0]
-                    flags.append(Flag("heme_reclassified", "note",
-                                      f"filed as {c.resname[rows[0]]} with no thioether bonds modelled, but Cys "
-                                      f"{ch}/{n1} and {ch}/{n2} (a CxxC motif) reach the vinyl carbons within "
-                                      f"{_CXXCH_SG_MAX} Å: classed as heme c"))
-                    cls = "heme c"
-        else:
-            redox, flags = self._ring_or_all(rows, None, "heme iron")
-        cof = self._record(
-            c, rows, redox, int(rows[0]), ccd_code=str(c.resname[rows[0]]) if entry else None,
-            category="heme", cls=cls, composition=composition_string(c.element[rows]),
-            detected_by=("ccd+geometry" if fe is not None else "ccd") if entry else "geometry",
-            ligands=tuple(ligands), flags=flags, extra=extra,
-        )
-        self.cofactors.append((rid, cof))
-
     def chain_residues(self) -> dict[str, int]:
         """Amino-acid residues per chain of the model (counted once)."""
         if self._chain_len is None:
@@ -315,17 +213,6 @@ class _Builder:
         labels = {p.label for p in pterins}
         a = lig.atom
         return a.element == "S" and f"{a.chain}/{a.seqnum}{a.icode} {a.resname}" in labels
-
-    @staticmethod
-    def _thioether_cys(env: AtomArrays, heme_rows: list[int], max_d: float) -> list[tuple[str, int, str]]:
-        """Cys residues (chain, number, icode) whose SG lies within ``max_d`` Å of a heme carbon."""
-        sg = np.flatnonzero((env.element == "S") & (env.name == "SG"))
-        carbons = [r for r in heme_rows if env.element[r] == "C"]
-        if len(sg) == 0 or not carbons:
-            return []
-        d = np.linalg.norm(env.xyz[sg][:, None, :] - env.xyz[carbons][None, :, :], axis=2)
-        linked = sg[np.any(d < max_d, axis=1)]
-        return sorted({(str(env.chain[i]), int(env.seqnum[i]), str(env.icode[i])) for i in linked})
 
     # -- metal sites ----------------------------------------------------
     def find_sites(self, heme_fe: dict[int, int]) -> list[MetalSite]:
@@ -454,8 +341,8 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    cofs = [_with_states(cof, b) for _, cof in b.cofactors]
-    return assign_roles(_unique_keys(cofs))
+    cofs = [with_states(cof, b.states, b.index.residues) for _, cof in b.cofactors]
+    return assign_roles(unique_keys(cofs))
 
 
 def _same_metals(expected: str, elements: list[str]) -> bool:
@@ -466,67 +353,3 @@ def _same_metals(expected: str, elements: list[str]) -> bool:
 
     want = {e.upper() for e in re.findall(r"[A-Z][a-z]?", expected)} & METALS
     return want == {e for e in elements if e in METALS}
-
-
-def _with_states(cof: Cofactor, b: _Builder) -> Cofactor:
-    """Name the alternative states merged into this cofactor (see :mod:`fescan.cofactors.states`)."""
-    if not b.states:
-        return cof
-    labels = set(cof.residues)
-    states: list[str] = []
-    for kept, group in b.states.items():
-        cname, res = b.index.residues[kept]
-        if f"{cname}/{res.seqid.num}{res.seqid.icode.strip()} {res.name}" in labels:
-            states += [st.label for st in group]
-    if not states:
-        return cof
-    flag = Flag("alternative_states", "note",
-                f"modelled in {len(states)} overlapping states ({'; '.join(states)}): analysed as one cofactor, "
-                f"in the state of highest occupancy")
-    return replace(cof, states=tuple(states), flags=cof.flags + (flag,))
-
-
-def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
-    """Give a part suffix to cofactors that share a naming residue (altloc letter, else 1, 2...)."""
-    groups: dict[str, list[int]] = defaultdict(list)
-    for k, c in enumerate(cofactors):
-        groups[c.key].append(k)
-    out = list(cofactors)
-    for members in groups.values():
-        if len(members) < 2:
-            continue
-        alts = [{a.altloc for a in cofactors[k].atoms} for k in members]
-        by_alt = all(len(a) == 1 and next(iter(a)) for a in alts) and len({next(iter(a)) for a in alts}) == len(alts)
-        for n, k in enumerate(members, start=1):
-            out[k] = replace(cofactors[k], part=next(iter(alts[n - 1])) if by_alt else str(n))
-    return out
-
-
-def count_not_analysed(model: gemmi.Model, cofactors: list[Cofactor] | None = None) -> dict[str, int]:
-    """Residues of known redox-active groups that fescan does not model, by CCD code.
-
-    Parameters
-    ----------
-    model : gemmi.Model
-    cofactors : list of Cofactor, optional
-        The cofactors found; pterin residues (MGD, MTE...) that are part of none
-        (no Mo/W bound to their dithiolene) are then counted too.
-
-    Returns
-    -------
-    dict of str to int
-        For example ``{"CLA": 70, "PHO": 4}`` (codes of category ``not analysed``
-        in the packaged CCD table), in code order.
-    """
-    table = ccd_table()
-    wanted = {k for k, v in table.items() if v.category == "not analysed"}
-    pterins = {k for k, v in table.items() if v.category == "pterin"} if cofactors is not None else set()
-    used = {r for c in cofactors or [] for r in c.residues}
-    counts: dict[str, int] = {}
-    for ch in model:
-        for res in ch:
-            name = res.name
-            if name in wanted or (name in pterins and f"{ch.name}/{res.seqid.num}{res.seqid.icode.strip()} {name}"
-                                  not in used):
-                counts[name] = counts.get(name, 0) + 1
-    return dict(sorted(counts.items()))
