@@ -167,3 +167,15 @@ def test_overlapping_states_with_altloc_labels_and_other_code(tmp_path, altloc):
         a.altloc = "B"
     (c,) = _scan(st, tmp_path, altloc=altloc).cofactors
     assert c.cls == "[4Fe-4S]" and c.states == ("SF4 A/101 occ 0.60", "CLX A/102 occ 0.40")
+
+
+def test_forty_iron_forty_sulfur_block_is_not_taken_as_a_relay(tmp_path):
+    # a rock-salt block of 40 Fe and 40 S in one residue: no known Fe-S cluster has more than 8 Fe
+    atoms = []
+    for x in range(5):
+        for y in range(4):
+            for z in range(4):
+                el = "Fe" if (x + y + z) % 2 == 0 else "S"
+                atoms.append((f"A{len(atoms)}", el, np.array([2.3 * x, 2.3 * y, 2.3 * z])))
+    (c,) = _scan(sc._structure([sc._res("UNL", 1, atoms, False)]), tmp_path).cofactors
+    assert c.composition == "Fe40S40" and c.role == "ion or additive"

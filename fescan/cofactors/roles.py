@@ -306,6 +306,9 @@ def _role_of(cof: Cofactor, others: Sequence[Cofactor], clusters_per_chain: Coun
             return "relay", "", f"{cof.cls} cluster: a one-electron relay"
         if tab is not None:
             return tab
+        if _metals(cof)["FE"] > 8:
+            return "ion or additive", "", (f"{cof.cls}: no known Fe-S cluster has more than eight Fe; "
+                                           "not recognised, kept off the wire")
         return "relay", "", f"Fe-S cluster {cof.cls}: taken as a relay"
     if tab is not None and tab[0] != "relay":
         return tab
