@@ -13,6 +13,8 @@ import networkx as nx
 import numpy as np
 
 from fescan.cofactors import count_not_analysed, find_cofactors
+from fescan.cofactors.header_check import missing_cofactor_notes, models_with_cofactors
+from fescan.cofactors.roles import apply_role_overrides
 from fescan.core.errors import CofactorNotFound, ConfigError
 from fescan.core.jsonutil import finite_json
 from fescan.core.options import ScanOptions
@@ -74,6 +76,13 @@ class ScanResult:
     not_analysed : dict of str to int
         Residues of redox-active groups fescan does not model (chlorophylls,
         nicotinamides...), counted by CCD code.
+    off_wire : list of dict
+        Cofactors kept off the wire (role ``structural`` or ``ion or
+        additive``): ``id``, ``label``, ``role`` and ``reason``. They are listed in
+        ``cofactors`` but are no node of ``graph`` and in no pair.
+    notes : list of str
+        Findings about the file as a whole (cofactors named in the header but
+        absent from the coordinates, other models holding cofactors...).
     parameters : dict of str to CofactorParameters
         Every parameter of each cofactor (all couples, λ, role override) with its origin.
     reservoirs : dict of str to float
@@ -90,6 +99,8 @@ class ScanResult:
     wire: Wire
     all_pairs: list[dict] = field(default_factory=list)
     not_analysed: dict[str, int] = field(default_factory=dict)
+    off_wire: list[dict] = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
     parameters: dict[str, CofactorParameters] = field(default_factory=dict)
     reservoirs: dict[str, float] = field(default_factory=dict)
 
@@ -99,8 +110,13 @@ class ScanResult:
         return {u: p.reorg for u, p in self.parameters.items() if p.reorg is not None}
 
     def cofactor(self, uid: str) -> Cofactor:
-        """The cofactor with this uid."""
-        return self.graph.nodes[uid]["cofactor"]
+        """The cofactor with this uid (on the wire or not)."""
+        if uid in self.graph:
+            return self.graph.nodes[uid]["cofactor"]
+        for c in self.cofactors:
+            if c.uid == uid:
+                return c
+        raise KeyError(uid)
 
     def pair_records(self) -> list[dict[str, Any]]:
         """Every pair considered, with both distances, ΔG (first → second), k_f and k_b."""
@@ -156,6 +172,8 @@ class ScanResult:
             "wire": self.wire.to_dict(),
             "all_pairs": self.all_pairs,
             "not_analysed": dict(self.not_analysed),
+            "off_wire": list(self.off_wire),
+            "notes": list(self.notes),
         })
 
 
@@ -192,6 +210,16 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
     cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution)
+    user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
+    every_param = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
+    roles = {c.key: every_param[c.uid].role for c in cofactors if every_param[c.uid].role}
+    if roles:
+        cofactors = apply_role_overrides(cofactors, roles, origin=f"parameter file {opts.potentials_file}")
+    everything = cofactors
+    cofactors = [c for c in everything if c.role in WIRE_ROLES]  # only these enter the wire
+    off_wire = [{"id": c.uid, "label": c.label, "role": c.role, "reason": c.role_reason}
+                for c in everything if c.role not in WIRE_ROLES]
+    params = {c.uid: every_param[c.uid] for c in cofactors}
     cell = ops = None
     if opts.symmetry:
         st = loaded.structure
@@ -199,10 +227,6 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         if sg is not None and st.cell.is_crystal():
             cell, ops = st.cell, list(sg.operations())
     pairs = pair_distances(cofactors, opts.cutoff, cell=cell, symmetry_ops=ops, edge_convention=opts.edge_atoms)
-    user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
-    params = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
-    cofactors = [replace(c, role=params[c.uid].role, role_reason=f"set in {params[c.uid].role_origin}")
-                 if params[c.uid].role else c for c in cofactors]
     reorgs = {u: p.reorg for u, p in params.items() if p.reorg is not None}
     packing = None
     if opts.packing == "measured":
@@ -228,12 +252,44 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         wire = trace_wire(g, cofactors, opts, ends, user.reservoirs, user.path)
     except (CofactorNotFound, ConfigError) as exc:  # name the structure in the message
         raise type(exc)(f"{path}: {exc}") from None
-    potentials = {u: g.nodes[u]["potential"] for u in g.nodes}
+    potentials = {u: p.working() for u, p in every_param.items()}  # off-wire cofactors: for display
+    potentials.update({u: g.nodes[u]["potential"] for u in g.nodes})
     if opts.symmetry and ops is None:
         wire.notes.append("symmetry mates requested but the file has no crystal cell/space group")
     extra = all_pair_paths(g, opts) if opts.all_pairs else []
-    return ScanResult(str(path), loaded.info, opts, cofactors, pairs, potentials, g, wire, extra,
-                      count_not_analysed(loaded.model), params, dict(user.reservoirs))
+    # pairs index the wired cofactors; the result lists every cofactor in file order
+    index = {c.uid: k for k, c in enumerate(everything)}
+    pairs = [replace(p, i=index[cofactors[p.i].uid], j=index[cofactors[p.j].uid]) for p in pairs]
+    if off_wire:
+        wire.notes.append(
+            f"{len(off_wire)} cofactor(s) kept off the wire (structural metals and ions): "
+            + "; ".join(f"{o['label']} ({o['role']})" for o in off_wire))
+    return ScanResult(str(path), loaded.info, opts, everything, pairs, potentials, g, wire, extra,
+                      count_not_analysed(loaded.model, everything), off_wire,
+                      _file_notes(path, loaded, everything), every_param, dict(user.reservoirs))
+
+
+def _file_notes(path, loaded, cofactors: list[Cofactor]) -> list[str]:
+    """Cofactors the header names but the coordinates lack; other models holding cofactors."""
+    notes: list[str] = []
+    try:
+        notes += missing_cofactor_notes(path, loaded.model)
+        if not cofactors and loaded.info.n_models > 1:
+            others = {k: v for k, v in models_with_cofactors(path).items() if k != loaded.model_number}
+            if others:
+                which = ", ".join(str(k) for k in sorted(others))
+                codes = sorted({c for v in others.values() for c in v})
+                notes.append(f"model {loaded.model_number} holds no cofactor; model{'s' if len(others) > 1 else ''} "
+                             f"{which} hold{'' if len(others) > 1 else 's'} {', '.join(codes)} (choose one with --model-number, "
+                             "or model= in Python)")
+    except (OSError, RuntimeError, ValueError) as exc:  # the header is a courtesy check: never fail the scan
+        notes.append(f"header not checked ({exc})")
+    return notes
+
+
+#: Roles whose cofactors enter the cofactor graph (relays carry electrons through;
+#: catalytic sites may be an entry or an exit, the path rules keep them off the inside).
+WIRE_ROLES = frozenset({"relay", "catalytic"})
 
 
 def _assembly_chains(st: Any) -> list[set[str]]:

@@ -44,6 +44,8 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("ccd_code", "string", "", "CCD code, empty when found by geometry alone"),
         ("category", "string", "", "iron-sulfur, flavin, quinone, heme, copper, iron, metal"),
         ("class", "string", "", "class label ([4Fe-4S], Rieske [2Fe-2S], FMN, heme c...)"),
+        ("role", "string", "", "relay, catalytic, structural or ion or additive (only the first two enter wires)"),
+        ("subclass", "string", "", "sub-class that decides the couple (HiPIP-type, His/Met, type 1...), empty if undetermined"),
         ("composition", "string", "", "element composition of the core"),
         ("n_atoms", "Int64", "", "atoms of the cofactor"),
         ("n_redox_atoms", "Int64", "", "atoms of the redox-active set"),
@@ -173,7 +175,7 @@ def cofactor_rows(res: ScanResult) -> list[dict]:
         out.append({
             "file": res.path, "cofactor_id": c.uid, "model": c.model, "chain": c.chain, "resnum": c.seqnum,
             "icode": c.icode, "ccd_code": c.ccd_code, "category": c.category, "class": c.cls,
-            "composition": c.composition, "n_atoms": len(c.atoms), "n_redox_atoms": len(c.redox_atoms),
+            "role": c.role, "subclass": c.subclass, "composition": c.composition, "n_atoms": len(c.atoms), "n_redox_atoms": len(c.redox_atoms),
             "x": c.centroid[0], "y": c.centroid[1], "z": c.centroid[2],
             "mean_occupancy": c.mean_occupancy, "mean_b": c.mean_b, "detected_by": c.detected_by,
             "n_ligands": len(c.ligands), "motif": c.motif,

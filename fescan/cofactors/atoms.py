@@ -117,6 +117,13 @@ class ModelIndex:
         self.rep_xyz = np.asarray(reps, dtype=float).reshape(-1, 3)
         self.is_candidate = np.asarray(cand, dtype=bool)
         self._rep_tree: cKDTree | None = None
+        self.hidden: frozenset[int] = frozenset()
+
+    def hide(self, res_ids) -> None:
+        """Leave these residues out of every later extraction (alternative states of a kept residue)."""
+        self.hidden = frozenset(int(r) for r in res_ids)
+        for r in self.hidden:
+            self.is_candidate[r] = False
 
     def extract(self, res_ids: np.ndarray | list[int]) -> AtomArrays:
         """Extract all atoms of the given residues (in the given order)."""
@@ -173,7 +180,7 @@ class ModelIndex:
         ids = set()
         for h in hits:
             ids.update(h)
-        return np.asarray(sorted(ids), dtype=int)
+        return np.asarray(sorted(ids - self.hidden), dtype=int)
 
     def environment(self, points: np.ndarray, radius: float = _REP_RADIUS) -> AtomArrays:
         """Atoms of all residues (standard or not) near the given points."""

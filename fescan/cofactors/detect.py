@@ -22,12 +22,14 @@ and a note says so.
 from __future__ import annotations
 
 from collections import defaultdict
+from dataclasses import replace
 
 import gemmi
 import numpy as np
 from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays, ModelIndex
+from fescan.cofactors.inventory import count_not_analysed, unique_keys, with_states
 from fescan.cofactors.ligation import binding_motif, check_metal_site, find_ligands, occupancy_flags
 from fescan.cofactors.metal_sites import (
     METALS,
@@ -36,17 +38,20 @@ from fescan.cofactors.metal_sites import (
     core_class,
     find_metal_sites,
 )
+from fescan.cofactors.organic import OrganicMixin
+from fescan.cofactors.pterins import PTERIN_METALS, bound_pterins
 from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
-from fescan.cofactors.rings import isoalloxazine_atoms, porphyrin_atoms, quinone_ring_atoms
+from fescan.cofactors.roles import assign_roles
+from fescan.cofactors.states import find_alternative_states
+from fescan.cofactors.subclasses import fes_pocket
 from fescan.core.records import Cofactor, Flag
 
 __all__ = ["find_cofactors", "count_not_analysed", "LOW_RESOLUTION_LIMIT"]
 
 #: Data worse than this (Å) are checked against the wide bond windows.
 LOW_RESOLUTION_LIMIT = 3.0
-_THIOETHER_MAX = 2.1  # Å heme vinyl C - Cys SG in c-type hemes
-_CXXCH_SG_MAX = 3.6  # Å: a CxxC pair this close to the vinyl carbons is an unmodelled heme c link
 _HEME_N_MAX = 2.6  # Å Fe - pyrrole N
+_ENV_ATOM_RADIUS = 6.0  # Å: any atom of a non-standard residue this close to a metal brings the residue in
 
 
 def _rows_by_residue(atoms: AtomArrays) -> dict[int, np.ndarray]:
@@ -73,25 +78,49 @@ def _might_be_flavin(atoms: AtomArrays, rows: np.ndarray) -> bool:
     return len(rows) >= 16 and el.count("N") >= 4 and el.count("O") >= 2
 
 
-class _Builder:
+class _Builder(OrganicMixin):
     """Collects cofactors of one model."""
 
     def __init__(self, model: gemmi.Model, model_number: int, resolution: float | None) -> None:
         self.table = ccd_table()
         skip = frozenset(k for k, v in self.table.items() if v.category == "not analysed")
         self.index = ModelIndex(model, skip=skip)
+        self.states = find_alternative_states(self.index.residues, np.flatnonzero(self.index.is_candidate))
+        self.index.hide(st.res_id for group in self.states.values() for st in group[1:])
         self.model_number = model_number
         self.low_res = resolution is not None and resolution > LOW_RESOLUTION_LIMIT
         self.cand = self.index.candidates()
         self.by_res = _rows_by_residue(self.cand)
         self.cofactors: list[tuple[int, Cofactor]] = []
+        self.pterin_codes = frozenset(k for k, v in self.table.items() if v.category == "pterin")
+        self.pterin_res: set[int] = set()
+        self._chain_len: dict[str, int] | None = None
+        self._cand_tree = cKDTree(self.cand.xyz) if len(self.cand) else None
         self.env: AtomArrays | None = None
         self._env_key: dict[tuple[int, int], int] = {}
         self._env_tree: cKDTree | None = None
 
-    def prepare_environment(self, points: np.ndarray) -> None:
-        """Extract, once, every residue near the given points (metal and heme Fe atoms)."""
-        self.env = self.index.environment(points, radius=12.5) if len(points) else None
+    def prepare_environment(self, points: np.ndarray, own: set[int] | None = None) -> None:
+        """Extract, once, every residue near the given points (metal and heme Fe atoms).
+
+        A residue is taken when its first atom lies within 12.5 Å of a point, or
+        when it is a candidate (non-standard) residue with any atom within
+        :data:`_ENV_ATOM_RADIUS` Å of a point, or when it holds a cofactor atom
+        (``own``): a large residue (a pterin cofactor, a 60-atom ligand) whose
+        first atom is far from its metal is never missing from the environment.
+        """
+        if not len(points):
+            self.env = None
+            return
+        ids = set(self.index.residues_near(points, radius=12.5).tolist())
+        if own:
+            ids.update(int(r) for r in own)
+        ids -= self.index.hidden
+        if len(self.cand):
+            tree = cKDTree(self.cand.xyz)
+            for hit in tree.query_ball_point(np.asarray(points, dtype=float), r=_ENV_ATOM_RADIUS):
+                ids.update(int(self.cand.res_id[j]) for j in hit)
+        self.env = self.index.extract(np.asarray(sorted(ids), dtype=int))
         if self.env is not None and len(self.env):
             self._env_key = dict(zip(zip(self.env.res_id.tolist(), self.env.ordinal.tolist()),
                                      range(len(self.env))))
@@ -148,100 +177,42 @@ class _Builder:
             rn = str(self.cand.resname[rows[0]])
             entry = self.table.get(rn)
             cat = entry.category if entry else None
-            if cat in ("iron-sulfur", "copper"):
+            if cat in ("iron-sulfur", "copper", "pterin", "metal"):
                 continue
             fe = heme_fe.get(rid)
             if cat == "heme" or (cat is None and fe is not None):
                 self._heme(rid, rows, fe, entry)
             elif cat == "flavin" or (cat is None and _might_be_flavin(self.cand, rows)):
-                self._flavin(rows, entry)
+                if not self._flavin(rows, entry) and cat is None:
+                    self._quinone_by_ring(rows)
             elif cat == "quinone":
                 self._quinone(rows, entry)
+            elif cat is None:
+                self._quinone_by_ring(rows)
 
-    def _ring_or_all(self, rows, found, what: str) -> tuple[list[int], list[Flag]]:
-        if found is None:
-            return list(rows), [Flag("redox_atoms_fallback", "note",
-                                     f"{what} not found in the atoms: all atoms used for distances")]
-        return [int(rows[i]) for i in found], []
+    def chain_residues(self) -> dict[str, int]:
+        """Amino-acid residues per chain of the model (counted once)."""
+        if self._chain_len is None:
+            out: dict[str, int] = defaultdict(int)
+            for cname, res in self.index.residues:
+                info = gemmi.find_tabulated_residue(res.name)
+                if info is not None and info.is_amino_acid():
+                    out[cname] += 1
+            self._chain_len = dict(out)
+        return self._chain_len
 
-    def _flavin(self, rows: np.ndarray, entry) -> None:
-        c = self.cand
-        ring = isoalloxazine_atoms(c.xyz[rows], c.element[rows])
-        if entry is None and ring is None:
-            return  # an unknown residue that is no flavin
-        redox, flags = self._ring_or_all(rows, ring, "isoalloxazine ring")
-        code = str(c.resname[rows[0]])
-        cof = self._record(
-            c, rows, redox, int(rows[0]), ccd_code=code if entry else None, category="flavin",
-            cls=entry.cls if entry else "flavin", composition=composition_string(c.element[rows]),
-            detected_by=("ccd+geometry" if ring is not None else "ccd") if entry else "geometry",
-            flags=flags,
-        )
-        self.cofactors.append((int(c.res_id[rows[0]]), cof))
-
-    def _quinone(self, rows: np.ndarray, entry) -> None:
-        c = self.cand
-        ring = quinone_ring_atoms(c.xyz[rows], c.element[rows])
-        redox, flags = self._ring_or_all(rows, ring, "quinone ring with two terminal O")
-        cof = self._record(
-            c, rows, redox, int(rows[0]), ccd_code=str(c.resname[rows[0]]), category="quinone",
-            cls=entry.cls, composition=composition_string(c.element[rows]),
-            detected_by="ccd+geometry" if ring is not None else "ccd", flags=flags,
-        )
-        self.cofactors.append((int(c.res_id[rows[0]]), cof))
-
-    def _heme(self, rid: int, rows: np.ndarray, fe: int | None, entry) -> None:
-        c = self.cand
-        flags: list[Flag] = []
-        cls = entry.cls if entry else "heme"
-        ligands: list = []
-        extra: dict = {}
-        if fe is not None:
-            local = porphyrin_atoms(c.xyz[rows], c.element[rows], int(np.flatnonzero(rows == fe)[0]))
-            redox, flags = self._ring_or_all(rows, local, "porphyrin macrocycle")
-            env = self.env
-            env_rows = self._env_rows(rows)
-            env_fe = env_rows[list(rows).index(fe)]
-            ligs, _ = find_ligands(env, [env_fe], set(env_rows), {rid}, tree=self._env_tree)
-            ligands = [lig for _, lig in ligs]
-            extra["axial_ligands"] = [f"{lig.kind} {lig.atom.residue}" for lig in ligands]
-            linked = self._thioether_cys(env, env_rows, _THIOETHER_MAX)
-            extra["thioether_links"] = len(linked)
-            if linked and cls in ("heme b", "heme"):
-                flags.append(Flag("heme_reclassified", "note",
-                                  f"filed as {c.resname[rows[0]]} but bound to {len(linked)} Cys by thioether "
-                                  f"link{'s' if len(linked) > 1 else ''}: classed as heme c"))
-                cls = "heme c"
-            elif cls in ("heme b", "heme"):
-                near = self._thioether_cys(env, env_rows, _CXXCH_SG_MAX)
-                pair = [(a, b) for a in near for b in near if a[0] == b[0] and b[1] - a[1] == 3]
-                if pair:
-                    (ch, n1, _), (_, n2, _) = pair[0]
-                    flags.append(Flag("heme_reclassified", "note",
-                                      f"filed as {c.resname[rows[0]]} with no thioether bonds modelled, but Cys "
-                                      f"{ch}/{n1} and {ch}/{n2} (a CxxC motif) reach the vinyl carbons within "
-                                      f"{_CXXCH_SG_MAX} Å: classed as heme c"))
-                    cls = "heme c"
-        else:
-            redox, flags = self._ring_or_all(rows, None, "heme iron")
-        cof = self._record(
-            c, rows, redox, int(rows[0]), ccd_code=str(c.resname[rows[0]]) if entry else None,
-            category="heme", cls=cls, composition=composition_string(c.element[rows]),
-            detected_by=("ccd+geometry" if fe is not None else "ccd") if entry else "geometry",
-            ligands=tuple(ligands), flags=flags, extra=extra,
-        )
-        self.cofactors.append((rid, cof))
+    def _ligand_rows(self, ligands) -> list[int]:
+        env = self.env
+        want = {(lig.atom.chain, lig.atom.seqnum, lig.atom.icode, lig.atom.name) for lig in ligands}
+        nums = {lig.atom.seqnum for lig in ligands}
+        rows = np.flatnonzero(np.isin(env.seqnum, list(nums)))
+        return [int(i) for i in rows if (env.chain[i], int(env.seqnum[i]), env.icode[i], env.name[i]) in want]
 
     @staticmethod
-    def _thioether_cys(env: AtomArrays, heme_rows: list[int], max_d: float) -> list[tuple[str, int, str]]:
-        """Cys residues (chain, number, icode) whose SG lies within ``max_d`` Å of a heme carbon."""
-        sg = np.flatnonzero((env.element == "S") & (env.name == "SG"))
-        carbons = [r for r in heme_rows if env.element[r] == "C"]
-        if len(sg) == 0 or not carbons:
-            return []
-        d = np.linalg.norm(env.xyz[sg][:, None, :] - env.xyz[carbons][None, :, :], axis=2)
-        linked = sg[np.any(d < max_d, axis=1)]
-        return sorted({(str(env.chain[i]), int(env.seqnum[i]), str(env.icode[i])) for i in linked})
+    def _is_dithiolene(lig, pterins) -> bool:
+        labels = {p.label for p in pterins}
+        a = lig.atom
+        return a.element == "S" and f"{a.chain}/{a.seqnum}{a.icode} {a.resname}" in labels
 
     # -- metal sites ----------------------------------------------------
     def find_sites(self, heme_fe: dict[int, int]) -> list[MetalSite]:
@@ -261,10 +232,16 @@ class _Builder:
             atom_rows = np.asarray([i for i in atom_rows if c.altloc[i] in core_alts or not c.altloc[i]], dtype=int)
         env_core = self._env_rows(core)
         env_metals = [e for e, ci in zip(env_core, core) if c.element[ci] in METALS]
-        ligs, clashes = find_ligands(env, env_metals, set(env_core), set(res_ids), tree=self._env_tree)
+        pterins = bound_pterins(c, self.by_res, [i for i in core if c.element[i] in PTERIN_METALS],
+                                self.pterin_codes, tree=self._cand_tree)
+        own = set(res_ids) | {p.res_id for p in pterins}
+        ligs, clashes = find_ligands(env, env_metals, set(env_core), own, tree=self._env_tree)
         elements = [str(c.element[i]) for i in core]
         composition = composition_string(elements)
         category, cls = core_class(elements, site.bonds, core)
+        if pterins:
+            ligs = [(m, replace(lig, kind="dithiolene S") if self._is_dithiolene(lig, pterins) else lig)
+                    for m, lig in ligs]
         ligands = [lig for _, lig in ligs]
         his_per_fe: dict[str, int] = defaultdict(int)
         cys = 0
@@ -288,11 +265,15 @@ class _Builder:
             base = cls.replace("Rieske ", "")
             if base == entry.cls or cls == entry.cls:
                 detected_by = "ccd+geometry"
+            elif entry.category == "metal" and _same_metals(entry.composition, elements):
+                # a named site (molybdate, H-cluster 2Fe unit, CODH C-cluster...): the code names what
+                # the geometry cannot, and the metals agree
+                detected_by, cls, category = "ccd+geometry", entry.cls, entry.category
             else:
                 detected_by = "ccd"
                 cls = entry.cls
                 category = entry.category
-            expected = entry.composition or None
+            expected = (entry.composition or None) if entry.category != "metal" else None
         flags, coordination = check_metal_site(
             cls, composition, expected, env, env_core, ligs, clashes, self.low_res
         )
@@ -300,10 +281,33 @@ class _Builder:
             flags.append(Flag("class_mismatch", "warning",
                               f"atoms form {core_class(elements, site.bonds, core)[1]} but the code says {entry.cls}"))
         first_metal = next(i for i in core if c.element[i] in METALS)
+        extra: dict = {"coordination": coordination}
+        if category == "iron-sulfur" and "S" in elements:
+            lig_rows = self._ligand_rows(ligands)
+            extra["pocket"] = fes_pocket(env, env_core, lig_rows, self.chain_residues())
+        redox_rows = list(core)
+        if pterins:
+            metal = next(str(c.element[i]) for i in core if c.element[i] in PTERIN_METALS).capitalize()
+            n = len(pterins)
+            cls = f"{metal}-bis-pterin" if n >= 2 else f"{metal}-pterin"
+            if any(e not in PTERIN_METALS and e in METALS for e in elements):
+                cls = f"{composition}-pterin"
+            category = "metal"
+            code = None if len(res_ids) > 1 or code not in METAL_ION_CODES else code
+            detected_by = "geometry" if not any(p.label.split()[-1] in self.pterin_codes for p in pterins) else "ccd+geometry"
+            extra["pterins"] = [p.label for p in pterins]
+            extra["dithiolene_s"] = sum(len(p.sulfur_rows) for p in pterins)
+            own_rows = {int(i) for i in atom_rows}
+            for p in pterins:
+                rows = [int(i) for i in self.by_res[p.res_id] if int(i) not in own_rows]
+                atom_rows = np.concatenate([atom_rows, np.asarray(rows, dtype=int)])
+                own_rows.update(rows)
+                redox_rows += [r for r in list(p.ring_rows) + list(p.sulfur_rows) if r not in redox_rows]
+            self.pterin_res.update(p.res_id for p in pterins)
         cof = self._record(
-            c, atom_rows, core, first_metal, ccd_code=code, category=category, cls=cls,
+            c, atom_rows, redox_rows, first_metal, ccd_code=code, category=category, cls=cls,
             composition=composition, detected_by=detected_by, ligands=tuple(ligands), flags=flags,
-            motif=binding_motif(ligands), extra={"coordination": coordination},
+            motif=binding_motif(ligands), extra=extra,
         )
         self.cofactors.append((int(c.res_id[first_metal]), cof))
 
@@ -330,50 +334,22 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     sites = b.find_sites(heme_fe)
     points = [b.cand.xyz[i] for i in heme_fe.values()]
     points += [b.cand.xyz[i] for s in sites for i in s.core if b.cand.element[i] in METALS]
-    b.prepare_environment(np.asarray(points, dtype=float).reshape(-1, 3))
+    own = {int(b.cand.res_id[i]) for i in heme_fe.values()}
+    own |= {int(b.cand.res_id[i]) for s in sites for i in s.core}
+    b.prepare_environment(np.asarray(points, dtype=float).reshape(-1, 3), own)
     b.organic(heme_fe)
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    return _unique_keys([cof for _, cof in b.cofactors])
+    cofs = [with_states(cof, b.states, b.index.residues) for _, cof in b.cofactors]
+    return assign_roles(unique_keys(cofs))
 
 
-def _unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
-    """Give a part suffix to cofactors that share a naming residue (altloc letter, else 1, 2...)."""
-    from dataclasses import replace
+def _same_metals(expected: str, elements: list[str]) -> bool:
+    """True when a table composition (``"MoO4"``, empty when unknown) names the same metals as the core."""
+    if not expected:
+        return True
+    import re
 
-    groups: dict[str, list[int]] = defaultdict(list)
-    for k, c in enumerate(cofactors):
-        groups[c.key].append(k)
-    out = list(cofactors)
-    for members in groups.values():
-        if len(members) < 2:
-            continue
-        alts = [{a.altloc for a in cofactors[k].atoms} for k in members]
-        by_alt = all(len(a) == 1 and next(iter(a)) for a in alts) and len({next(iter(a)) for a in alts}) == len(alts)
-        for n, k in enumerate(members, start=1):
-            out[k] = replace(cofactors[k], part=next(iter(alts[n - 1])) if by_alt else str(n))
-    return out
-
-
-def count_not_analysed(model: gemmi.Model) -> dict[str, int]:
-    """Residues of known redox-active groups that fescan does not model, by CCD code.
-
-    Parameters
-    ----------
-    model : gemmi.Model
-
-    Returns
-    -------
-    dict of str to int
-        For example ``{"CLA": 70, "PHO": 4}`` (codes of category ``not analysed``
-        in the packaged CCD table), in code order.
-    """
-    table = ccd_table()
-    wanted = {k for k, v in table.items() if v.category == "not analysed"}
-    counts: dict[str, int] = {}
-    for ch in model:
-        for res in ch:
-            if res.name in wanted:
-                counts[res.name] = counts.get(res.name, 0) + 1
-    return dict(sorted(counts.items()))
+    want = {e.upper() for e in re.findall(r"[A-Z][a-z]?", expected)} & METALS
+    return want == {e for e in elements if e in METALS}

@@ -34,6 +34,7 @@ _ORGANIC = frozenset({"C", "N", "O", "P", "S", "SE"})
 
 METAL_BRIDGE_MAX = 3.0  # Å metal - inorganic S/Se (a 2.8 Å stretched bond stays in)
 METAL_METAL_MAX = 3.0  # Å direct metal-metal contact (Fe...Fe 2.7, Ni...Fe 2.9, Cu...Cu 2.5)
+METAL_METAL_MIN = 1.9  # Å: metals closer than this are alternative positions of one atom (M-M bonds >= 2.2 Å)
 MN_LINK_MAX = 3.6  # Å Mn...Mn and Mn...Ca in the Mn4Ca cluster (no oxo atoms in many models)
 INTERSTITIAL_MAX = 2.3  # Å metal - interstitial carbide/nitride
 ORGANIC_BOND_MAX = 1.95  # Å; a light atom this close to an organic atom is organic itself
@@ -118,6 +119,8 @@ def find_metal_sites(
             d = float(np.linalg.norm(atoms.xyz[i] - atoms.xyz[j]))
             ej = el[j]
             link = False
+            if is_metal[j] and d < METAL_METAL_MIN:
+                continue  # two positions of one metal (alternative states), never a bond
             if is_metal[j] and d <= (MN_LINK_MAX if "MN" in (el[i], ej) else METAL_METAL_MAX):
                 link = True
             elif inorganic[j] and ej in _BRIDGE_S and d <= METAL_BRIDGE_MAX:
@@ -205,6 +208,8 @@ def core_class(elements: list[str], bonds: list[tuple[int, int]], rows: list[int
                 return "iron-sulfur", "[3Fe-4S]"
             return "iron-sulfur", "linear [3Fe-4S]"
         return "iron-sulfur", f"[{n_fe}Fe-{n_s}S]"
+    if n_fe == 7 and n_s in (8, 9) and others & {"MO", "V"} and others <= {"MO", "V", "C", "N", "O"}:
+        return "iron-sulfur", "FeMo-co" if "MO" in others else "FeV-co"  # nitrogenase cofactors
     if n_fe and n_s:
         return "iron-sulfur", composition_string(elements)
     if cnt.get("CU", 0) and set(cnt) == {"CU"}:

@@ -26,7 +26,7 @@ UNKNOWN_LIGAND_CODES = frozenset({"UNL", "LIG", "UNK", "UNX", "DUM", "XXX", "LG1
 
 #: Single-ion CCD codes whose residue name we keep as the cofactor's code.
 METAL_ION_CODES = frozenset(
-    {"FE", "FE2", "FE3", "CU", "CU1", "CU3", "NI", "NI3", "MN", "MN3", "MO", "V", "W", "CO", "3CO"}
+    {"FE", "FE2", "FE3", "CU", "CU1", "CU3", "NI", "NI3", "3NI", "MN", "MN3", "MO", "4MO", "6MO", "V", "W", "CO", "3CO"}
 )
 
 
@@ -46,9 +46,15 @@ class CcdEntry:
         Expected core composition for clusters (``"Fe4S4"``), empty otherwise.
     redox_atoms : str
         Rule naming the redox-active atom set: ``core``, ``isoalloxazine``,
-        ``quinone_ring`` or ``porphyrin``.
+        ``quinone_ring``, ``porphyrin`` or ``pterin``.
     source, status : str
         Where the row comes from, and how sure that is.
+    role : str
+        Role the code implies (``relay``, ``catalytic``, ``structural``,
+        ``ion or additive``), ``by site`` when the site's geometry decides, or
+        ``not analysed``.
+    subclass : str
+        Sub-class the code implies (``"P-cluster"``, ``"CuA"``...), empty otherwise.
     """
 
     code: str
@@ -58,6 +64,8 @@ class CcdEntry:
     redox_atoms: str
     source: str
     status: str
+    role: str = ""
+    subclass: str = ""
 
 
 @dataclass(frozen=True, slots=True)
@@ -110,6 +118,8 @@ def ccd_table() -> dict[str, CcdEntry]:
             redox_atoms=r["redox_atoms"],
             source=r["source"],
             status=r["status"],
+            role=r.get("role", "") or "",
+            subclass=r.get("subclass", "") or "",
         )
     return out
 

@@ -10,7 +10,15 @@ import networkx as nx
 import numpy as np
 from scipy.spatial import cKDTree
 
-__all__ = ["bond_graph", "small_rings", "isoalloxazine_atoms", "quinone_ring_atoms", "porphyrin_atoms"]
+__all__ = [
+    "bond_graph",
+    "small_rings",
+    "isoalloxazine_atoms",
+    "pterin_atoms",
+    "quinone_ring_atoms",
+    "quinone_kind",
+    "porphyrin_atoms",
+]
 
 _ORGANIC = frozenset({"C", "N", "O", "S", "P", "SE"})
 _MAX_BOND = 1.9  # Å between heavy organic atoms (C-S 1.82 is the longest we need)
@@ -99,9 +107,11 @@ def _count(element: np.ndarray, ring: frozenset[int], el: str) -> int:
 def isoalloxazine_atoms(xyz: np.ndarray, element: np.ndarray) -> list[int] | None:
     """Atoms of an isoalloxazine (flavin) ring system with its two carbonyl O.
 
-    The ring system is three fused six-membered rings in a row: a carbocycle, a
-    ring with two N (pyrazine) and a ring with two N (pyrimidine) bearing
-    exocyclic oxygens.
+    The ring system is three fused six-membered rings in a row: a carbocycle
+    (six C: the benzo ring), a ring with two N (pyrazine) and a ring with two N
+    (pyrimidine) bearing exocyclic oxygens. A pyranopterin (molybdopterin) has
+    the same pyrazine-pyrimidine pair but its third ring holds an O, so it is no
+    isoalloxazine (see :func:`pterin_atoms`).
 
     Returns
     -------
@@ -114,7 +124,7 @@ def isoalloxazine_atoms(xyz: np.ndarray, element: np.ndarray) -> list[int] | Non
         if _count(element, mid, "N") != 2:
             continue
         fused = [r for r in rings if r is not mid and len(r & mid) == 2]
-        benzo = [r for r in fused if _count(element, r, "N") == 0]
+        benzo = [r for r in fused if _count(element, r, "C") == 6]
         pyrim = [r for r in fused if _count(element, r, "N") == 2]
         for a in benzo:
             for c in pyrim:
@@ -129,6 +139,85 @@ def isoalloxazine_atoms(xyz: np.ndarray, element: np.ndarray) -> list[int] | Non
                 }
                 if len(oxy) >= 1:
                     return sorted(system | oxy)
+    return None
+
+
+def pterin_atoms(xyz: np.ndarray, element: np.ndarray) -> list[int] | None:
+    """Atoms of a pterin (pteridine) ring pair that is not part of an isoalloxazine.
+
+    A pterin is a six-membered ring with two N (pyrimidine, bearing an exocyclic
+    O or N) fused to a six-membered ring with two N (pyrazine), with no
+    all-carbon ring fused to the pyrazine (that would make an isoalloxazine,
+    i.e. a flavin). The pyran ring of molybdopterin (five C and one O) fused to
+    the pyrazine is included with the pterin atoms when present.
+
+    Returns
+    -------
+    list of int or None
+        Sorted row indices of the pterin rings (with the pyran ring and the
+        exocyclic O/N of the pyrimidine), or None when there is no pterin.
+    """
+    g = bond_graph(xyz, element)
+    rings = small_rings(g, (6,))
+    for mid in rings:
+        if _count(element, mid, "N") != 2:
+            continue
+        fused = [r for r in rings if r is not mid and len(r & mid) == 2]
+        if any(_count(element, r, "C") == 6 for r in fused):
+            continue  # benzo ring: isoalloxazine
+        pyrim = [r for r in fused if _count(element, r, "N") == 2]
+        for c in pyrim:
+            exo = {
+                nb
+                for i in c
+                for nb in g.neighbors(i)
+                if element[nb] in ("O", "N") and nb not in c and nb not in mid and g.degree(nb) == 1
+            }
+            if not exo:
+                continue
+            system = set(mid | c) | exo
+            for r in fused:
+                if r is not c and not (r & c) and _count(element, r, "O") == 1 and _count(element, r, "N") == 0:
+                    system |= r  # pyran ring of a pyranopterin
+            return sorted(system)
+    return None
+
+
+def quinone_kind(xyz: np.ndarray, element: np.ndarray) -> tuple[str, list[int]] | None:
+    """Recognise a para-quinone/quinol ring and say whether it is a naphthoquinone.
+
+    A quinone ring here is six ring carbons of which two in para position (1,4)
+    each carry a terminal O (carbonyl or hydroxyl). When an all-carbon six-ring
+    is fused to it the group is a naphthoquinone (menaquinone, phylloquinone),
+    otherwise a benzoquinone (ubiquinone, plastoquinone).
+
+    Returns
+    -------
+    tuple of (str, list of int) or None
+        ``("naphthoquinone" | "benzoquinone", redox rows)`` where the redox rows are
+        the quinone ring carbons and their two O; None when absent.
+    """
+    g = bond_graph(xyz, element)
+    rings = small_rings(g, (6,))
+    for ring in rings:
+        if _count(element, ring, "C") != 6:
+            continue
+        o_of = {}
+        for i in ring:
+            for nb in g.neighbors(i):
+                if element[nb] == "O" and nb not in ring and g.degree(nb) == 1:
+                    o_of[i] = nb
+        carriers = list(o_of)
+        para = None
+        for a in carriers:
+            for b in carriers:
+                if a < b and nx.shortest_path_length(g.subgraph(ring), a, b) == 3:
+                    para = (a, b)
+        if para is None:
+            continue
+        redox = sorted(set(ring) | {o_of[para[0]], o_of[para[1]]})
+        fused = [r for r in rings if r is not ring and len(r & ring) == 2 and _count(element, r, "C") == 6]
+        return ("naphthoquinone" if fused else "benzoquinone"), redox
     return None
 
 

@@ -81,6 +81,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
     res_txt = f"{i.resolution:.2f} Å" if i.resolution else "resolution not given"
     lines.append(f"  {i.method or 'method not given'}, {res_txt}, model {res.cofactors[0].model if res.cofactors else res.options.model} of {i.n_models}")
     lines += [f"  warning: {n}" for n in i.notes]
+    lines += [f"  note: {n}" for n in getattr(res, "notes", [])]
     lines.append("")
     if not res.cofactors:
         lines.append("No redox cofactors found.")
@@ -92,10 +93,11 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
         fl = ", ".join(x for x in (f"{warn} warning{'s' * (warn != 1)}" if warn else "",
                                    f"{note} note{'s' * (note != 1)}" if note else "") if x) or "ok"
         pot = res.potentials[c.uid]
-        rows.append([c.key, c.cls, c.ccd_code or "-", c.detected_by, str(len(c.atoms)), _ligand_summary(c),
+        rows.append([c.key, c.cls, c.role, c.ccd_code or "-", c.detected_by, str(len(c.atoms)), _ligand_summary(c),
                      c.motif or "-", signed(pot.e_v) if pot.determined else "undetermined", pot.couple or "-", fl])
     lines.append(f"Cofactors ({len(res.cofactors)})")
-    lines.append(table(["cofactor", "class", "code", "found by", "atoms", "ligands", "motif", "E (V)", "couple used",
+    lines.append(table(["cofactor", "class", "role", "code", "found by", "atoms", "ligands", "motif", "E (V)",
+                        "couple used",
                         "checks"], rows))
     if details:
         for c in res.cofactors:

@@ -1,0 +1,100 @@
+"""Finishing the inventory of one model: alternative states, unique keys, groups not analysed."""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import replace
+
+import gemmi
+
+from fescan.cofactors.registry import ccd_table
+from fescan.core.records import Cofactor, Flag
+
+__all__ = ["with_states", "unique_keys", "count_not_analysed"]
+
+
+def with_states(cof: Cofactor, states: dict, residues: list) -> Cofactor:
+    """Name the alternative states merged into this cofactor (see :mod:`fescan.cofactors.states`).
+
+    Parameters
+    ----------
+    cof : Cofactor
+    states : dict of int to list of AlternativeState
+        From :func:`fescan.cofactors.states.find_alternative_states`.
+    residues : list of (str, gemmi.Residue)
+        The model index's residues (to name the kept residue).
+
+    Returns
+    -------
+    Cofactor
+        With ``states`` and a note when one of its residues has alternative states.
+    """
+    if not states:
+        return cof
+    labels = set(cof.residues)
+    names: list[str] = []
+    for kept, group in states.items():
+        cname, res = residues[kept]
+        if f"{cname}/{res.seqid.num}{res.seqid.icode.strip()} {res.name}" in labels:
+            names += [st.label for st in group]
+    if not names:
+        return cof
+    flag = Flag("alternative_states", "note",
+                f"modelled in {len(names)} overlapping states ({'; '.join(names)}): analysed as one cofactor, "
+                f"in the state of highest occupancy")
+    return replace(cof, states=tuple(names), flags=cof.flags + (flag,))
+
+
+def unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:
+    """Give a part suffix to cofactors that share a naming residue (altloc letter, else 1, 2...).
+
+    Parameters
+    ----------
+    cofactors : list of Cofactor
+
+    Returns
+    -------
+    list of Cofactor
+    """
+    groups: dict[str, list[int]] = defaultdict(list)
+    for k, c in enumerate(cofactors):
+        groups[c.key].append(k)
+    out = list(cofactors)
+    for members in groups.values():
+        if len(members) < 2:
+            continue
+        alts = [{a.altloc for a in cofactors[k].atoms} for k in members]
+        by_alt = all(len(a) == 1 and next(iter(a)) for a in alts) and len({next(iter(a)) for a in alts}) == len(alts)
+        for n, k in enumerate(members, start=1):
+            out[k] = replace(cofactors[k], part=next(iter(alts[n - 1])) if by_alt else str(n))
+    return out
+
+
+def count_not_analysed(model: gemmi.Model, cofactors: list[Cofactor] | None = None) -> dict[str, int]:
+    """Residues of known redox-active groups that fescan does not model, by CCD code.
+
+    Parameters
+    ----------
+    model : gemmi.Model
+    cofactors : list of Cofactor, optional
+        The cofactors found; pterin residues (MGD, MTE...) that are part of none
+        (no Mo/W bound to their dithiolene) are then counted too.
+
+    Returns
+    -------
+    dict of str to int
+        For example ``{"CLA": 70, "PHO": 4}`` (codes of category ``not analysed``
+        in the packaged CCD table), in code order.
+    """
+    table = ccd_table()
+    wanted = {k for k, v in table.items() if v.category == "not analysed"}
+    pterins = {k for k, v in table.items() if v.category == "pterin"} if cofactors is not None else set()
+    used = {r for c in cofactors or [] for r in c.residues}
+    counts: dict[str, int] = {}
+    for ch in model:
+        for res in ch:
+            name = res.name
+            if name in wanted or (name in pterins and f"{ch.name}/{res.seqid.num}{res.seqid.icode.strip()} {name}"
+                                  not in used):
+                counts[name] = counts.get(name, 0) + 1
+    return dict(sorted(counts.items()))
