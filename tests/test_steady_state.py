@@ -383,6 +383,10 @@ def test_to_dict_is_json_ready():
     assert len(d["control"]) == 4 and len(d["occupancy"]) == 3
     zero = steady_state([-0.3], [], -0.2, -0.2).to_dict()
     assert zero["control"] == [None, None] and zero["bottleneck"] is None
+    # at equilibrium the flux has no direction, so no control and no sensitivity
+    for method in ("exact", "mean-field"):
+        eq = steady_state([-0.3, (-0.25, -0.1), -0.05], [8.0, 9.0], -0.2, -0.2, method=method)
+        assert all(math.isnan(c) for c in eq.control + eq.sensitivity)
 
 
 @pytest.mark.parametrize("kwargs, match", [

@@ -20,9 +20,9 @@ Rates (s⁻¹) of hops come from ``rate_function(distance, ΔG, reorg, packing_d
 temperature=T)`` returning log10 k (default :func:`fescan.transfer.rate_law.log10_hop_rate`,
 Moser–Dutton with exact detailed balance). Reservoir exchange, by default, is the same law
 at van der Waals contact (3.6 Å) with λ = ``reservoir_reorg``: the substrate pool is taken to
-bind in contact with the entry or exit cofactor, and the law's fastest rate keeps substrate
-supply and product removal from limiting the flux, so the flux and the control coefficients
-describe the wire itself. A slower substrate step can be given as ``source_rate`` /
+bind in contact with the entry or exit cofactor; at contact the law gives 10^10.8 s⁻¹ at
+ΔG = 0 (λ = 0.7 eV), so substrate supply and product removal do not limit the flux and the
+flux and the control coefficients describe the wire itself. A slower substrate step can be given as ``source_rate`` /
 ``sink_rate`` k₀ (s⁻¹): then a downhill exchange runs at k₀ and an uphill one at
 ``k₀·10^(-ΔG/(k_B T ln10))``. Either way every pair of opposite rates obeys detailed balance,
 so with E_source = E_sink the stationary state is equilibrium and the net flux is zero for any

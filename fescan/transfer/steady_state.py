@@ -78,7 +78,7 @@ FIRST_PASSAGE_LABEL: str = "one electron entering an oxidised chain"
 _METHODS = ("auto", "exact", "cluster-mean-field", "mean-field")
 _MF_LOG_STEP = 1e-4  # central differences of the mean-field solution, in ln k
 _MF_E_STEP = 1e-4    # and in V
-_ZERO_FLUX = 1e-9    # |J| below this fraction of the gross current: no direction, no control
+_ZERO_FLUX = 1e-9    # |J| up to this fraction of the one-way currents: no direction, no control
 
 
 @dataclass(frozen=True)
@@ -185,7 +185,7 @@ def _start_distributions(model: WireModel) -> list[np.ndarray]:
     return out
 
 
-def _exact(model: WireModel) -> tuple[float, list[np.ndarray], np.ndarray, np.ndarray]:
+def _exact(model: WireModel) -> tuple[float, list[np.ndarray], np.ndarray, np.ndarray, float]:
     """Flux, site distributions, dJ/dln k per step and dJ/dE per parameter (adjoint)."""
     net = model.network
     space = state_space(net)
@@ -207,13 +207,14 @@ def _exact(model: WireModel) -> tuple[float, list[np.ndarray], np.ndarray, np.nd
     n_par = int(sum(net.capacity)) + 2
     d_par = (np.bincount(space.donor_param, weights=w_e, minlength=n_par)[:n_par]
              - np.bincount(space.acceptor_param, weights=w_e, minlength=n_par)[:n_par])
-    return flux, site_distributions(space.occupancy, p, net.capacity), d_step, d_par
+    gross = float(np.sum(base[space.step == sol.measured_step]))
+    return flux, site_distributions(space.occupancy, p, net.capacity), d_step, d_par, gross
 
 
 def _approximate_flux(model: WireModel, net: KineticNetwork, start: list[np.ndarray],
                       method: str, block_states: int, blocks: list[list[int]] | None = None,
-                      ) -> tuple[float, list[np.ndarray], str, list[list[int]] | None]:
-    """Flux, one-site distributions, the method used (cluster falls back to one-site), blocks.
+                      ) -> tuple[float, list[np.ndarray], str, list[list[int]] | None, float]:
+    """Flux, one-site distributions, method used (cluster falls back to one-site), blocks, gross.
 
     Given *blocks* (the partition of the unperturbed network), *start* is taken to be a
     cluster solution of a nearby network and the one-site solve that otherwise starts the
@@ -235,14 +236,14 @@ def _approximate_flux(model: WireModel, net: KineticNetwork, start: list[np.ndar
         net_cur, gross = step_currents_mean_field(net, dist)
     cuts = list(range(len(net.ends))) if model.is_chain else [0, len(net.ends) - 1]
     best = min(cuts, key=lambda s: gross[s])
-    return float(net_cur[best]), dist, used, blocks
+    return float(net_cur[best]), dist, used, blocks, float(gross[best])
 
 
 def _approximate(model: WireModel, method: str, block_states: int, derivatives: bool
-                 ) -> tuple[float, list[np.ndarray], np.ndarray, np.ndarray, str]:
-    """Flux, distributions, central-difference derivatives and the method used."""
+                 ) -> tuple[float, list[np.ndarray], np.ndarray, np.ndarray, str, float]:
+    """Flux, distributions, central-difference derivatives, the method used, gross current."""
     net = model.network
-    flux, dist, method, blocks = _approximate_flux(model, net, _start_distributions(model),
+    flux, dist, method, blocks, gross = _approximate_flux(model, net, _start_distributions(model),
                                                    method, block_states)
     n_steps, n_par = len(net.ends), int(sum(net.capacity)) + 2
     d_step, d_par = np.full(n_steps, np.nan), np.full(n_par, np.nan)
@@ -263,7 +264,7 @@ def _approximate(model: WireModel, method: str, block_states: int, derivatives: 
             shift[j] = _MF_E_STEP
             hi = solve(net.scaled(param_shift=shift))
             d_par[j] = (hi - solve(net.scaled(param_shift=-shift))) / (2 * _MF_E_STEP)
-    return flux, dist, d_step, d_par, method
+    return flux, dist, d_step, d_par, method, gross
 
 
 def solve_steady_state(model: WireModel, *, method: str = "auto",
@@ -301,11 +302,11 @@ def solve_steady_state(model: WireModel, *, method: str = "auto",
     if method == "exact":
         if n_states > max_exact_states:
             raise ConfigError(f"{n_states} occupancy states exceed the exact limit {max_exact_states}")
-        flux, dist, d_step, d_par = _exact(model)
+        flux, dist, d_step, d_par, gross = _exact(model)
     else:
-        flux, dist, d_step, d_par, method = _approximate(model, method, block_states, derivatives)
-    gross_scale = max(abs(float(d)) for d in d_step) if np.isfinite(d_step).all() else 0.0
-    zero = flux == 0.0 or abs(flux) < _ZERO_FLUX * max(gross_scale, abs(flux))
+        flux, dist, d_step, d_par, method, gross = _approximate(model, method, block_states,
+                                                                derivatives)
+    zero = abs(flux) <= _ZERO_FLUX * gross  # net current lost in the one-way currents
     if not derivatives or zero:
         d_step = np.full_like(d_step, np.nan)
         d_par = np.full_like(d_par, np.nan)
