@@ -105,7 +105,7 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("hop_time_s", "float64", "s", "1/k_forward (estimate)"),
         ("gap", "boolean", "", "above the gap limit"),
         ("slow", "boolean", "", "slower than the turnover threshold"),
-        ("bottleneck", "boolean", "", "slowest hop of the path"),
+        ("bottleneck", "boolean", "", "largest flux-control coefficient of the steady state, else the slowest hop"),
         ("packing_density", "float64", "", "packing density ρ used"),
     ),
     "wires": _cols(
@@ -115,12 +115,16 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("how_chosen", "string", "", "user choice or default rule"),
         ("path", "string", "", "cofactor ids along the fastest path, ' > ' separated"),
         ("n_hops", "Int64", "", ""),
-        ("bottleneck", "string", "", "donor > acceptor of the slowest hop"),
+        ("bottleneck", "string", "", "donor > acceptor of the hop with the largest flux-control coefficient "
+                                     "(steady state), else of the slowest hop"),
         ("bottleneck_edge_distance", "float64", "Å", ""),
         ("max_edge_distance", "float64", "Å", "longest hop on the path"),
-        ("n_gaps", "Int64", "", "hops over the gap limit or below the rate threshold"),
-        ("summed_hop_time_s", "float64", "s", "Σ 1/k along the path (estimate)"),
-        ("mean_first_passage_time_s", "float64", "s", "MFPT entry → exit (estimate)"),
+        ("n_gaps", "Int64", "", "hops over the gap limit"),
+        ("summed_hop_time_s", "float64", "s", "sum of forward hop times Σ 1/k (ignores back hops; not a transit time)"),
+        ("mean_first_passage_time_s", "float64", "s",
+         "one electron entering an oxidised chain, entry → exit (estimate)"),
+        ("flux_per_s", "float64", "s⁻¹", "steady-state electron flux between the reservoirs (estimate)"),
+        ("transit_time_s", "float64", "s", "steady-state transit time, electrons on the path / flux (estimate)"),
         ("isolated", "string", "", "cofactors with no partner within the gap limit"),
     ),
     "structures": _cols(
@@ -232,6 +236,8 @@ def wire_rows(res: ScanResult) -> list[dict]:
         "max_edge_distance": max((h.edge for h in w.hops), default=None),
         "n_gaps": len(w.gaps), "summed_hop_time_s": d["summed_hop_time_s"],
         "mean_first_passage_time_s": d["mean_first_passage_time_s"],
+        "flux_per_s": (w.steady_state or {}).get("flux_per_s"),
+        "transit_time_s": (w.steady_state or {}).get("transit_time_s"),
         "isolated": " ".join(w.isolated),
     }]
 
