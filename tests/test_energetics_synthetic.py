@@ -96,3 +96,40 @@ def test_one_hop_builder_and_rate_law_seam():
     assert flat.log10_k_forward == pytest.approx(3.0)
     # the slopes live beside the law: -(1.2 - 0.8 rho) per Å (Page et al. 1999)
     assert log10_rate_slopes(10.0, -0.35, 0.7, 0.76)[0] == pytest.approx(-0.592)
+
+
+def metal(chain, num, x, element, category, cls, code, y=0.0):
+    a = AtomRef(chain, num, "", code, element, element, (x, y, 0.0))
+    return Cofactor(model=1, chain=chain, seqnum=num, icode="", ccd_code=code, category=category, cls=cls,
+                    composition=element, residues=(f"{chain}/{num} {code}",), atoms=(a,), redox_atoms=(a,),
+                    centroid=(x, y, 0.0), mean_occupancy=1.0, mean_b=20.0, detected_by="geometry")
+
+
+def test_oxidase_runs_cua_to_heme_a3():
+    # heme-copper oxidase: cytochrome c -> CuA -> heme a -> heme a3-CuB (Moser et al. 2006 BBA 1757:1096);
+    # heme a3 is the heme a whose Fe sits about 4.5-5 Å from CuB (common practice, no source)
+    from fescan.transfer.context import context_subclasses
+
+    cofs = [metal("B", 1, 0.0, "CU", "copper", "CuA", "CUA"), metal("A", 2, 12.0, "FE", "heme", "heme a", "HEA"),
+            metal("A", 3, 24.0, "FE", "heme", "heme a", "HEA"), metal("A", 4, 28.5, "CU", "copper", "Cu", "CU")]
+    ctx = context_subclasses(cofs)
+    assert ctx[cofs[2].uid][0] == "heme a3" and ctx[cofs[3].uid][0] == "CuB"
+    params = assign_parameters(cofs, context=ctx)
+    o = ScanOptions()
+    g = build_cofactor_graph(cofs, pair_distances(cofs, o.cutoff), {u: p.working() for u, p in params.items()}, o)
+    for u, p in params.items():
+        g.nodes[u]["parameters"] = p
+    entry, exit_, how = choose_endpoints(g, cofs, o)
+    assert (entry, exit_) == (cofs[0].uid, cofs[2].uid) and "CuA" in how
+    # heme a3 default +0.35 V sits above heme a +0.28 V (Moser et al. 2006, from memory)
+    assert params[cofs[2].uid].working().e_v > params[cofs[1].uid].working().e_v
+
+
+def test_hipip_subclass_from_detection_changes_the_couple():
+    # Stephens et al. 1996 (from memory): HiPIP 3+/2+ about +0.35 V, not the ferredoxin 2+/1+ couple
+    hipip = replace(point("A", 1, 0.0), subclass="HiPIP-type")
+    fd = replace(point("A", 2, 9.0), subclass="ferredoxin-type")
+    p = assign_parameters([hipip, fd])
+    assert p[hipip.uid].working().couple == "[4Fe-4S] 3+/2+" and p[hipip.uid].working().e_v > 0.2
+    assert p[fd.uid].working().couple == "[4Fe-4S] 2+/1+" and p[fd.uid].working().e_v < -0.3
+    assert "HiPIP-type" in p[hipip.uid].working().basis
