@@ -11,7 +11,9 @@ n-electron couples at pH 7):
   that feeds it; a ubiquinone → the ubiquinone pool; a plastoquinone → the
   plastoquinone pool; CuA → soluble cytochrome c;
 * exit: a quinone → its pool (ubiquinone, menaquinone, plastoquinone); the last
-  [4Fe-4S] of complex I (N2, which reduces ubiquinone) → the ubiquinone pool;
+  [4Fe-4S] of complex I (N2, which reduces ubiquinone) → the ubiquinone pool; the
+  [3Fe-4S] next to the quinone site of SDH/QFR → the ubiquinone pool (with heme)
+  or the menaquinone pool (no heme, type D);
   heme a3 → O2/H2O; a flavin of the SDH/QFR family → fumarate/succinate.
 
 Anything else is undetermined: the steady state is then not solved and the wire
@@ -87,6 +89,10 @@ def _sink(g: nx.DiGraph, uid: str) -> Reservoir | None:
         return _pool("plastoquinone pool")
     if sub == "complex I N2":
         return _pool("ubiquinone pool in membranes")
+    if c.cls == "[3Fe-4S]" and sub == "SDH/QFR-type":  # next to the quinone site of SDH/QFR
+        heme = any(g.nodes[n]["cofactor"].category == "heme"
+                   for n in nx.node_connected_component(g.to_undirected(as_view=True), uid))
+        return _pool("ubiquinone pool in membranes" if heme else "menaquinone pool")
     if sub == "heme a3":
         return _pool("O2/H2O")
     if c.category == "flavin" and _in_sdh(g, uid):
