@@ -550,6 +550,10 @@ def _steady(g: nx.DiGraph, w: Wire, options: ScanOptions, reservoirs: Mapping[st
     except ConfigError as exc:
         w.notes.append(f"steady state not solved: {exc}")
         return
+    flux = w.steady_state.get("flux_per_s")
+    if flux is not None and flux < 0:
+        w.notes.append(f"the steady-state flux is negative ({flux:.3g} electrons/s): between these reservoirs "
+                       "electrons run from the exit back to the entry, so the physiological direction is the reverse")
     ctrl = {(c["donor"], c["acceptor"]): c["coefficient"] for c in w.steady_state["control"]}
     scored = [(ctrl.get((h.donor, h.acceptor)), h) for h in w.hops]
     scored = [(c, h) for c, h in scored if c is not None and math.isfinite(c)]
