@@ -93,6 +93,10 @@ def test_1kf6_quinol_to_flavin_and_reverse():
     back = fescan.scan(entry_path("1KF6"), reverse=True)
     assert [back.cofactor(u).cls for u in back.wire.path] == ["FAD", "[2Fe-2S]", "[4Fe-4S]", "[3Fe-4S]"]
     assert "reversed on request" in back.wire.how_chosen
+    # between fumarate/succinate (+0.031 V) and the menaquinone pool (-0.074 V) (Thauer, Jungermann & Decker
+    # 1977 Bacteriol Rev 41:100, from memory) the net flux of the reversed wire runs backwards
+    assert back.wire.steady_state["flux_per_s"] < 0 < r.wire.steady_state["flux_per_s"]
+    assert any("physiological direction is the reverse" in n for n in back.wire.notes)
 
 
 def test_1yq9_relay_from_active_site():
