@@ -63,6 +63,9 @@ def test_2fug_transit_matches_nadh_to_n2(fug_published):
     assert ss["flux_per_s"] > 0
     assert 90e-6 / 3 <= ss["transit_time_s"] <= 90e-6 * 3
     assert set(ss) >= {"flux_per_s", "occupancy", "control", "sensitivity"}
+    assert ss["source"]["basis"] == ss["sink"]["basis"] == "user value"  # the file's [reservoirs]
+    assert ss["source"]["e_v"] == pytest.approx(-0.32) and ss["sink"]["e_v"] == pytest.approx(0.09)
+    assert len(ss["sensitivity_couples"][fug_published.wire.entry]) == 2  # FMN: ox/sq and sq/red
     # summation theorem of metabolic control analysis (Kacser & Burns 1973; Heinrich & Rapoport 1974)
     assert sum(c["coefficient"] for c in ss["control"]) == pytest.approx(1.0, abs=1e-6)
     json.dumps(fug_published.to_dict(), allow_nan=False)

@@ -156,6 +156,7 @@ def wire_steady_state(g: nx.DiGraph, path: list[str], hops: list[Hop], temperatu
         "occupancy": dict(zip(path, d["occupancy"])),
         "control": control,
         "sensitivity": dict(zip(path, d["sensitivity"])),
+        "sensitivity_couples": dict(zip(path, d["sensitivity_couples"])),
         "sensitivity_source": d["sensitivity_source"],
         "sensitivity_sink": d["sensitivity_sink"],
         "source": {"pool": source.label, "e_v": source.potential.e_v, "source": source.potential.source,
