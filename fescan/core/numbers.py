@@ -128,6 +128,8 @@ def format_with_interval(value: float | None, low: float | None, high: float | N
     '100 µs (95%: 20 µs to 800 µs)'
     >>> format_with_interval(0.0249, 0.0201, 0.0312, "s")
     '25 ms (95%: 20 ms to 31 ms)'
+    >>> format_with_interval(0.0249, 2.1e-4, 6.3, "s")
+    '20 ms (95%: 200 µs to 6 s)'
     >>> format_with_interval(2.0e4, 3.1e3, 1.2e5, "s⁻¹")
     '2×10^4 s⁻¹ (95%: 3×10^3 s⁻¹ to 1×10^5 s⁻¹)'
     """
@@ -141,7 +143,11 @@ def format_with_interval(value: float | None, low: float | None, high: float | N
     n = significant_digits(value, lo, hi, max_digits=max_digits)
     f, u = _scaled(value, unit, value)
     v = round_sig(value / f, n)
-    # the ends need no more digits than the value; two at most
-    ends = [_plain(round_sig(x / f, min(n, 2)), min(n, 2)) for x in (lo, hi)]
+    # the ends need no more digits than the value (two at most), each with its own prefix
+    m = min(n, 2)
+    ends = []
+    for x in (lo, hi):
+        fx, ux = _scaled(x, unit, x) if x != 0 else (f, u)
+        ends.append(f"{_plain(round_sig(x / fx, m), m)} {ux}".rstrip())
     sep = f" {u}" if u else ""
-    return f"{_plain(v, n)}{sep} ({level}: {ends[0]}{sep} to {ends[1]}{sep})"
+    return f"{_plain(v, n)}{sep} ({level}: {ends[0]} to {ends[1]})"
