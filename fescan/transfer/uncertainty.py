@@ -54,6 +54,7 @@ __all__ = [
     "HopUncertainty",
     "WireUncertainty",
     "wire_uncertainty",
+    "deposited_coordinate_error",
 ]
 
 
@@ -353,3 +354,38 @@ def wire_uncertainty(
 def format_interval(iv: QuantityInterval) -> str:
     """Alias of :meth:`QuantityInterval.text` for renderers."""
     return format_with_interval(iv.value, iv.low, iv.high, iv.unit, level=iv.level)
+
+
+def deposited_coordinate_error(text: str) -> float | None:
+    """The overall coordinate error (Å) a header states, or ``None`` (kept for older callers).
+
+    Order: DPI / ESU from R_free, from R, the maximum-likelihood error, cross-validated
+    then plain Luzzati (:func:`fescan.structure.refinement.refinement_stats_from_text`).
+
+    Examples
+    --------
+    >>> deposited_coordinate_error("REMARK   3   ESD FROM LUZZATI PLOT        (A) : 0.30")
+    0.3
+    """
+    from fescan.structure.refinement import refinement_stats_from_text
+
+    st = refinement_stats_from_text(text)
+    for v in (st.dpi_rfree, st.dpi_r, st.ml_error, st.luzzati_free, st.luzzati):
+        if v is not None:
+            return float(v)
+    return None
+
+
+def _header_text(path: str, limit: int = 4_000_000) -> str:
+    """The first ``limit`` characters of a (possibly gzipped) file; '' when unreadable (kept for older callers)."""
+    import gzip
+    import zlib
+
+    try:
+        with open(path, "rb") as fh:
+            raw = fh.read(2)
+        opener = gzip.open if raw == b"\x1f\x8b" else open
+        with opener(path, "rb") as fh:
+            return fh.read(limit).decode("latin-1")
+    except (OSError, EOFError, zlib.error):
+        return ""
