@@ -250,7 +250,7 @@ class WireUncertainty:
     def basis(self) -> str:
         """One sentence: what the intervals cover (for every output that shows them)."""
         return (f"{self.level} intervals: coordinate error ({self.coordinate_error.description}); "
-                f"λ {self.reorg_range[0]:g}-{self.reorg_range[1]:g} eV; the law's own ±{self.law_decades:g} decade "
+                f"λ {self.reorg_range[0]:.1f}-{self.reorg_range[1]:.1f} eV; the law's own ±{self.law_decades:g} decade "
                 "(Page et al. 1999, Nature 402:47); potentials reported as sensitivities, not in the interval; "
                 f"seeded Monte Carlo ({self.n_samples} samples, seed {self.seed}). Rates and times are model "
                 "estimates")
