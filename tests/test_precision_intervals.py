@@ -190,3 +190,23 @@ def test_single_hop_monte_carlo_is_seeded_and_normal():
     s = monte_carlo_log10_rate(10.0, 0.5, -0.3, n_samples=20000, seed=7)
     assert np.array_equal(s, monte_carlo_log10_rate(10.0, 0.5, -0.3, n_samples=20000, seed=7))
     assert float(np.std(s)) == pytest.approx(0.592 * 0.5, rel=0.03)  # slope 1.2 - 0.8·0.76 = 0.592 per Å
+
+
+@requires_shared
+def test_samples_carry_the_shifts_a_rebuilt_model_needs(kf6):
+    # a quantity that rebuilds its own kinetic model (a steady-state flux from potentials and
+    # distances) sees the law's shift and each potential's shift explicitly
+    seen = {"law": set(), "pot": set()}
+
+    def probe(s):
+        seen["law"].add(round(s.law_shift, 9))
+        shifts = [s.potential_shift_of(u) for u in s.component.nodes]
+        seen["pot"].add(round(sum(shifts), 9))
+        a, b = s.component.path[:2]
+        assert s.distance_of(a, b) >= 0 and s.reorg_of(a, b) > 0
+        return 1.0
+
+    wire_uncertainty(kf6, n_samples=100, seed=0, extra={"probe": probe})
+    assert seen["law"] == {0.0, -0.8, 0.8}
+    p = kf6.potentials[kf6.wire.entry]
+    assert round(p.low_v - p.e_v, 9) in seen["pot"] and round(p.high_v - p.e_v, 9) in seen["pot"]

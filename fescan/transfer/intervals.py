@@ -140,12 +140,12 @@ def _pct(v: np.ndarray, level: str) -> tuple[float, float]:
 
 
 def _evaluate(comp: Component, quantities: Mapping[str, Quantity], distance: np.ndarray, dg: np.ndarray,
-              reorg: np.ndarray, shift: float = 0.0) -> dict[str, np.ndarray]:
+              reorg: np.ndarray, shift: float = 0.0, e_shift: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Quantities over a batch of samples (distance shape (S, P); dg, reorg per edge)."""
     lk = comp.log10_k(distance, dg[None, :], reorg[None, :]) + shift
     out = {k: np.empty(len(distance)) for k in quantities}
     for s in range(len(distance)):
-        sample = RateSample(comp, lk[s], dg, reorg, distance[s])
+        sample = RateSample(comp, lk[s], dg, reorg, distance[s], shift, e_shift)
         for k, q in quantities.items():
             out[k][s] = float(q(sample))
     return out
@@ -255,7 +255,9 @@ def _sensitivities(comp: Component, quantities: Mapping[str, Quantity]) -> dict[
         for end in (lo, hi):
             d = float(end) - float(e)  # a hop's ΔG = E_donor - E_acceptor
             dg = comp.dg + d * (comp.src == i) - d * (comp.dst == i)
-            vals.append(_evaluate(comp, quantities, centre, dg, comp.reorg))
+            e_shift = np.zeros(len(comp.nodes))
+            e_shift[i] = d
+            vals.append(_evaluate(comp, quantities, centre, dg, comp.reorg, e_shift=e_shift))
         for k in quantities:
             a, b = float(vals[0][k][0]), float(vals[1][k][0])
             dec = abs(math.log10(b / a)) if a > 0 and b > 0 and math.isfinite(a) and math.isfinite(b) else math.inf

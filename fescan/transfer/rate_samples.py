@@ -121,6 +121,16 @@ class RateSample:
         λ (eV) of every directed edge in this sample.
     distance : ndarray
         R (Å) of every pair in this sample.
+    law_shift : float
+        log10 units added to every rate (the law's scatter bound; 0 otherwise).
+    potential_shift : ndarray or None
+        Shift (V) of each node's potential from the one used (potential sensitivities),
+        ``None`` for none.
+
+    A quantity that rebuilds its own kinetic model (e.g. a steady-state flux from
+    potentials and distances) reads :meth:`distance_of`, :meth:`reorg_of`,
+    :meth:`potential_shift_of` and :attr:`law_shift` and must add ``law_shift`` to
+    its log10 rates.
     """
 
     component: Component
@@ -128,6 +138,23 @@ class RateSample:
     dg: np.ndarray
     reorg: np.ndarray
     distance: np.ndarray
+    law_shift: float = 0.0
+    potential_shift: np.ndarray | None = None
+
+    def distance_of(self, a: str, b: str) -> float:
+        """R (Å) of the pair a–b in this sample."""
+        c = self.component
+        return float(self.distance[c.pair[c.edge(a, b)]])
+
+    def reorg_of(self, donor: str, acceptor: str) -> float:
+        """λ (eV) of the hop donor → acceptor in this sample."""
+        return float(self.reorg[self.component.edge(donor, acceptor)])
+
+    def potential_shift_of(self, uid: str) -> float:
+        """Shift (V) of a cofactor's potential from the one used, in this sample."""
+        if self.potential_shift is None:
+            return 0.0
+        return float(self.potential_shift[self.component.index[uid]])
 
     def rate_matrix(self) -> np.ndarray:
         """Dense n × n matrix of rates, ``[i, j]`` for the hop i → j (s⁻¹)."""
