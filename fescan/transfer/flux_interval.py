@@ -44,15 +44,20 @@ def reservoir_potentials(result: Any) -> tuple[float, float] | None:
 
 
 def _site(result: Any, uid: str) -> tuple[float, ...]:
-    """Couples (V) of one path site: two for a two-electron cofactor with known couples, else one."""
+    """Couples (V) of one path site, as the scan's steady state takes them.
+
+    Two for a two-electron cofactor whose node carries its couples (``parameters``)
+    and is not a one-electron carrier; else one: the node's working couple as an
+    acceptor when it has ``parameters``, else its potential.
+    """
     node = result.graph.nodes[uid]
     p = node.get("parameters")
-    if p is not None and getattr(p, "two_electron", False) and not getattr(p, "one_electron_carrier", False):
-        try:
+    try:
+        if p is not None and p.two_electron and not p.one_electron_carrier:
             return tuple(float(p.couple(s).e_v) for s in ("ox/sq", "sq/red"))
-        except (AttributeError, KeyError, TypeError, ValueError):
-            pass
-    e = float(result.potentials[uid].e_v)
+        e = float((p.working(entry=False) if p is not None else node.get("potential", result.potentials[uid])).e_v)
+    except (AttributeError, KeyError, TypeError, ValueError):
+        e = float(result.potentials[uid].e_v)
     return (e if math.isfinite(e) else 0.0,)
 
 

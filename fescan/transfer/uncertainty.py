@@ -58,30 +58,34 @@ __all__ = [
 ]
 
 
-def log10_rate_slopes(
-    distance: float, dg: float, reorg: float = DEFAULT_REORG, packing_density: float = DEFAULT_PACKING_DENSITY,
-    temperature: float = 298.15,
-) -> tuple[float, float]:
-    """∂log10k/∂R (per Å) and ∂log10k/∂ΔG (per eV) of the Moser–Dutton law.
+try:  # the rate-law module carries the slopes once the energetics work lands there
+    from fescan.transfer.rate_law import log10_rate_slopes  # type: ignore[attr-defined]
+except ImportError:  # until then, the same derivatives here
 
-    Kept here until the rate-law module carries its own slopes. At ΔG = 0 (the
-    law's kink) the RMS of the two one-sided slopes is returned.
+    def log10_rate_slopes(
+        distance: float, dg: float, reorg: float = DEFAULT_REORG, packing_density: float = DEFAULT_PACKING_DENSITY,
+        temperature: float = 298.15,
+    ) -> tuple[float, float]:
+        """∂log10k/∂R (per Å) and ∂log10k/∂ΔG (per eV) of the Moser–Dutton law.
 
-    Examples
-    --------
-    >>> [round(s, 4) for s in log10_rate_slopes(10.0, -0.35, reorg=0.7)]
-    [-0.592, -3.1]
-    """
-    from fescan.core.constants import kt_ln10_ev
+        Kept here until the rate-law module carries its own slopes. At ΔG = 0 (the
+        law's kink) the RMS of the two one-sided slopes is returned.
 
-    d_r = -(1.2 - 0.8 * packing_density) if distance > CONTACT_DISTANCE else 0.0
-    down = -6.2 * (dg + reorg) / reorg
-    up = 6.2 * (reorg - dg) / reorg - 1.0 / kt_ln10_ev(temperature)
-    if dg < 0:
-        return d_r, down
-    if dg > 0:
-        return d_r, up
-    return d_r, -math.sqrt(0.5 * (down**2 + up**2))
+        Examples
+        --------
+        >>> [round(s, 4) for s in log10_rate_slopes(10.0, -0.35, reorg=0.7)]
+        [-0.592, -3.1]
+        """
+        from fescan.core.constants import kt_ln10_ev
+
+        d_r = -(1.2 - 0.8 * packing_density) if distance > CONTACT_DISTANCE else 0.0
+        down = -6.2 * (dg + reorg) / reorg
+        up = 6.2 * (reorg - dg) / reorg - 1.0 / kt_ln10_ev(temperature)
+        if dg < 0:
+            return d_r, down
+        if dg > 0:
+            return d_r, up
+        return d_r, -math.sqrt(0.5 * (down**2 + up**2))
 
 
 def monte_carlo_log10_rate(
