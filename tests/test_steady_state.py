@@ -280,13 +280,16 @@ DOWNHILL_CHAINS = [
     ([(-0.40, -0.30), -0.33, -0.30, -0.25, -0.22, -0.10], [6.0, 10.0, 8.0, 12.0, 7.0], -0.32, 0.09),
     ([-0.30, -0.28, -0.25, -0.20, -0.15, -0.05, 0.02], [9.0, 11.0, 6.5, 9.0, 13.0, 8.0], -0.32, 0.09),
     ([-0.42, -0.38, -0.40, -0.30, -0.31, -0.20], [7.0, 7.0, 14.0, 7.0, 7.0], -0.41, -0.15),
+    # equal hops: ties in hop speed must not let finite differences jump between partitions
+    ([-0.30, -0.28, -0.26, -0.24, -0.22, -0.20, -0.18], [9.0] * 6, -0.32, 0.09),
 ]
 
 
 @pytest.mark.parametrize("pots, dists, e_src, e_snk", DOWNHILL_CHAINS)
 def test_cluster_mean_field_agrees_with_exact(pots, dists, e_src, e_snk):
     # Tolerance measured on 60 random downhill chains of 5-8 sites with 16-state blocks: flux
-    # within 0.018 decades (4 %), occupancies within 0.08 electron; asserted with margin.
+    # within 0.018 decades (4 %), occupancies within 0.08 electron; asserted with margin
+    # (the exact solution is the reference: the matrix-tree tests above check it).
     model = wire_model(pots, dists, e_src, e_snk)
     exact = solve_steady_state(model, method="exact")
     approx = solve_steady_state(model, method="cluster-mean-field", block_states=16)
@@ -296,7 +299,8 @@ def test_cluster_mean_field_agrees_with_exact(pots, dists, e_src, e_snk):
     assert approx.occupancy == pytest.approx(exact.occupancy, abs=0.1)
     # derivatives by central differences: the summation theorem holds, the bottleneck agrees
     assert math.fsum(approx.control) == pytest.approx(1.0, abs=1e-3)
-    assert approx.bottleneck == exact.bottleneck
+    neck = exact.steps.index(exact.bottleneck)  # near-ties allowed: within 0.05 of the top
+    assert approx.control[neck] >= max(approx.control) - 0.05
     assert approx.control == pytest.approx(exact.control, abs=0.1)
     # the one-site mean-field is cruder: within a factor 1.5 on these chains
     one_site = solve_steady_state(model, method="mean-field", derivatives=False)

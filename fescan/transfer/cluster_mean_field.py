@@ -122,7 +122,7 @@ def _sweep(net: KineticNetwork, blocks: list[list[int]], dist: list[np.ndarray]
 
 
 def solve_cluster_mean_field(net: KineticNetwork, start: list[np.ndarray], block_states: int,
-                             *, tol: float = 1e-10, max_sweeps: int = 40, memory: int = 6
+                             *, blocks: list[list[int]] | None = None, tol: float = 1e-10, max_sweeps: int = 40, memory: int = 6
                              ) -> tuple[list[np.ndarray], list[list[int]], list[np.ndarray]]:
     """Self-consistent block distributions (see the module docstring).
 
@@ -138,6 +138,9 @@ def solve_cluster_mean_field(net: KineticNetwork, start: list[np.ndarray], block
         Initial one-site distributions (the independent-site solution is a good start).
     block_states : int
         Largest number of occupancy states of one block.
+    blocks : list of list of int, optional
+        A fixed partition (e.g. the one of an unperturbed network, so that finite
+        differences do not jump between partitions); default :func:`blocks_by_rate`.
     tol : float
         Convergence: largest change of a log ratio over a sweep.
     max_sweeps : int
@@ -155,7 +158,8 @@ def solve_cluster_mean_field(net: KineticNetwork, start: list[np.ndarray], block
     block_probabilities : list of ndarray
         The stationary joint distribution of each block (mixed-radix order of its sites).
     """
-    blocks = blocks_by_rate(net, block_states)
+    if blocks is None:
+        blocks = blocks_by_rate(net, block_states)
     caps = net.capacity
     x = _log_ratios(start)
     xs, gs = [], []
@@ -178,11 +182,12 @@ def solve_cluster_mean_field(net: KineticNetwork, start: list[np.ndarray], block
                 x, xs, gs = g, [], []
         else:
             x = g
-    # slow modes left: Newton-type solve of G(x) - x = 0 (MINPACK hybrid, finite-difference Jacobian)
+    # slow modes left: a Newton-type solve of G(x) - x = 0 (MINPACK hybrid, finite-difference
+    # Jacobian) from the last iterate
     sol = optimize.root(lambda z: _log_ratios(_sweep(net, blocks, _from_log_ratios(z, caps))[0]) - z,
-                        x, method="hybr", options={"xtol": 1e-12})
+                        x, method="hybr", options={"xtol": 1e-13})
     dist, joint = _sweep(net, blocks, _from_log_ratios(sol.x, caps))
-    if np.max(np.abs(_log_ratios(dist) - sol.x)) < 1e3 * tol:
+    if np.max(np.abs(_log_ratios(dist) - sol.x)) < 1e-9:
         return dist, blocks, joint
     raise ConfigError(f"the cluster mean-field steady state was not found ({sol.message})")
 

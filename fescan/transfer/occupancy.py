@@ -44,7 +44,7 @@ __all__ = ["RESERVOIR", "KineticNetwork", "StateSpace", "ExactSolution", "state_
 #: End index used for a reservoir in :attr:`KineticNetwork.ends`.
 RESERVOIR: int = -1
 #: Below this many states the stationary state is found by a dense LU (faster for tiny blocks).
-_DENSE_BELOW: int = 300
+_DENSE_BELOW: int = 128
 
 
 @dataclass(frozen=True)
@@ -197,7 +197,7 @@ def _measured_step(net: KineticNetwork, space: StateSpace, p: np.ndarray,
 
 def _stationary(net: KineticNetwork, space: StateSpace, reference: int):
     """Stationary probabilities with one state's weight fixed, a solver for the same matrix
-    (``solve(rhs, trans)``) and the mask of the other states. Dense below 300 states (small
+    (``solve(rhs, trans)``) and the mask of the other states. Dense below 128 states (small
     blocks of the cluster approximation), sparse LU above."""
     n = net.n_states
     if n == 1:

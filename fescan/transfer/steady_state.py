@@ -9,15 +9,18 @@ Solution
 Up to ``max_exact_states`` occupancy states (default :data:`MAX_EXACT_STATES` = 2048, e.g.
 11 one-electron sites, or a flavin and 9 clusters = 1536) the master equation is solved
 exactly (:func:`fescan.transfer.occupancy.solve_exact`: sparse generator, one LU
-factorisation, dense below 300 states). The limit is set by the LU fill-in of the
+factorisation, dense below 128 states). The limit is set by the LU fill-in of the
 hypercube-like state graph: 4096 states take 0.5–5 s on a shared 2-core machine, 16 384 took
 30 s. Beyond the limit the cluster mean-field approximation is used
 (``method = "cluster-mean-field"``, :mod:`fescan.transfer.cluster_mean_field`): blocks of at
-most ``block_states`` states (default 256) solved exactly, cut at the slowest hops, coupled
-through one-site distributions. If its iteration does not settle, the independent-site
-mean-field is reported instead (``method = "mean-field"``). Both are exact at equilibrium.
-Agreement measured against the exact solution (scripts run while building this module;
-tests/test_steady_state.py keeps three such chains):
+most ``block_states`` states (default :data:`BLOCK_STATES` = 64) solved exactly, cut at the
+slowest hops, coupled through one-site distributions; its derivatives are central
+differences over re-solves on the same block partition (2 × (steps + couples) solves: a
+20-site chain takes about 10 s with derivatives on a loaded 2-core machine; pass
+``derivatives=False`` when only flux and occupancy are needed). If its iteration does not
+settle, the independent-site mean-field is reported instead (``method = "mean-field"``).
+Both are exact at equilibrium. Agreement measured against the exact solution (scripts run
+while building this module; tests/test_steady_state.py keeps four such chains):
 
 * chains whose potentials rise towards the sink (60 random chains of 5–8 sites, one
   two-electron entry in half of them, edges 5–14 Å, reservoirs 0.2–0.5 V apart), blocks of
@@ -69,7 +72,7 @@ __all__ = ["MAX_EXACT_STATES", "BLOCK_STATES", "FIRST_PASSAGE_LABEL", "SteadySta
 #: Largest occupancy state space solved exactly (beyond it: mean-field).
 MAX_EXACT_STATES: int = 2**11
 #: Largest block of the cluster mean-field approximation, in occupancy states.
-BLOCK_STATES: int = 2**8
+BLOCK_STATES: int = 2**6
 #: What :func:`first_passage_time` measures, in user words.
 FIRST_PASSAGE_LABEL: str = "one electron entering an oxidised chain"
 _METHODS = ("auto", "exact", "cluster-mean-field", "mean-field")
@@ -208,20 +211,23 @@ def _exact(model: WireModel) -> tuple[float, list[np.ndarray], np.ndarray, np.nd
 
 
 def _approximate_flux(model: WireModel, net: KineticNetwork, start: list[np.ndarray],
-                      method: str, block_states: int, warm: bool = False
-                      ) -> tuple[float, list[np.ndarray], str]:
-    """Flux, one-site distributions and the method used (cluster falls back to one-site).
+                      method: str, block_states: int, blocks: list[list[int]] | None = None,
+                      ) -> tuple[float, list[np.ndarray], str, list[list[int]] | None]:
+    """Flux, one-site distributions, the method used (cluster falls back to one-site), blocks.
 
-    *warm*: *start* is already a (cluster) solution of a nearby network; skip the one-site
-    solve that otherwise starts the cluster iteration.
+    Given *blocks* (the partition of the unperturbed network), *start* is taken to be a
+    cluster solution of a nearby network and the one-site solve that otherwise starts the
+    cluster iteration is skipped.
     """
-    dist = start if warm and method == "cluster-mean-field" else solve_mean_field(net, start)
+    warm = blocks is not None and method == "cluster-mean-field"
+    dist = start if warm else solve_mean_field(net, start)
     used = "mean-field"
     if method == "cluster-mean-field":
         try:
-            dist, blocks, joint = solve_cluster_mean_field(net, dist, block_states)
+            dist, blocks, joint = solve_cluster_mean_field(net, dist, block_states, blocks=blocks)
         except ConfigError:  # the block iteration did not settle: keep the one-site solution
-            pass
+            if warm:
+                raise
         else:
             net_cur, gross = block_currents(net, dist, blocks, joint)
             used = method
@@ -229,20 +235,22 @@ def _approximate_flux(model: WireModel, net: KineticNetwork, start: list[np.ndar
         net_cur, gross = step_currents_mean_field(net, dist)
     cuts = list(range(len(net.ends))) if model.is_chain else [0, len(net.ends) - 1]
     best = min(cuts, key=lambda s: gross[s])
-    return float(net_cur[best]), dist, used
+    return float(net_cur[best]), dist, used, blocks
 
 
 def _approximate(model: WireModel, method: str, block_states: int, derivatives: bool
                  ) -> tuple[float, list[np.ndarray], np.ndarray, np.ndarray, str]:
     """Flux, distributions, central-difference derivatives and the method used."""
     net = model.network
-    flux, dist, method = _approximate_flux(model, net, _start_distributions(model), method,
-                                           block_states)
+    flux, dist, method, blocks = _approximate_flux(model, net, _start_distributions(model),
+                                                   method, block_states)
     n_steps, n_par = len(net.ends), int(sum(net.capacity)) + 2
     d_step, d_par = np.full(n_steps, np.nan), np.full(n_par, np.nan)
     if derivatives:
         def solve(perturbed: KineticNetwork) -> float:
-            return _approximate_flux(model, perturbed, dist, method, block_states, warm=True)[0]
+            if method == "mean-field":
+                return _approximate_flux(model, perturbed, dist, method, block_states)[0]
+            return _approximate_flux(model, perturbed, dist, method, block_states, blocks)[0]
 
         for s in range(n_steps):
             fac = np.ones(n_steps)
