@@ -120,8 +120,8 @@ def _interval_table(result: CompareResult) -> tuple[str, list[str], list[list[st
         rows.append([_label(result.model, h.donor), _label(result.model, h.acceptor),
                      f"{h.edge:.2f} ± {h.sigma_edge:.2f}", f"{h.log10_k:.2f}",
                      f"{h.log10_k_95[0]:.2f} to {h.log10_k_95[1]:.2f}", f"{format_time(lo)} to {format_time(hi)}"])
-    title = (f"Model wire with 95% intervals (coordinate error from B-factors, B = 8π²⟨u²⟩; potential ranges; "
-             f"{u.method}, {u.n_samples} samples)")
+    basis = getattr(u, "basis", None)
+    title = f"Model wire with intervals ({basis()})" if callable(basis) else "Model wire with 95% intervals"
     summary = ""
     if u.summed_hop_time_95:
         lo, hi = u.summed_hop_time_95
