@@ -98,11 +98,11 @@ def read_text(name: str, *, max_bytes: int | None = None) -> tuple[bytes, bool]:
             if st.st_size > cap:
                 raise StructureFileError(f"{name}: {st.st_size} bytes, more than the {_size(cap)} "
                                          "fescan reads (not a single structure?)")
-            rest = handle.read(cap + 1 - len(head))
+            rest = handle.read(max(0, st.st_size + 1 - len(head)))  # read(n) reserves n bytes: never the cap
     except OSError as exc:
         raise StructureFileError(f"{name}: cannot be read ({os_reason(exc)})") from exc
     data = head + rest
-    if len(data) > cap:  # grew while being read
+    if len(data) > cap:  # grew past the cap while being read
         raise StructureFileError(f"{name}: more than the {_size(cap)} fescan reads")
     return data, False
 

@@ -41,15 +41,17 @@ import logging
 import multiprocessing as mp
 import os
 import signal
+import sys
 import time
+import types
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from multiprocessing.connection import Connection, wait
 from typing import Any
 
-from fescan.core.errors import ConfigError
+from fescan.core.errors import ConfigError, FescanError
 
-__all__ = ["TaskResult", "ProcessPool", "DaskEngine", "default_workers"]
+__all__ = ["TaskResult", "ProcessPool", "DaskEngine", "WorkerStartError", "default_workers"]
 
 logger = logging.getLogger(__name__)
 
@@ -100,14 +102,17 @@ def _set_memory_limit(limit_bytes: int | None) -> None:
 
 def _worker_main(conn: Connection, func: Callable[..., Any], memory_limit: int | None,
                  environ: dict[str, str]) -> None:
-    """Loop of one worker: receive ``(index, args)``, run ``func(*args)``, send the outcome."""
+    """Loop of one worker: say it is ready, receive ``(index, args)``, run ``func(*args)``, send the outcome."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent handles Ctrl-C
     # A forkserver child inherits the environment of the forkserver, which may be older
     # than the parent's: take the parent's, as a spawned child would.
     for k in set(os.environ) - set(environ):
         del os.environ[k]
     os.environ.update(environ)
+    if os.environ.get("FESCAN_TEST_WORKER_START_FAIL"):  # test-only: a worker that cannot start
+        os._exit(3)
     _set_memory_limit(memory_limit)
+    conn.send(("ready", os.getpid(), None))
     while True:
         try:
             msg = conn.recv()
@@ -141,15 +146,88 @@ def _cap_text(limit: int | None) -> str:
     return f"{limit / _GIB:g} GiB" if limit else "none"
 
 
+class WorkerStartError(FescanError):
+    """Worker processes cannot be started: the survey cannot run at all."""
+
+
+_START_TIMEOUT = 120.0  # seconds a new worker may take to import fescan and say it is ready
+
+
+def _clean_sys_path() -> list[str]:
+    """``sys.path`` for workers: fescan's own folder first, no entry relative to the working folder."""
+    import fescan
+
+    home = os.path.dirname(os.path.dirname(os.path.abspath(fescan.__file__)))
+    out = [home]
+    for entry in sys.path:
+        if not entry or not os.path.isabs(entry):
+            continue  # '' and relative entries follow the working folder: a folder named fescan there
+        if entry not in out:  # must not shadow the package the parent runs
+            out.append(entry)
+    return out
+
+
+@contextlib.contextmanager
+def _neutral_launch() -> Iterator[None]:
+    """Start processes without the caller's ``__main__`` and with a clean ``sys.path``.
+
+    multiprocessing re-imports the main script in every child (and in the forkserver) from
+    ``__main__.__file__``: a script without ``if __name__ == "__main__"`` would run again
+    there. The workers need nothing from ``__main__`` (their function lives in fescan), so
+    a bare module stands in for it while processes start.
+    """
+    saved_main, saved_path = sys.modules.get("__main__"), sys.path[:]
+    sys.modules["__main__"] = types.ModuleType("__main__")
+    sys.path[:] = _clean_sys_path()
+    try:
+        yield
+    finally:
+        sys.path[:] = saved_path
+        if saved_main is not None:
+            sys.modules["__main__"] = saved_main
+
+
 class _Worker:
     def __init__(self, ctx: Any, func: Callable[..., Any], memory_limit: int | None) -> None:
         self.conn, child = ctx.Pipe(duplex=True)
         self.proc = ctx.Process(target=_worker_main, args=(child, func, memory_limit, dict(os.environ)),
                                 daemon=True)
-        self.proc.start()
+        try:
+            with _neutral_launch():
+                self.proc.start()
+        except (OSError, RuntimeError, ValueError) as exc:
+            self.conn.close()
+            child.close()
+            raise WorkerStartError(f"cannot start worker processes: {type(exc).__name__}: {exc}") from exc
         child.close()
         self.task: int | None = None
         self.started = 0.0
+        self.ready = False
+
+    def wait_ready(self) -> None:
+        """Wait for the worker's first message; raise :class:`WorkerStartError` if it never comes."""
+        if self.ready:
+            return
+        deadline = time.monotonic() + _START_TIMEOUT
+        while time.monotonic() < deadline:
+            if self.conn.poll(0.05):
+                try:
+                    msg = self.conn.recv()
+                except (EOFError, OSError):
+                    break
+                if msg[0] == "ready":
+                    self.ready = True
+                    return
+            if not self.proc.is_alive() and not self.conn.poll(0):
+                break
+        self.proc.join(timeout=1)
+        code = self.proc.exitcode
+        self.stop(kill=True)
+        raise WorkerStartError(
+            "worker processes cannot start (" + (_signal_text(code) if code is not None else
+                                                 f"no sign of life in {_START_TIMEOUT:g} s")
+            + "); no file was analysed or recorded as failed. Run with --workers 1 -v to see more, "
+              "or check that fescan imports in a fresh Python")
 
     def stop(self, *, kill: bool = False) -> None:
         if kill and self.proc.is_alive():
@@ -185,7 +263,7 @@ class ProcessPool:
         self.memory_limit = int(memory_limit * _GIB) if memory_limit else None
         if "forkserver" in mp.get_all_start_methods():
             self._ctx = mp.get_context("forkserver")
-            self._ctx.set_forkserver_preload(["fescan.survey"])
+            self._ctx.set_forkserver_preload(["fescan.surveys.run"])
         else:  # pragma: no cover - Windows
             self._ctx = mp.get_context("spawn")
 
@@ -224,12 +302,14 @@ class ProcessPool:
     def _give(self, w: _Worker, index: int, tasks: Sequence[tuple], func: Callable[..., Any]) -> _Worker:
         """Send task ``index`` to ``w``, or to a new worker when ``w`` died while idle."""
         try:
+            w.wait_ready()
             w.conn.send((index, tasks[index]))
         except OSError:  # BrokenPipeError: killed while idle (e.g. by the system)
             w.stop(kill=True)
             w = _Worker(self._ctx, func, self.memory_limit)
+            w.wait_ready()
             w.conn.send((index, tasks[index]))
-        w.task, w.started = index, time.monotonic()
+        w.task, w.started = index, time.monotonic()  # run time only: counted once the worker is ready
         return w
 
     def _wait_time(self, busy: list[_Worker]) -> float:

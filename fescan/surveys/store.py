@@ -27,12 +27,13 @@ Parts are always Parquet; the merged tables are Parquet or CSV.
 from __future__ import annotations
 
 import contextlib
+import errno
 import functools
 import json
 import logging
 import os
 import time
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -43,6 +44,7 @@ import pyarrow.parquet as pq
 
 from fescan.analysis.tables import SCHEMAS, empty_table, to_frame
 from fescan.core.errors import ConfigError, FescanError
+from fescan.surveys.lock import FolderLock
 
 __all__ = [
     "STATE_DIR",
@@ -51,6 +53,7 @@ __all__ = [
     "file_key",
     "arrow_schema",
     "SurveyStore",
+    "SurveyWriteError",
     "read_table",
     "tables_markdown",
 ]
@@ -65,6 +68,7 @@ TABLE_NAMES: tuple[str, ...] = (
     "structures", "failures", "cofactors", "ligands", "flags", "pairs", "hops", "wires",
 )
 
+_MERGE_MANIFEST = "merge.json"  # tables being renamed into place (see SurveyStore.merge)
 _MERGE_ROWS = 65536  # rows buffered before a row group of a merged Parquet table is written
 
 
@@ -93,6 +97,23 @@ def arrow_schema(name: str) -> pa.Schema:
     ``float64``).
     """
     return pa.Schema.from_pandas(empty_table(name), preserve_index=False)
+
+
+class SurveyWriteError(FescanError):
+    """The survey folder cannot be written (disk full, read-only, quota...)."""
+
+
+@contextlib.contextmanager
+def _writing(folder: Path, what: str) -> Iterator[None]:
+    """Turn an OSError while writing into one clear :class:`SurveyWriteError`."""
+    try:
+        yield
+    except OSError as exc:
+        reason = exc.strerror or str(exc)
+        hint = " (disk full?)" if exc.errno in (errno.ENOSPC, errno.EDQUOT) else ""
+        raise SurveyWriteError(
+            f"{folder}: cannot write {what}: {reason}{hint}; the files committed before are kept: "
+            "fix this and run the same command again to resume") from exc
 
 
 def _fsync_dir(path: Path) -> None:
@@ -135,12 +156,38 @@ class SurveyStore:
                 (self.parts / name).mkdir(parents=True, exist_ok=True)
         except OSError as exc:
             raise FescanError(f"{self.out_dir}: cannot create the survey folder ({exc.strerror or exc})") from exc
-        self._check_settings(scan_options)
-        self._run = f"{time.time_ns():020d}-{os.getpid()}"
-        self._seq = 0
-        self.batches: dict[str, list[dict]] = {}
-        self._load_index()
-        self._remove_orphans()
+        # the lock comes before anything that reads or tidies the folder: never delete another run's parts
+        self._lock = FolderLock(self.state / "lock", self.out_dir)
+        self._lock.acquire()
+        try:
+            with _writing(self.out_dir, "the survey settings"):
+                self._check_settings(scan_options)
+            self._run = f"{time.time_ns():020d}-{os.getpid()}"
+            self._seq = 0
+            self.batches: dict[str, list[dict]] = {}
+            with _writing(self.out_dir, "the survey index"):
+                self._load_index()
+                self._finish_merge()
+                self._remove_orphans()
+        except BaseException:
+            self.close()
+            raise
+
+    def close(self) -> None:
+        """Release the folder lock (the store can no longer be written)."""
+        lock = getattr(self, "_lock", None)
+        if lock is not None:
+            lock.release()
+
+    def __enter__(self) -> SurveyStore:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def __del__(self) -> None:  # a store dropped without close() must not keep the folder locked
+        with contextlib.suppress(Exception):
+            self.close()
 
     # --- opening -------------------------------------------------------------------
 
@@ -183,6 +230,21 @@ class SurveyStore:
                 fh.truncate(good)
                 os.fsync(fh.fileno())
 
+    def _finish_merge(self) -> None:
+        """Complete a merge killed while it renamed its tables into place (all or none are new)."""
+        manifest = self.state / _MERGE_MANIFEST
+        if not manifest.exists():
+            return
+        try:
+            pairs = json.loads(manifest.read_text(encoding="utf-8"))["tables"]
+        except (OSError, ValueError, KeyError, TypeError):
+            pairs = []  # the manifest itself was cut short: the old tables were never touched
+        for tmp, final in pairs:
+            if (self.out_dir / tmp).exists():
+                os.replace(self.out_dir / tmp, self.out_dir / final)
+        _fsync_dir(self.out_dir)
+        manifest.unlink(missing_ok=True)
+
     def _remove_orphans(self) -> None:
         """Delete temporary files and parts of batches never committed."""
         for table_dir in self.parts.iterdir():
@@ -224,6 +286,18 @@ class SurveyStore:
         """
         batch = f"{self._run}-{self._seq:06d}"
         self._seq += 1
+        try:
+            with _writing(self.out_dir, f"batch {batch}"):
+                self._commit(batch, outcomes, keys)
+        except BaseException:
+            for name in TABLE_NAMES:  # leave no part of an uncommitted batch (the next run would drop it anyway)
+                for f in (self.parts / name / f"{batch}.parquet", self.parts / name / f"{batch}.parquet.tmp"):
+                    with contextlib.suppress(OSError):
+                        f.unlink(missing_ok=True)
+            raise
+        return batch
+
+    def _commit(self, batch: str, outcomes: list[dict], keys: list[FileKey]) -> None:
         rows: dict[str, list[dict]] = {name: [] for name in TABLE_NAMES}
         for o in outcomes:
             rows["structures"].append(o["structure"])
@@ -248,7 +322,6 @@ class SurveyStore:
             fh.flush()
             os.fsync(fh.fileno())
         self.batches[batch] = files
-        return batch
 
     # --- merging -------------------------------------------------------------------
 
@@ -274,16 +347,33 @@ class SurveyStore:
             raise ConfigError(f"table format must be 'parquet' or 'csv', not {table_format!r}")
         keep = self._rows_to_keep()
         written: dict[str, Path] = {}
-        for name in TABLE_NAMES:
-            final = self.out_dir / f"{name}.{table_format}"
-            tmp = final.with_name(final.name + ".tmp")
-            chunks = self._filtered_parts(name, keep)
-            if table_format == "parquet":
-                _write_parquet(tmp, name, chunks, on_chunk)
-            else:
-                _write_csv(tmp, name, chunks, on_chunk)
-            _replace_durably(tmp, final)
-            written[name] = final
+        pairs: list[tuple[Path, Path]] = []
+        try:
+            with _writing(self.out_dir, "the merged tables"):
+                for name in TABLE_NAMES:  # every table to a temporary name first...
+                    final = self.out_dir / f"{name}.{table_format}"
+                    tmp = final.with_name(final.name + ".tmp")
+                    pairs.append((tmp, final))
+                    chunks = self._filtered_parts(name, keep)
+                    if table_format == "parquet":
+                        _write_parquet(tmp, name, chunks, on_chunk)
+                    else:
+                        _write_csv(tmp, name, chunks, on_chunk)
+                    with open(tmp, "rb+") as fh:
+                        os.fsync(fh.fileno())
+                    written[name] = final
+                # ...then a manifest, so that a kill during the renames is completed by the next run
+                manifest = self.state / _MERGE_MANIFEST
+                tmp_manifest = manifest.with_name(manifest.name + ".tmp")
+                tmp_manifest.write_text(json.dumps({"tables": [[t.name, f.name] for t, f in pairs]}) + "\n",
+                                        encoding="utf-8")
+                _replace_durably(tmp_manifest, manifest)
+        except BaseException:
+            for tmp, _ in pairs:
+                with contextlib.suppress(OSError):
+                    tmp.unlink(missing_ok=True)
+            raise
+        self._finish_merge()
         return written
 
     def _rows_to_keep(self) -> dict[str, set[str]]:
