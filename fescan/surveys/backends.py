@@ -28,9 +28,10 @@ gemmi... before the first file), so an allocation past it fails with
 
 :class:`DaskEngine` runs the same function on Dask distributed (``pip install
 fescan[dask]``): at a scheduler address, or on a ``LocalCluster`` of worker
-processes on loopback. There the memory cap is Dask's per-worker
-``memory_limit`` (the nanny restarts a worker past it) and a task over the
-time limit is reported as a timeout but cannot be stopped on its worker.
+processes on loopback. On its Dask worker each task runs in a child process
+(:func:`run_isolated`, one task of a :class:`ProcessPool`), so the time limit
+counts run time only and stops the task, the memory cap is the child's, and a
+crash is recorded exactly as the process engine records it.
 """
 
 from __future__ import annotations
@@ -42,6 +43,7 @@ import multiprocessing as mp
 import os
 import signal
 import sys
+import threading
 import time
 import types
 from collections.abc import Callable, Iterator, Sequence
@@ -51,7 +53,7 @@ from typing import Any
 
 from fescan.core.errors import ConfigError, FescanError
 
-__all__ = ["TaskResult", "ProcessPool", "DaskEngine", "WorkerStartError", "default_workers"]
+__all__ = ["TaskResult", "ProcessPool", "DaskEngine", "WorkerStartError", "default_workers", "run_isolated"]
 
 logger = logging.getLogger(__name__)
 
@@ -340,8 +342,35 @@ class ProcessPool:
         return None
 
 
+_ISOLATION_LOCK = threading.Lock()
+
+
+def run_isolated(func: Callable[..., Any], args: tuple, time_limit: float | None,
+                 memory_limit: int | None) -> tuple[str, Any, float]:
+    """Run ``func(*args)`` in a child process of this one, as :class:`ProcessPool` does one task.
+
+    Used on Dask workers: the time limit then counts run time only (not time queued
+    on the scheduler) and a task over it is stopped; a crash or a memory cap hit
+    costs the child, not the Dask worker, and is recorded as the process engine
+    records it. Returns ``(kind, value, seconds)``.
+    """
+    me = mp.current_process()
+    with _ISOLATION_LOCK:  # Dask worker threads share the process: one launch at a time
+        daemon = me._config.get("daemon")
+        me._config["daemon"] = False  # Dask worker processes are daemonic; this child is ours to stop
+        try:
+            pool = ProcessPool(1, time_limit, memory_limit / _GIB if memory_limit else None)
+            runner = pool.run(func, [args])
+            first = next(runner)
+        finally:
+            me._config["daemon"] = daemon
+    for _ in runner:  # let the pool stop its worker
+        pass
+    return first.kind, first.value, first.seconds
+
+
 class DaskEngine:
-    """Run the per-file function on Dask distributed.
+    """Run the per-file function on Dask distributed, each task in a child process of its Dask worker.
 
     Parameters
     ----------
@@ -351,11 +380,15 @@ class DaskEngine:
         Address of a running scheduler (``tcp://host:8786``); ``None`` starts a
         ``LocalCluster`` of single-threaded worker processes on 127.0.0.1.
     time_limit : float or None
-        Seconds after which a task is reported as a timeout (it keeps running
-        on its worker; Dask cannot stop it).
+        Seconds one task may run (on its worker, queueing not counted) before it is stopped.
     memory_limit : float or None
-        Memory limit of each ``LocalCluster`` worker in GiB (Dask's nanny
-        restarts a worker past it).
+        Address-space cap in GiB of the child process that runs each task.
+
+    Notes
+    -----
+    Every task runs through :func:`run_isolated` on its Dask worker, so a timeout,
+    a memory cap hit or a crash ends as it does with :class:`ProcessPool`, with the
+    same message, and the Dask worker lives on.
     """
 
     def __init__(self, workers: int, scheduler: str | None = None, time_limit: float | None = 300.0,
@@ -365,7 +398,7 @@ class DaskEngine:
         self.workers = max(1, workers)
         self.scheduler = scheduler
         self.time_limit = time_limit or None
-        self.memory_limit = f"{memory_limit}GiB" if memory_limit else None
+        self.memory_limit = int(memory_limit * _GIB) if memory_limit else None
 
     def run(self, func: Callable[..., Any], tasks: Sequence[tuple]) -> Iterator[TaskResult]:
         """Run ``func(*args)`` for every argument tuple on Dask; yield results as tasks end."""
@@ -384,7 +417,7 @@ class DaskEngine:
             else:
                 cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1, processes=True,
                                        host="127.0.0.1", dashboard_address="127.0.0.1:0",
-                                       memory_limit=self.memory_limit or 0, silence_logs=logging.ERROR)
+                                       memory_limit=0, silence_logs=logging.ERROR)
                 client = Client(cluster)
             yield from self._drive(client, as_completed, func, tasks)
         finally:
@@ -396,54 +429,30 @@ class DaskEngine:
 
     def _drive(self, client: Any, as_completed: Any, func: Callable[..., Any],
                tasks: Sequence[tuple]) -> Iterator[TaskResult]:
-        window = 4 * self.workers  # futures in flight: bounds memory on the workers and here
+        threads = sum(client.nthreads().values()) or self.workers
+        window = 2 * max(1, threads)  # futures in flight: bounds memory on the workers and here
         todo = iter(range(len(tasks)))
         started: dict[Any, tuple[int, float]] = {}
-        self._late: set[Any] = set()
 
         def submit() -> Any:
             i = next(todo, None)
             if i is None:
                 return None
-            fut = client.submit(func, *tasks[i], pure=False)
+            fut = client.submit(run_isolated, func, tasks[i], self.time_limit, self.memory_limit, pure=False)
             started[fut] = (i, time.monotonic())
             return fut
 
         ac = as_completed([f for f in (submit() for _ in range(window)) if f is not None])
-        while started:
-            for fut in self._next_batch(ac, started):
-                if fut not in started:  # a cancelled (timed-out) future, already reported
-                    continue
-                i, t0 = started.pop(fut)
-                yield self._result(fut, i, time.monotonic() - t0)
-                new = submit()
-                if new is not None:
-                    ac.add(new)
-
-    def _next_batch(self, ac: Any, started: dict[Any, tuple[int, float]]) -> list[Any]:
-        """Finished futures, or futures over the time limit (cancelled), whichever comes first."""
-        if not self.time_limit:
-            return [next(ac)]
-        while True:
-            with contextlib.suppress(StopIteration):
-                got = ac.next_batch(block=False)
-                if got:
-                    return got
-            now = time.monotonic()
-            late = [f for f, (_, t0) in started.items() if now - t0 > self.time_limit]
-            if late:
-                for f in late:
-                    f.cancel()
-                self._late.update(late)
-                return late
-            time.sleep(0.02)
+        for fut in ac:
+            i, t0 = started.pop(fut)
+            yield self._result(fut, i, time.monotonic() - t0)
+            new = submit()
+            if new is not None:
+                ac.add(new)
 
     def _result(self, fut: Any, i: int, elapsed: float) -> TaskResult:
-        if fut in self._late:
-            return TaskResult(i, "timeout", f"over the time limit of {self.time_limit:g} s "
-                                            "(still running on its Dask worker)", elapsed)
         try:
-            return TaskResult(i, "done", fut.result(), elapsed)
+            kind, value, seconds = fut.result()
         except MemoryError:
             return TaskResult(i, "memory", "out of memory on a Dask worker", elapsed)
         except Exception as exc:
@@ -451,3 +460,4 @@ class DaskEngine:
             if name == "KilledWorker":
                 return TaskResult(i, "crash", "Dask workers running this file died (KilledWorker)", elapsed)
             return TaskResult(i, "crash", f"{name} on a Dask worker: {exc}", elapsed)
+        return TaskResult(i, kind, value, seconds)
