@@ -72,7 +72,9 @@ def run(a: argparse.Namespace) -> int:
             json.dump(summary.to_dict(), fh, indent=1)
             fh.write("\n")
     if not a.quiet:
-        sys.stdout.write(summary.to_text() + "\n")
+        from fescan.report.text import strip_controls
+
+        sys.stdout.write(strip_controls(summary.to_text()) + "\n")
     if summary.structures_failed and not summary.structures_ok:
         sys.stderr.write(f"fescan: error: every one of the {summary.structures_failed} file(s) in {a.out} failed "
                          f"(see {a.out}/failures.{a.format})\n")

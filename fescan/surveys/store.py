@@ -55,6 +55,7 @@ __all__ = [
     "SurveyStore",
     "SurveyWriteError",
     "read_table",
+    "neutralise_csv",
     "tables_markdown",
 ]
 
@@ -415,6 +416,41 @@ def _write_parquet(tmp: Path, name: str, chunks: Iterable[pa.Table],
             writer.write_table(pa.concat_tables(buf))
 
 
+# A text cell starting with one of these is run as a formula by spreadsheet programs
+# (CSV injection; OWASP, common practice, no primary source); a quote in front keeps it text.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$"
+
+
+def neutralise_csv(df: pd.DataFrame) -> pd.DataFrame:
+    """Text cells that a spreadsheet would run as a formula, prefixed with ``'``; numbers untouched.
+
+    Only text columns are looked at; a text cell that is a plain number (``-1.5``) stays as it is.
+    :func:`read_table` takes the quote off again.
+    """
+    out = None
+    for col in df.columns:
+        s = df[col]
+        if not (pd.api.types.is_string_dtype(s.dtype) or s.dtype == object):
+            continue
+        text = s.astype("string")
+        risky = text.str.startswith(_FORMULA_START).fillna(False) & ~text.str.match(_PLAIN_NUMBER).fillna(False)
+        if risky.any():
+            out = df.copy() if out is None else out
+            out[col] = text.mask(risky, "'" + text)
+    return df if out is None else out
+
+
+def _unneutralise(df: pd.DataFrame) -> pd.DataFrame:
+    for col in df.columns:
+        if pd.api.types.is_string_dtype(df[col].dtype):
+            text = df[col]
+            quoted = text.str.startswith(tuple("'" + c for c in _FORMULA_START)).fillna(False)
+            if quoted.any():
+                df[col] = text.mask(quoted, text.str.slice(1))
+    return df
+
+
 def _write_csv(tmp: Path, name: str, chunks: Iterable[pa.Table],
                on_chunk: Callable[[str, pa.Table], None] | None) -> None:
     header = True
@@ -422,7 +458,7 @@ def _write_csv(tmp: Path, name: str, chunks: Iterable[pa.Table],
         for t in chunks:
             if on_chunk:
                 on_chunk(name, t)
-            t.to_pandas().to_csv(fh, header=header, index=False)
+            neutralise_csv(t.to_pandas()).to_csv(fh, header=header, index=False)
             header = False
         if header:  # no rows at all: still write the header line
             empty_table(name).to_csv(fh, index=False)
@@ -447,7 +483,7 @@ def read_table(path: str | os.PathLike[str], name: str) -> pd.DataFrame:
     cols = SCHEMAS[name]
     dtypes = {c.name: c.dtype for c in cols}
     if p.suffix == ".csv":
-        df = pd.read_csv(p, dtype=dtypes, keep_default_na=False, na_values=[""])
+        df = _unneutralise(pd.read_csv(p, dtype=dtypes, keep_default_na=False, na_values=[""]))
     else:
         df = pd.read_parquet(p)
     return df.astype(dtypes)
