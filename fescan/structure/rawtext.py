@@ -39,7 +39,9 @@ _UTF8_BOM = b"\xef\xbb\xbf"
 _HEAD = 65536  # bytes looked at to tell text from binary data
 _CHUNK = 1 << 22
 # Bytes that may appear in a text file; anything else (NUL, most C0 controls) means binary.
-_TEXT_BYTES = bytes(range(32, 256)) + b"\t\n\r\f\v\x1a"
+# BEL, BS and ESC are let through: terminal escape sequences in a title are text to be
+# shown without them (fescan.report.text.strip_controls), not a reason to refuse the file.
+_TEXT_BYTES = bytes(range(32, 256)) + b"\t\n\r\f\v\x1a\x07\x08\x1b"
 
 
 def os_reason(exc: Exception) -> str:
