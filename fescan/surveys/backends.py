@@ -263,6 +263,7 @@ class ProcessPool:
         self.workers = workers
         self.time_limit = time_limit or None
         self.memory_limit = int(memory_limit * _GIB) if memory_limit else None
+        self._ever_ready = False
         if "forkserver" in mp.get_all_start_methods():
             self._ctx = mp.get_context("forkserver")
             self._ctx.set_forkserver_preload(["fescan.surveys.run"])
@@ -304,15 +305,32 @@ class ProcessPool:
     def _give(self, w: _Worker, index: int, tasks: Sequence[tuple], func: Callable[..., Any]) -> _Worker:
         """Send task ``index`` to ``w``, or to a new worker when ``w`` died while idle."""
         try:
-            w.wait_ready()
+            w = self._ready(w, func)
             w.conn.send((index, tasks[index]))
         except OSError:  # BrokenPipeError: killed while idle (e.g. by the system)
             w.stop(kill=True)
-            w = _Worker(self._ctx, func, self.memory_limit)
-            w.wait_ready()
+            w = self._ready(_Worker(self._ctx, func, self.memory_limit), func)
             w.conn.send((index, tasks[index]))
         w.task, w.started = index, time.monotonic()  # run time only: counted once the worker is ready
         return w
+
+    def _ready(self, w: _Worker, func: Callable[..., Any]) -> _Worker:
+        """``w`` once it is ready, or a replacement.
+
+        Before any worker has started, a failure to start stops the survey
+        (:class:`WorkerStartError`): nothing would ever run. After that, a worker
+        killed while starting (by the system, say) is replaced, twice at most.
+        """
+        for attempt in range(3):
+            try:
+                w.wait_ready()
+                self._ever_ready = True
+                return w
+            except WorkerStartError:
+                if not self._ever_ready or attempt == 2:
+                    raise
+                w = _Worker(self._ctx, func, self.memory_limit)
+        raise AssertionError("unreachable")  # pragma: no cover
 
     def _wait_time(self, busy: list[_Worker]) -> float:
         if not self.time_limit:
