@@ -534,9 +534,14 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
 
     Notes
     -----
-    Workers start from a ``forkserver`` and, as with any ``multiprocessing``
-    code, import the caller's main script: a script calling :func:`survey`
-    must guard its entry point with ``if __name__ == "__main__":``.
+    Workers start from a ``forkserver`` without the caller's ``__main__`` (a script
+    on stdin, ``python -c``, a notebook or a script without an
+    ``if __name__ == "__main__":`` guard all work) and with a ``sys.path`` free of
+    entries relative to the working folder. Workers that cannot start stop the survey
+    at once with :class:`~fescan.surveys.backends.WorkerStartError`, recording no
+    file. Only one survey writes into ``out_dir`` at a time (a second one raises
+    :class:`~fescan.surveys.lock.SurveyLocked` naming the first); an input path
+    that does not exist gets a failure row.
 
     Examples
     --------

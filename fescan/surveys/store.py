@@ -18,6 +18,15 @@ has no line (orphans, deleted on the next run), at most one half-written last
 line (ignored and cut off) and temporary files (deleted) — never a committed
 file whose rows are missing, nor rows counted twice.
 
+One survey at a time: ``_survey_state/lock`` is held (``flock``, released by the
+kernel when its process ends, so a lock left by a killed run is taken over) from
+before the folder is read or tidied, so a second survey can never delete the
+parts of a running one. The merged tables are replaced as one set: all are
+written to temporary names first, then ``_survey_state/merge.json`` lists the
+renames, then they are made; a run killed among the renames has them finished
+by the next one. A write that fails (disk full...) raises one
+:class:`SurveyWriteError`; the batch is not retried under another id.
+
 A file is known by its resolved path, size and modification time (ns). When a
 file is analysed again (``retry_failed``, or it changed), the rows of its latest
 batch win at the merge; older rows stay in their parts but are filtered out.
