@@ -123,6 +123,14 @@ def gzip_bomb(size: int = 200 << 20) -> bytes:
     return b"".join(out)
 
 
+def metal_lattice(n: int) -> bytes:
+    """``n`` one-atom Fe residues 1.2 Å apart: a lattice no cofactor is (invented)."""
+    lines = HEADER.splitlines(keepends=True)
+    lines += [atom(i % 99999 + 1, "FE  ", " FE", i % 9999 + 1, ((i % 30) * 1.2, (i // 30 % 30) * 1.2, (i // 900) * 1.2),
+                   element="FE", record="HETATM", chain="AB"[i // 9999 % 2]) for i in range(n)]
+    return "".join(lines + ["END\n"]).encode()
+
+
 def big_residue(n: int) -> bytes:
     lines = HEADER.splitlines(keepends=True)
     lines += [atom(i % 99999 + 1, "FE  ", " FE", 1, ((i % 50) * 1.0, (i // 50 % 50) * 1.0, (i // 2500) * 1.0),
@@ -188,6 +196,8 @@ CASES: dict[str, tuple[str, object, str, str, dict]] = {
     "gzip-magic-junk": ("a.pdb.gz", b"\x1f\x8b\x08\x00" + b"junk" * 50, "StructureFileError", r"damaged gzip data", {}),
     "residue-6000-atoms": ("a.pdb", big_residue(6000), "StructureFileError", r"has 6000 atoms, more than the 5000", {}),
     "residue-200000-fe": ("a.pdb", big_residue(200000), "StructureFileError", r"has 200000 atoms", {}),
+    "fe-lattice-20000-residues": ("a.pdb", metal_lattice(20000), "StructureFileError",
+                                  r"20000 metal atoms chained by contacts .* a metal lattice", {}),
     # --- mmCIF (required _atom_site items named) ---
     "cif-no-cartn-x": ("a.cif", cif(drop="_atom_site.Cartn_x"), "StructureFileError", r"no _atom_site.Cartn_x", {}),
     "cif-no-type-symbol": ("a.cif", cif(drop="_atom_site.type_symbol"), "StructureFileError",

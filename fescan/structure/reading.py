@@ -84,6 +84,7 @@ from fescan.structure.rawtext import is_binary, normalise_text, read_text
 from fescan.structure.sanity import (
     check_cell,
     check_extent,
+    check_metal_aggregates,
     check_residue_sizes,
     occupancy_notes,
     pdb_occupancy_suspect,
@@ -338,6 +339,7 @@ def read_structure(
                 " (pass keep_hydrogens=True to keep them)"
             )
     check_residue_sizes(name, chosen)
+    check_metal_aggregates(name, chosen)
     notes += occupancy_notes(chosen, occupancy_suspect)
     apply_altloc_policy(chosen, altloc)
 

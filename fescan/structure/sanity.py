@@ -8,6 +8,9 @@
 - a residue of more than :data:`MAX_RESIDUE_ATOMS` atoms is refused: it is not a
   chemical component, and the per-residue work of the cofactor search grows with
   the square of its size;
+- more than :data:`MAX_METAL_AGGREGATE` metal atoms chained by metal-metal contacts
+  (≤ 3 Å) is refused: that is a metal lattice, not a cofactor, and the metal-site
+  checks would grow with the square of its size;
 - occupancies above 1, below 0 or NaN are noted (they make the altloc choice and
   any occupancy-weighted number meaningless).
 """
@@ -21,7 +24,7 @@ import gemmi
 
 from fescan.core.errors import CoordinateError, StructureFileError
 
-__all__ = ["MAX_COORDINATE", "MAX_RESIDUE_ATOMS", "check_extent", "check_cell",
+__all__ = ["MAX_COORDINATE", "MAX_RESIDUE_ATOMS", "MAX_METAL_AGGREGATE", "check_metal_aggregates", "check_extent", "check_cell",
            "check_residue_sizes", "occupancy_notes", "pdb_occupancy_suspect"]
 
 #: Largest |x|, |y|, |z| accepted, in Å. The PDB format's 8.3 columns stop at 9999.999
@@ -31,6 +34,15 @@ MAX_COORDINATE = 1.0e4
 #: Most atoms one residue may hold. The largest wwPDB CCD components have a few
 #: hundred atoms (from memory); 5000 leaves a wide margin.
 MAX_RESIDUE_ATOMS = 5000
+
+#: Most metal atoms one chain of metal-metal contacts (≤ METAL_CONTACT Å) may hold. The
+#: largest metal clusters of proteins hold 8 metals (FeMo cofactor, P-cluster; Einsle et al.
+#: 2002, Science 297:1696); polyoxometalates in Mo/W storage proteins a few dozen.
+MAX_METAL_AGGREGATE = 64
+METAL_CONTACT = 3.0
+_METALS = gemmi.Selection(
+    "[Li,Na,K,Rb,Cs,Be,Mg,Ca,Sr,Ba,Sc,Ti,V,Cr,Mn,Fe,Co,Ni,Cu,Zn,Y,Zr,Nb,Mo,Tc,Ru,Rh,Pd,Ag,Cd,Hf,Ta,W,Re,Os,"
+    "Ir,Pt,Au,Hg,Al,Ga,In,Sn,Tl,Pb,Bi,La,Ce,Pr,Nd,Sm,Eu,Gd,Tb,Dy,Ho,Er,Tm,Yb,Lu,Th,U]")
 
 # An ATOM/HETATM occupancy (columns 55-60) that is negative or above 1.
 _PDB_OCC_OUTSIDE = re.compile(rb"\n(?:ATOM|HETA).{50} {0,5}(?:-|[1-9]\d+\.|[2-9]\.|1\.0?[1-9])", re.MULTILINE)
@@ -124,3 +136,36 @@ def occupancy_notes(model: gemmi.Model, suspect: bool = False) -> tuple[str, ...
     parts = [f"{k} {v}" for k, v in (("NaN", nan), ("above 1", high), ("negative", low)) if v]
     return (f"occupancies out of range ({', '.join(parts)}; first: {first}): the altloc choice and "
             "occupancy-weighted values are unreliable",)
+
+
+def check_metal_aggregates(name: str, model: gemmi.Model) -> None:
+    """Raise :class:`StructureFileError` for a chain of more than MAX_METAL_AGGREGATE metal contacts.
+
+    Cheap for real entries: the metal atoms are copied out by gemmi (C++), and only
+    when there are more than MAX_METAL_AGGREGATE of them are their contacts looked at
+    (a k-d tree, then connected components).
+    """
+    metals = _METALS.copy_model_selection(model)
+    n = metals.count_atom_sites()
+    if n <= MAX_METAL_AGGREGATE:
+        return
+    import numpy as np
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+    from scipy.spatial import cKDTree
+
+    where = [(ch.name, res, atom) for ch in metals for res in ch for atom in res]
+    xyz = np.array([[a.pos.x, a.pos.y, a.pos.z] for _, _, a in where])
+    pairs = cKDTree(xyz).query_pairs(METAL_CONTACT, output_type="ndarray")
+    if len(pairs) < MAX_METAL_AGGREGATE:
+        return
+    graph = coo_matrix((np.ones(len(pairs), dtype=np.int8), (pairs[:, 0], pairs[:, 1])), shape=(n, n))
+    _, labels = connected_components(graph, directed=False)
+    sizes = np.bincount(labels)
+    big = int(np.argmax(sizes))
+    if sizes[big] <= MAX_METAL_AGGREGATE:
+        return
+    ch, res, atom = where[int(np.flatnonzero(labels == big)[0])]
+    raise StructureFileError(
+        f"{name}: {int(sizes[big])} metal atoms chained by contacts of {METAL_CONTACT:g} Å or less (from {atom.name} "
+        f"of {res.name} {ch}/{res.seqid}): a metal lattice, not a cofactor (at most {MAX_METAL_AGGREGATE}); refused")
