@@ -8,6 +8,7 @@ row for row after sorting (run times left out).
 
 from __future__ import annotations
 
+import contextlib
 import errno
 import json
 import os
@@ -159,14 +160,13 @@ def test_two_surveys_into_one_folder_and_a_killed_worker(tmp_path):
         # kill until the hung file is recorded.
         _wait_for(lambda: len(_index_files(out)) == len(files), first, "the good files committed")
 
-        def hang_recorded() -> bool:
-            if str(hang) in _index_files(out):
-                return True
-            os.kill(_worker_pid(first.pid), signal.SIGKILL)
+        deadline = time.monotonic() + 120
+        while str(hang) not in _index_files(out):
+            assert time.monotonic() < deadline, "the hung file was never recorded"
+            if first.poll() is None:
+                with contextlib.suppress(ProcessLookupError, AssertionError):
+                    os.kill(_worker_pid(first.pid, wait=2), signal.SIGKILL)
             time.sleep(0.5)
-            return False
-
-        _wait_for(hang_recorded, first, "the hung file recorded")
     finally:
         _kill(first)
     # the dead survey's lock is stale: the next one takes it over and sees the recorded crash
@@ -176,7 +176,7 @@ def test_two_surveys_into_one_folder_and_a_killed_worker(tmp_path):
     assert list(failures["reason"]) == ["crash"] and "worker killed by SIGKILL" in failures["message"].iloc[0]
 
 
-def _worker_pid(parent: int) -> int:
+def _worker_pid(parent: int, wait: float = 60) -> int:
     """The pid of a process two levels under ``parent`` (parent -> forkserver -> worker)."""
     def children(pid: int) -> list[int]:
         out = []
@@ -190,7 +190,7 @@ def _worker_pid(parent: int) -> int:
                     out.append(int(d.name))
         return out
 
-    deadline = time.monotonic() + 60
+    deadline = time.monotonic() + wait
     while time.monotonic() < deadline:
         for child in children(parent):
             grand = children(child)
