@@ -104,6 +104,7 @@ def test_store_drops_leftovers_of_a_kill(tmp_path):
     with open(state / "done.jsonl", "a", encoding="utf-8") as fh:
         fh.write('{"batch": "99999999999999999999-1-000000", "files": [{"fi')  # no newline: cut short
     store = SurveyStore(tmp_path / "out", json.loads((state / "settings.json").read_text())["scan_options"])
+    store.close()  # release the folder lock before the survey below
     assert len(store.batches) == 2
     assert not (state / "parts" / "cofactors" / "99999999999999999999-1-000000.parquet").exists()
     assert not list(state.rglob("*.tmp")) and not list((tmp_path / "out").glob("*.tmp"))

@@ -28,6 +28,7 @@ def run(a: argparse.Namespace) -> int:
     from fescan.analysis.scan import scan
     from fescan.analysis.tables import result_tables
     from fescan.report.text import render_text
+    from fescan.surveys.store import neutralise_csv
 
     res = scan(a.file, **wire_options(a))
     if a.csv:
@@ -35,7 +36,7 @@ def run(a: argparse.Namespace) -> int:
         try:
             out.mkdir(parents=True, exist_ok=True)
             for name, df in result_tables(res).items():
-                df.to_csv(out / f"{name}.csv", index=False)
+                neutralise_csv(df).to_csv(out / f"{name}.csv", index=False)
         except OSError as exc:
             raise ConfigError(f"{out}: cannot write the CSV tables there ({exc.strerror or exc})") from None
     if a.json:

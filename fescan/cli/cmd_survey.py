@@ -50,7 +50,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 
 def run(a: argparse.Namespace) -> int:
-    """Run ``fescan survey``; exit status 0 even when some files failed (see the failures table)."""
+    """Run ``fescan survey``; exit status 0 when some files succeeded (failures are in their table), 1 when all failed."""
     from fescan.api import survey
     from fescan.core.errors import ConfigError
 
@@ -72,5 +72,11 @@ def run(a: argparse.Namespace) -> int:
             json.dump(summary.to_dict(), fh, indent=1)
             fh.write("\n")
     if not a.quiet:
-        sys.stdout.write(summary.to_text() + "\n")
+        from fescan.report.text import strip_controls
+
+        sys.stdout.write(strip_controls(summary.to_text()) + "\n")
+    if summary.structures_failed and not summary.structures_ok:
+        sys.stderr.write(f"fescan: error: every one of the {summary.structures_failed} file(s) in {a.out} failed "
+                         f"(see {a.out}/failures.{a.format})\n")
+        return 1
     return 0

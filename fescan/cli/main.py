@@ -6,6 +6,7 @@ import argparse
 import importlib
 import importlib.util
 import logging
+import re
 import sys
 from collections.abc import Sequence
 from types import ModuleType
@@ -19,6 +20,8 @@ __all__ = ["main", "build_parser"]
 #: Subcommand modules (``fescan.cli.cmd_<name>``) in the order ``fescan --help`` lists them.
 #: Each defines ``NAME``, ``HELP``, ``add_arguments(parser)`` and ``run(args) -> int``.
 COMMAND_MODULES = ("scan", "survey", "report", "compare")
+
+_CONTROL = re.compile(r"[\x00-\x08\x0a-\x1f\x7f-\x9f]")  # newline too: an error is one line
 
 
 def _commands() -> list[ModuleType]:
@@ -61,10 +64,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(mods[a.command].run(a) or 0)
     except ConfigError as exc:  # an option's value: name it as the command line does
-        sys.stderr.write(f"fescan: error: {option_words(str(exc))}\n")
+        sys.stderr.write("fescan: error: " + _CONTROL.sub("?", option_words(str(exc))) + "\n")
         return 1
-    except FescanError as exc:
-        sys.stderr.write(f"fescan: error: {exc}\n")
+    except FescanError as exc:  # one line, without terminal control characters from a file or path name
+        sys.stderr.write("fescan: error: " + _CONTROL.sub("?", str(exc)) + "\n")
         return 1
     except BrokenPipeError:  # output piped into head and closed
         return 0

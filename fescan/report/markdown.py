@@ -1,8 +1,9 @@
 """Render a :class:`~fescan.report.content.Document` as Markdown (CommonMark with pipe tables).
 
 Every text is escaped with :func:`md_escape`: backslash, `` ` ``, ``*``,
-``_``, ``[``, ``]``, ``<``, ``>``, ``|``, ``&`` and ``~`` get a backslash, and
-line breaks become spaces, so a title or chain name from an input file renders
+``_``, ``[``, ``]``, ``<``, ``>``, ``|``, ``&`` and ``~`` get a backslash, a leading
+``#``, ``-``, ``+``, ``=`` or ``1.`` / ``1)`` gets one too (it would start a heading,
+a list, a thematic break ``---`` or a setext underline), and line breaks become spaces, so a title or chain name from an input file renders
 as the same characters, never as emphasis, a link, a table cell break or raw
 HTML. Figures are linked PNG files written by fescan.
 """
@@ -28,6 +29,9 @@ from fescan.report.content import (
 __all__ = ["md_escape", "render_markdown"]
 
 _SPECIAL = re.compile(r"([\\`*_\[\]<>|&~])")
+# What makes a line a heading, list item, thematic break or setext underline when it leads a line.
+# ("-1.5" stays as it is: a number is no list item.)
+_LEADING = re.compile(r"^(\s*)(#|=|[-+](?=\s)|-(?=-)|\d{1,9}(?=[.)](?:\s|$)))")
 _SPACE = re.compile(r"\s+")
 
 
@@ -41,7 +45,14 @@ def md_escape(text: object) -> str:
     >>> md_escape("a|b *c* [d](e)")
     'a\\\\|b \\\\*c\\\\* \\\\[d\\\\](e)'
     """
-    return _SPECIAL.sub(r"\\\1", _SPACE.sub(" ", str(text)))
+    out = _SPECIAL.sub(r"\\\1", _SPACE.sub(" ", str(text)))
+    m = _LEADING.match(out)
+    if m is None:
+        return out
+    if m.group(2).isdigit():  # "1." or "1)": escape the punctuation
+        end = m.end()
+        return out[:end] + "\\" + out[end:]
+    return out[: m.start(2)] + "\\" + out[m.start(2):]
 
 
 def _inline(value: Inline) -> str:

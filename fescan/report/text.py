@@ -3,12 +3,28 @@
 from __future__ import annotations
 
 import math
+import re
 from collections import Counter
 
 from fescan.analysis.scan import CAUTION, ScanResult
 from fescan.transfer.distances import EDGE_CONVENTION
 
-__all__ = ["render_text", "format_time", "signed", "table"]
+__all__ = ["render_text", "format_time", "signed", "table", "strip_controls"]
+
+# C0 controls but tab and newline, DEL and C1 controls: an ESC sequence in a title could
+# otherwise recolour, retitle or clear the terminal the text is printed on.
+_CONTROL = re.compile(r"[\x00-\x08\x0b-\x1f\x7f-\x9f]")
+
+
+def strip_controls(text: str) -> str:
+    """Remove terminal control characters (C0 but tab and newline, DEL, C1) from ``text``.
+
+    Examples
+    --------
+    >>> strip_controls("FERREDOXIN\x1b]0;owned\x07 A")
+    'FERREDOXIN]0;owned A'
+    """
+    return _CONTROL.sub("", text)
 
 
 def format_time(seconds: float | None) -> str:
@@ -85,7 +101,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
     lines.append("")
     if not res.cofactors:
         lines.append("No redox cofactors found.")
-        return "\n".join(lines)
+        return strip_controls("\n".join(lines))
     rows = []
     for c in res.cofactors:
         warn = sum(1 for f in c.flags if f.severity == "warning")
@@ -127,7 +143,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                  ", ".join(x for x, on in (("gap", r["has_gap"]), ("slow hop", r["has_slow_hop"])) if on)]
                 for r in res.all_pairs]
         lines.append(table(["entry", "exit", "hops", "longest hop Å", "summed hop time", "remarks"], rows))
-    return "\n".join(lines)
+    return strip_controls("\n".join(lines))
 
 
 def _wire_text(res: ScanResult) -> list[str]:

@@ -39,8 +39,17 @@ message starts with the path. gemmi accepts several kinds of damage silently
 PDB file reads as 0.0, ``nan`` reads as NaN, an mmCIF ``?`` coordinate reads as
 NaN), so this module checks for them itself:
 
-- the ATOM/HETATM coordinate columns 31-54 of PDB text are screened by one regular
-  expression over the whole text; only the lines it flags are parsed in Python;
+- the bytes are read through a stream: binary data is refused from its first 64 KiB,
+  and the (decompressed) size is capped (:mod:`fescan.structure.rawtext`); CR-only
+  line ends are read as line breaks and non-UTF-8 text (a Latin-1 title) as Latin-1;
+- every ATOM/HETATM record of PDB text is checked column by column (serial, residue
+  number, coordinates, occupancy, B factor: :mod:`fescan.structure.pdb_lines`);
+  a blank inside a number or a shifted line is refused with its line number;
+- an mmCIF ``atom_site`` loop without a coordinate or ``type_symbol`` column is refused
+  with the column named;
+- coordinates beyond 10⁴ Å and residues of more than 5000 atoms are refused, an
+  invalid unit cell is dropped and out-of-range occupancies are noted
+  (:mod:`fescan.structure.sanity`);
 - non-finite coordinates of every model are caught by gemmi's centre of mass,
   which is NaN or infinite as soon as one coordinate is; the offending atom is
   then looked up to name it in the message.
@@ -48,38 +57,37 @@ NaN), so this module checks for them itself:
 
 from __future__ import annotations
 
-import gzip
 import logging
 import math
 import os
 import re
-import stat
-import zlib
 from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
 import gemmi
 
-try:  # ISA-L gzip is ~3x faster than zlib on structure files; zlib stays as the fallback
-    from isal.igzip import decompress as _gunzip
-    from isal.isal_zlib import error as _isal_error
-except ImportError:  # pragma: no cover - isal is a dependency, but keep the reader working
-    _gunzip = gzip.decompress
-    _isal_error = zlib.error
-
 from fescan.core.errors import (
     ConfigError,
     CoordinateError,
     EmptyStructureError,
     StructureFileError,
-    StructureNotFound,
 )
 from fescan.structure.altlocs import (
     apply_altloc_policy,
     choose_model,
     model_numbers,
     remove_empty_residues,
+)
+from fescan.structure.pdb_lines import check_pdb_records
+from fescan.structure.rawtext import is_binary, normalise_text, read_text
+from fescan.structure.sanity import (
+    check_cell,
+    check_extent,
+    check_metal_aggregates,
+    check_residue_sizes,
+    occupancy_notes,
+    pdb_occupancy_suspect,
 )
 
 __all__ = [
@@ -99,32 +107,19 @@ ALTLOC_POLICIES: tuple[str, ...] = ("occupancy", "first", "all")
 #: File formats :func:`detect_format` can report (besides ``"unknown"``).
 FORMATS: tuple[str, ...] = ("pdb", "mmcif", "mmjson")
 
-_GZIP_MAGIC = b"\x1f\x8b"
 _UTF8_BOM = b"\xef\xbb\xbf"
-_HEAD = 65536  # bytes looked at to tell text from binary data
-# Bytes that may appear in a text file; anything else (NUL, most C0 controls) means binary.
-_TEXT_BYTES = bytes(range(32, 256)) + b"\t\n\r\f\v\x1a"
 
 _BLANK = re.compile(rb"\s*\Z")
 _CIF_START = re.compile(rb"(?:\s|#[^\n]*)*data_", re.IGNORECASE)
 _JSON_START = re.compile(rb'\s*\{\s*"data_')
 _PDB_RECORD = re.compile(rb"^(?:ATOM[ \d]|HETATM|HEADER|CRYST1|MODEL )", re.MULTILINE)
-_PDB_ATOM_START = re.compile(rb"ATOM|HETA", re.IGNORECASE)
-# An ATOM/HETATM line (gemmi looks at the first four letters, in any case) whose
-# columns 31-54 are not three 8-column fields made of blanks, digits, '.', '+', '-'
-# and ending in a digit. This is a coarse, fast screen: each line it flags is then
-# checked exactly by _coordinate_problem(), and only a real problem raises.
-_SUSPECT_PDB_LINE = re.compile(
-    rb"\n(?:ATOM|HETA|atom|heta).{26}"
-    rb"(?![ \d.+\-]{7}\d[ \d.+\-]{7}\d[ \d.+\-]{7}\d)"
-)
-_NUMBER = re.compile(rb"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
-# gemmi stops reading PDB text at an END record ("END" not followed by a letter or digit).
-_PDB_END = re.compile(rb"(?:\A|\n)END(?![A-Za-z0-9])", re.IGNORECASE)
 _GEMMI_LOCATION = re.compile(r"^\S*?:(\d+):\S*\s+")
 _PDB_ID_STEM = re.compile(r"(?:pdb)?([0-9][A-Za-z0-9]{3})", re.IGNORECASE)
 _MISSING_IDS = {"", "?", ".", "XXXX"}
 _CARTN = ("_atom_site.Cartn_x", "_atom_site.Cartn_y", "_atom_site.Cartn_z")
+# Columns an atom_site loop must have for fescan (gemmi fails with a bare IndexError without
+# type_symbol; the element is what the cofactor search is built on).
+_REQUIRED = (*_CARTN, "_atom_site.type_symbol")
 
 
 @dataclass(frozen=True, slots=True)
@@ -308,10 +303,12 @@ def read_structure(
     if altloc not in ALTLOC_POLICIES:
         raise ConfigError(f"altloc must be one of {', '.join(ALTLOC_POLICIES)}, not {altloc!r}")
 
-    data, compressed = _read_bytes(name)
+    data, compressed = read_text(name)
+    data, text_notes = normalise_text(data)
     file_format = _check_text(name, data)
     st, block = _parse(name, data, file_format)
-    notes = _file_notes(file_format, data)
+    notes = _file_notes(file_format, data) + text_notes
+    occupancy_suspect = file_format == "pdb" and pdb_occupancy_suspect(data)
     del data
 
     n_models = len(st)
@@ -324,6 +321,8 @@ def read_structure(
     for index, m in enumerate(st):
         if counts[index]:
             _check_finite(name, m, numbers[index], block)
+    check_extent(name, st)
+    notes += check_cell(st)
 
     index = choose_model(name, numbers, counts, model)
     for i in range(n_models - 1, -1, -1):
@@ -339,6 +338,9 @@ def read_structure(
                 f"{name}: model {numbers[index]} has only hydrogen atoms"
                 " (pass keep_hydrogens=True to keep them)"
             )
+    check_residue_sizes(name, chosen)
+    check_metal_aggregates(name, chosen)
+    notes += occupancy_notes(chosen, occupancy_suspect)
     apply_altloc_policy(chosen, altloc)
 
     entry_id = _entry_id(st, name)
@@ -374,31 +376,6 @@ def read_structure(
 # --- reading and recognising the bytes -------------------------------------------------
 
 
-def _read_bytes(name: str) -> tuple[bytes, bool]:
-    """Return the (decompressed) content of the file and whether it was gzip."""
-    try:
-        mode = os.stat(name).st_mode
-    except (FileNotFoundError, NotADirectoryError) as exc:
-        raise StructureNotFound(f"{name}: no such file") from exc
-    except (OSError, ValueError) as exc:  # ValueError: NUL byte in the path
-        raise StructureFileError(f"{name}: cannot be read ({_os_reason(exc)})") from exc
-    if stat.S_ISDIR(mode):
-        raise StructureNotFound(f"{name}: is a directory, not a structure file")
-    if not stat.S_ISREG(mode):
-        raise StructureNotFound(f"{name}: not a regular file")
-    try:
-        with open(name, "rb") as handle:
-            raw = handle.read()
-    except OSError as exc:
-        raise StructureFileError(f"{name}: cannot be read ({_os_reason(exc)})") from exc
-    if not raw.startswith(_GZIP_MAGIC):
-        return raw, False
-    try:
-        return _gunzip(raw), True
-    except (OSError, EOFError, zlib.error, _isal_error) as exc:
-        raise StructureFileError(f"{name}: damaged gzip data ({exc})") from exc
-
-
 _HEADER_REC = re.compile(rb"^HEADER", re.MULTILINE)
 _END_REC = re.compile(rb"^END\s*$", re.MULTILINE)
 
@@ -411,17 +388,12 @@ def _file_notes(file_format: str, data: bytes) -> tuple[str, ...]:
     return ()
 
 
-def _os_reason(exc: Exception) -> str:
-    """The plain reason of an OSError (``Permission denied``...)."""
-    return getattr(exc, "strerror", None) or str(exc)
-
-
 def _check_text(name: str, data: bytes) -> str:
     """Check the content is non-empty structure text; return its format."""
     if _BLANK.match(data):
         what = "0 bytes" if not data else "whitespace only"
         raise EmptyStructureError(f"{name}: empty file ({what})")
-    if data[:_HEAD].translate(None, _TEXT_BYTES):
+    if is_binary(data):
         raise StructureFileError(f"{name}: not a PDB or mmCIF file (binary data)")
     file_format = detect_format(data)
     if file_format == "unknown":
@@ -439,7 +411,7 @@ def _parse(
     if data.startswith(_UTF8_BOM):
         data = data[len(_UTF8_BOM) :]
     if file_format == "pdb":
-        _check_pdb_coordinates(name, data)
+        check_pdb_records(name, data)
         try:
             st = gemmi.read_pdb_string(data)
         except Exception as exc:  # gemmi raises RuntimeError/ValueError with its own text
@@ -457,7 +429,7 @@ def _parse(
             text = _gemmi_text(exc)
             hint = " (truncated or damaged file?)" if "number of values" in text else ""
             raise StructureFileError(f"{name}: malformed {label} file ({text}){hint}") from exc
-        sizes = {tag: len(block.find_values(tag)) for tag in _CARTN}
+        sizes = {tag: len(block.find_values(tag)) for tag in _REQUIRED}
         if any(sizes.values()) and not all(sizes.values()):
             missing = ", ".join(tag for tag, size in sizes.items() if not size)
             raise StructureFileError(f"{name}: malformed {label} file (no {missing} values)")
@@ -491,57 +463,6 @@ def _atom_block(doc: gemmi.cif.Document) -> gemmi.cif.Block:
 
 
 # --- coordinate checks ------------------------------------------------------------------
-
-
-def _check_pdb_coordinates(name: str, data: bytes) -> None:
-    """Raise CoordinateError for the first ATOM/HETATM line with bad coordinates."""
-    end = _check_pdb_line(name, data, 0) if _PDB_ATOM_START.match(data) else 0
-    search = _SUSPECT_PDB_LINE.search
-    match = search(data, end)
-    while match is not None:  # each match is a suspect line, usually none at all
-        end = _check_pdb_line(name, data, match.start() + 1)
-        match = search(data, end)
-
-
-def _check_pdb_line(name: str, data: bytes, start: int) -> int:
-    """Check the line starting at ``start``; return where to search on from.
-
-    Raises CoordinateError for a real problem, unless an END record comes
-    before the line: gemmi stops reading there, so the check stops too.
-    """
-    end = data.find(b"\n", start)
-    if end < 0:
-        end = len(data)
-    line = data[start:end]
-    problem = _coordinate_problem(line)
-    if problem is None:
-        return end
-    if _PDB_END.search(data, 0, start):
-        return len(data)
-    lineno = data.count(b"\n", 0, start) + 1
-    shown = line.rstrip().decode("ascii", "replace")[:80]
-    raise CoordinateError(f"{name}: line {lineno}: {problem}: {shown!r}")
-
-
-def _coordinate_problem(line: bytes) -> str | None:
-    """Describe what is wrong with the coordinates of one ATOM/HETATM line, or None."""
-    if len(line.rstrip(b"\r")) < 54:
-        return "record too short to hold coordinates (columns 31-54)"
-    for axis, first in (("x", 30), ("y", 38), ("z", 46)):
-        field = line[first : first + 8].strip()
-        columns = f"columns {first + 1}-{first + 8}"
-        if not field:
-            return f"{axis} coordinate is blank ({columns})"
-        text = field.decode("ascii", "replace")
-        try:
-            value = float(field)
-        except ValueError:
-            value = None
-        if value is not None and not math.isfinite(value):
-            return f"{axis} coordinate {text!r} is not finite ({columns})"
-        if value is None or not _NUMBER.fullmatch(field):
-            return f"{axis} coordinate {text!r} is not a number ({columns})"
-    return None
 
 
 def _check_finite(name: str, m: gemmi.Model, number: int, block: gemmi.cif.Block | None) -> None:

@@ -28,9 +28,10 @@ gemmi... before the first file), so an allocation past it fails with
 
 :class:`DaskEngine` runs the same function on Dask distributed (``pip install
 fescan[dask]``): at a scheduler address, or on a ``LocalCluster`` of worker
-processes on loopback. There the memory cap is Dask's per-worker
-``memory_limit`` (the nanny restarts a worker past it) and a task over the
-time limit is reported as a timeout but cannot be stopped on its worker.
+processes on loopback. On its Dask worker each task runs in a child process
+(:func:`run_isolated`, one task of a :class:`ProcessPool`), so the time limit
+counts run time only and stops the task, the memory cap is the child's, and a
+crash is recorded exactly as the process engine records it.
 """
 
 from __future__ import annotations
@@ -41,15 +42,18 @@ import logging
 import multiprocessing as mp
 import os
 import signal
+import sys
+import threading
 import time
+import types
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from multiprocessing.connection import Connection, wait
 from typing import Any
 
-from fescan.core.errors import ConfigError
+from fescan.core.errors import ConfigError, FescanError
 
-__all__ = ["TaskResult", "ProcessPool", "DaskEngine", "default_workers"]
+__all__ = ["TaskResult", "ProcessPool", "DaskEngine", "WorkerStartError", "default_workers", "run_isolated"]
 
 logger = logging.getLogger(__name__)
 
@@ -100,14 +104,17 @@ def _set_memory_limit(limit_bytes: int | None) -> None:
 
 def _worker_main(conn: Connection, func: Callable[..., Any], memory_limit: int | None,
                  environ: dict[str, str]) -> None:
-    """Loop of one worker: receive ``(index, args)``, run ``func(*args)``, send the outcome."""
+    """Loop of one worker: say it is ready, receive ``(index, args)``, run ``func(*args)``, send the outcome."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the parent handles Ctrl-C
     # A forkserver child inherits the environment of the forkserver, which may be older
     # than the parent's: take the parent's, as a spawned child would.
     for k in set(os.environ) - set(environ):
         del os.environ[k]
     os.environ.update(environ)
+    if os.environ.get("FESCAN_TEST_WORKER_START_FAIL"):  # test-only: a worker that cannot start
+        os._exit(3)
     _set_memory_limit(memory_limit)
+    conn.send(("ready", os.getpid(), None))
     while True:
         try:
             msg = conn.recv()
@@ -141,15 +148,88 @@ def _cap_text(limit: int | None) -> str:
     return f"{limit / _GIB:g} GiB" if limit else "none"
 
 
+class WorkerStartError(FescanError):
+    """Worker processes cannot be started: the survey cannot run at all."""
+
+
+_START_TIMEOUT = 120.0  # seconds a new worker may take to import fescan and say it is ready
+
+
+def _clean_sys_path() -> list[str]:
+    """``sys.path`` for workers: fescan's own folder first, no entry relative to the working folder."""
+    import fescan
+
+    home = os.path.dirname(os.path.dirname(os.path.abspath(fescan.__file__)))
+    out = [home]
+    for entry in sys.path:
+        if not entry or not os.path.isabs(entry):
+            continue  # '' and relative entries follow the working folder: a folder named fescan there
+        if entry not in out:  # must not shadow the package the parent runs
+            out.append(entry)
+    return out
+
+
+@contextlib.contextmanager
+def _neutral_launch() -> Iterator[None]:
+    """Start processes without the caller's ``__main__`` and with a clean ``sys.path``.
+
+    multiprocessing re-imports the main script in every child (and in the forkserver) from
+    ``__main__.__file__``: a script without ``if __name__ == "__main__"`` would run again
+    there. The workers need nothing from ``__main__`` (their function lives in fescan), so
+    a bare module stands in for it while processes start.
+    """
+    saved_main, saved_path = sys.modules.get("__main__"), sys.path[:]
+    sys.modules["__main__"] = types.ModuleType("__main__")
+    sys.path[:] = _clean_sys_path()
+    try:
+        yield
+    finally:
+        sys.path[:] = saved_path
+        if saved_main is not None:
+            sys.modules["__main__"] = saved_main
+
+
 class _Worker:
     def __init__(self, ctx: Any, func: Callable[..., Any], memory_limit: int | None) -> None:
         self.conn, child = ctx.Pipe(duplex=True)
         self.proc = ctx.Process(target=_worker_main, args=(child, func, memory_limit, dict(os.environ)),
                                 daemon=True)
-        self.proc.start()
+        try:
+            with _neutral_launch():
+                self.proc.start()
+        except (OSError, RuntimeError, ValueError) as exc:
+            self.conn.close()
+            child.close()
+            raise WorkerStartError(f"cannot start worker processes: {type(exc).__name__}: {exc}") from exc
         child.close()
         self.task: int | None = None
         self.started = 0.0
+        self.ready = False
+
+    def wait_ready(self) -> None:
+        """Wait for the worker's first message; raise :class:`WorkerStartError` if it never comes."""
+        if self.ready:
+            return
+        deadline = time.monotonic() + _START_TIMEOUT
+        while time.monotonic() < deadline:
+            if self.conn.poll(0.05):
+                try:
+                    msg = self.conn.recv()
+                except (EOFError, OSError):
+                    break
+                if msg[0] == "ready":
+                    self.ready = True
+                    return
+            if not self.proc.is_alive() and not self.conn.poll(0):
+                break
+        self.proc.join(timeout=1)
+        code = self.proc.exitcode
+        self.stop(kill=True)
+        raise WorkerStartError(
+            "worker processes cannot start (" + (_signal_text(code) if code is not None else
+                                                 f"no sign of life in {_START_TIMEOUT:g} s")
+            + "); no file was analysed or recorded as failed. Run with --workers 1 -v to see more, "
+              "or check that fescan imports in a fresh Python")
 
     def stop(self, *, kill: bool = False) -> None:
         if kill and self.proc.is_alive():
@@ -183,9 +263,10 @@ class ProcessPool:
         self.workers = workers
         self.time_limit = time_limit or None
         self.memory_limit = int(memory_limit * _GIB) if memory_limit else None
+        self._ever_ready = False
         if "forkserver" in mp.get_all_start_methods():
             self._ctx = mp.get_context("forkserver")
-            self._ctx.set_forkserver_preload(["fescan.survey"])
+            self._ctx.set_forkserver_preload(["fescan.surveys.run"])
         else:  # pragma: no cover - Windows
             self._ctx = mp.get_context("spawn")
 
@@ -224,13 +305,32 @@ class ProcessPool:
     def _give(self, w: _Worker, index: int, tasks: Sequence[tuple], func: Callable[..., Any]) -> _Worker:
         """Send task ``index`` to ``w``, or to a new worker when ``w`` died while idle."""
         try:
+            w = self._ready(w, func)
             w.conn.send((index, tasks[index]))
         except OSError:  # BrokenPipeError: killed while idle (e.g. by the system)
             w.stop(kill=True)
-            w = _Worker(self._ctx, func, self.memory_limit)
+            w = self._ready(_Worker(self._ctx, func, self.memory_limit), func)
             w.conn.send((index, tasks[index]))
-        w.task, w.started = index, time.monotonic()
+        w.task, w.started = index, time.monotonic()  # run time only: counted once the worker is ready
         return w
+
+    def _ready(self, w: _Worker, func: Callable[..., Any]) -> _Worker:
+        """``w`` once it is ready, or a replacement.
+
+        Before any worker has started, a failure to start stops the survey
+        (:class:`WorkerStartError`): nothing would ever run. After that, a worker
+        killed while starting (by the system, say) is replaced, twice at most.
+        """
+        for attempt in range(3):
+            try:
+                w.wait_ready()
+                self._ever_ready = True
+                return w
+            except WorkerStartError:
+                if not self._ever_ready or attempt == 2:
+                    raise
+                w = _Worker(self._ctx, func, self.memory_limit)
+        raise AssertionError("unreachable")  # pragma: no cover
 
     def _wait_time(self, busy: list[_Worker]) -> float:
         if not self.time_limit:
@@ -260,8 +360,35 @@ class ProcessPool:
         return None
 
 
+_ISOLATION_LOCK = threading.Lock()
+
+
+def run_isolated(func: Callable[..., Any], args: tuple, time_limit: float | None,
+                 memory_limit: int | None) -> tuple[str, Any, float]:
+    """Run ``func(*args)`` in a child process of this one, as :class:`ProcessPool` does one task.
+
+    Used on Dask workers: the time limit then counts run time only (not time queued
+    on the scheduler) and a task over it is stopped; a crash or a memory cap hit
+    costs the child, not the Dask worker, and is recorded as the process engine
+    records it. Returns ``(kind, value, seconds)``.
+    """
+    me = mp.current_process()
+    with _ISOLATION_LOCK:  # Dask worker threads share the process: one launch at a time
+        daemon = me._config.get("daemon")
+        me._config["daemon"] = False  # Dask worker processes are daemonic; this child is ours to stop
+        try:
+            pool = ProcessPool(1, time_limit, memory_limit / _GIB if memory_limit else None)
+            runner = pool.run(func, [args])
+            first = next(runner)
+        finally:
+            me._config["daemon"] = daemon
+    for _ in runner:  # let the pool stop its worker
+        pass
+    return first.kind, first.value, first.seconds
+
+
 class DaskEngine:
-    """Run the per-file function on Dask distributed.
+    """Run the per-file function on Dask distributed, each task in a child process of its Dask worker.
 
     Parameters
     ----------
@@ -271,11 +398,15 @@ class DaskEngine:
         Address of a running scheduler (``tcp://host:8786``); ``None`` starts a
         ``LocalCluster`` of single-threaded worker processes on 127.0.0.1.
     time_limit : float or None
-        Seconds after which a task is reported as a timeout (it keeps running
-        on its worker; Dask cannot stop it).
+        Seconds one task may run (on its worker, queueing not counted) before it is stopped.
     memory_limit : float or None
-        Memory limit of each ``LocalCluster`` worker in GiB (Dask's nanny
-        restarts a worker past it).
+        Address-space cap in GiB of the child process that runs each task.
+
+    Notes
+    -----
+    Every task runs through :func:`run_isolated` on its Dask worker, so a timeout,
+    a memory cap hit or a crash ends as it does with :class:`ProcessPool`, with the
+    same message, and the Dask worker lives on.
     """
 
     def __init__(self, workers: int, scheduler: str | None = None, time_limit: float | None = 300.0,
@@ -285,7 +416,7 @@ class DaskEngine:
         self.workers = max(1, workers)
         self.scheduler = scheduler
         self.time_limit = time_limit or None
-        self.memory_limit = f"{memory_limit}GiB" if memory_limit else None
+        self.memory_limit = int(memory_limit * _GIB) if memory_limit else None
 
     def run(self, func: Callable[..., Any], tasks: Sequence[tuple]) -> Iterator[TaskResult]:
         """Run ``func(*args)`` for every argument tuple on Dask; yield results as tasks end."""
@@ -304,7 +435,7 @@ class DaskEngine:
             else:
                 cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1, processes=True,
                                        host="127.0.0.1", dashboard_address="127.0.0.1:0",
-                                       memory_limit=self.memory_limit or 0, silence_logs=logging.ERROR)
+                                       memory_limit=0, silence_logs=logging.ERROR)
                 client = Client(cluster)
             yield from self._drive(client, as_completed, func, tasks)
         finally:
@@ -316,54 +447,30 @@ class DaskEngine:
 
     def _drive(self, client: Any, as_completed: Any, func: Callable[..., Any],
                tasks: Sequence[tuple]) -> Iterator[TaskResult]:
-        window = 4 * self.workers  # futures in flight: bounds memory on the workers and here
+        threads = sum(client.nthreads().values()) or self.workers
+        window = 2 * max(1, threads)  # futures in flight: bounds memory on the workers and here
         todo = iter(range(len(tasks)))
         started: dict[Any, tuple[int, float]] = {}
-        self._late: set[Any] = set()
 
         def submit() -> Any:
             i = next(todo, None)
             if i is None:
                 return None
-            fut = client.submit(func, *tasks[i], pure=False)
+            fut = client.submit(run_isolated, func, tasks[i], self.time_limit, self.memory_limit, pure=False)
             started[fut] = (i, time.monotonic())
             return fut
 
         ac = as_completed([f for f in (submit() for _ in range(window)) if f is not None])
-        while started:
-            for fut in self._next_batch(ac, started):
-                if fut not in started:  # a cancelled (timed-out) future, already reported
-                    continue
-                i, t0 = started.pop(fut)
-                yield self._result(fut, i, time.monotonic() - t0)
-                new = submit()
-                if new is not None:
-                    ac.add(new)
-
-    def _next_batch(self, ac: Any, started: dict[Any, tuple[int, float]]) -> list[Any]:
-        """Finished futures, or futures over the time limit (cancelled), whichever comes first."""
-        if not self.time_limit:
-            return [next(ac)]
-        while True:
-            with contextlib.suppress(StopIteration):
-                got = ac.next_batch(block=False)
-                if got:
-                    return got
-            now = time.monotonic()
-            late = [f for f, (_, t0) in started.items() if now - t0 > self.time_limit]
-            if late:
-                for f in late:
-                    f.cancel()
-                self._late.update(late)
-                return late
-            time.sleep(0.02)
+        for fut in ac:
+            i, t0 = started.pop(fut)
+            yield self._result(fut, i, time.monotonic() - t0)
+            new = submit()
+            if new is not None:
+                ac.add(new)
 
     def _result(self, fut: Any, i: int, elapsed: float) -> TaskResult:
-        if fut in self._late:
-            return TaskResult(i, "timeout", f"over the time limit of {self.time_limit:g} s "
-                                            "(still running on its Dask worker)", elapsed)
         try:
-            return TaskResult(i, "done", fut.result(), elapsed)
+            kind, value, seconds = fut.result()
         except MemoryError:
             return TaskResult(i, "memory", "out of memory on a Dask worker", elapsed)
         except Exception as exc:
@@ -371,3 +478,4 @@ class DaskEngine:
             if name == "KilledWorker":
                 return TaskResult(i, "crash", "Dask workers running this file died (KilledWorker)", elapsed)
             return TaskResult(i, "crash", f"{name} on a Dask worker: {exc}", elapsed)
+        return TaskResult(i, kind, value, seconds)

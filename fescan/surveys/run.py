@@ -47,6 +47,7 @@ import hashlib
 import logging
 import os
 import re
+import stat
 import sys
 import time
 import traceback
@@ -64,7 +65,7 @@ from fescan.core.options import ScanOptions
 from fescan.core.records import CATEGORIES
 from fescan.structure.reading import detect_format
 from fescan.surveys.backends import DaskEngine, ProcessPool, TaskResult, default_workers
-from fescan.surveys.store import TABLE_NAMES, SurveyStore, file_key
+from fescan.surveys.store import TABLE_NAMES, FileKey, SurveyStore, file_key
 
 __all__ = ["STRUCTURE_SUFFIXES", "SurveySummary", "analyse_file", "find_structure_files", "survey"]
 
@@ -108,7 +109,8 @@ def _failure(path: str, error_class: str, message: str, reason: str, seconds: fl
 
 
 def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = None,
-                 report_writer: Callable[[Any, Path], Any] | None = None) -> dict[str, Any]:
+                 report_writer: Callable[[Any, Path], Any] | None = None,
+                 label: str | None = None) -> dict[str, Any]:
     """Analyse one file for a survey: :func:`fescan.scan` and the rows of every table.
 
     Parameters
@@ -123,6 +125,9 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
         ``report_writer(result, folder)`` writes one structure's report (injected by the
         caller, e.g. :func:`fescan.report.write_report`; the survey stage never imports
         the report stage). A module-level function, so it can be sent to workers.
+    label : str, optional
+        The path as the user gave it, for the ``file`` column and the messages, when
+        ``path`` is that path made absolute (a Dask worker has another working folder).
 
     Returns
     -------
@@ -133,6 +138,13 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
         or ``failure`` (its row of the ``failures`` table, plus ``traceback`` for
         an unexpected error). Never raises for a bad file.
     """
+    if label is not None and label != path:
+        return _relabel(_analyse(path, options, report_dir, report_writer, label), path, label)
+    return _analyse(path, options, report_dir, report_writer, path)
+
+
+def _analyse(path: str, options: dict[str, Any], report_dir: str | None,
+             report_writer: Callable[[Any, Path], Any] | None, label: str) -> dict[str, Any]:
     _test_hooks(path)
     t0 = time.perf_counter()
     try:
@@ -160,10 +172,21 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
     out: dict[str, Any] = {"file": path, "status": "ok", "seconds": seconds, "structure": structure, "rows": rows}
     if report_dir and report_writer is not None:
         try:
-            report_writer(res, Path(report_dir) / report_stem(path))
+            report_writer(res, Path(report_dir) / report_stem(label))
         except Exception as exc:  # the analysis stands; the parent logs the report problem
             out["report_error"] = f"{type(exc).__name__}: {exc}"
     return out
+
+
+def _relabel(value: Any, path: str, label: str) -> Any:
+    """``value`` with every string holding ``path`` rewritten to ``label`` (file columns, messages)."""
+    if isinstance(value, str):
+        return value.replace(path, label) if path in value else value
+    if isinstance(value, dict):
+        return {k: _relabel(v, path, label) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_relabel(v, path, label) for v in value]
+    return value
 
 
 def report_stem(path: str) -> str:
@@ -200,32 +223,83 @@ def _looks_like_structure(path: Path) -> bool:
     return detect_format(head) != "unknown"
 
 
-def _walk(folder: Path, skip: Path | None) -> Iterable[Path]:
-    for root, dirs, files in os.walk(folder):
+def _special_kind(mode: int) -> str:
+    for test, kind in ((stat.S_ISFIFO, "a FIFO"), (stat.S_ISCHR, "a character device"),
+                       (stat.S_ISBLK, "a block device"), (stat.S_ISSOCK, "a socket")):
+        if test(mode):
+            return kind
+    return "not a regular file"
+
+
+def _walk(folder: Path, skip: Path | None, warn: Callable[[str], None] = logger.warning) -> Iterable[Path]:
+    """Structure files under ``folder``, following symbolic links once; what is left out is told to ``warn``.
+
+    A folder reached a second time (a symbolic-link loop, or two links to one folder) is
+    searched once. FIFOs, devices and sockets with a structure file name are yielded
+    (the survey gives them a failure row); others, and broken links, are warned about.
+    """
+    visited: set[tuple[int, int]] = set()
+
+    def on_error(exc: OSError) -> None:
+        warn(f"{exc.filename}: folder not searched ({exc.strerror or exc})")
+
+    for root, dirs, files in os.walk(folder, followlinks=True, onerror=on_error):
         here = Path(root)
+        try:
+            st = os.stat(here)
+        except OSError as exc:
+            warn(f"{here}: folder not searched ({exc.strerror or exc})")
+            dirs[:] = []
+            continue
+        if (st.st_dev, st.st_ino) in visited:
+            warn(f"{here}: folder already searched (reached again through a symbolic link): not searched twice")
+            dirs[:] = []
+            continue
+        visited.add((st.st_dev, st.st_ino))
         dirs[:] = sorted(d for d in dirs if not d.startswith(".")
                          and (skip is None or (here / d).resolve() != skip))
         for f in sorted(files):
             p = here / f
-            if f.startswith(".") or not p.is_file():
+            if f.startswith("."):
+                continue
+            try:
+                mode = os.stat(p).st_mode
+            except OSError as exc:
+                warn(f"{p}: skipped ({'broken symbolic link' if p.is_symlink() else exc.strerror or exc})")
+                continue
+            if not stat.S_ISREG(mode):
+                if _has_structure_suffix(f):
+                    yield p  # its failure row says what it is
+                else:
+                    warn(f"{p}: skipped ({_special_kind(mode)})")
                 continue
             if _has_structure_suffix(f) or _looks_like_structure(p):
                 yield p
 
 
 def find_structure_files(inputs: Iterable[str | os.PathLike[str]],
-                         exclude: str | os.PathLike[str] | None = None) -> list[str]:
+                         exclude: str | os.PathLike[str] | None = None, *,
+                         missing: list[str] | None = None,
+                         warnings: list[str] | None = None) -> list[str]:
     """List the structure files of the inputs, each once, in input order.
 
     Parameters
     ----------
     inputs : iterable of str or path-like
-        Files (taken whatever their name), folders (searched recursively:
-        files ending in .pdb, .ent, .cif, .mmcif, each optionally .gz, plus
-        files of other names whose content is PDB or mmCIF text; hidden files
-        and folders are skipped) and glob patterns (``**`` matches folders).
+        Files (taken whatever their name), folders (searched recursively,
+        following symbolic links, each folder once: files ending in .pdb, .ent,
+        .cif, .mmcif, each optionally .gz, plus files of other names whose
+        content is PDB or mmCIF text; hidden files and folders are skipped) and
+        glob patterns (``**`` matches folders).
     exclude : path-like, optional
         A folder never searched (the survey's output folder).
+    missing : list, optional
+        When given, inputs that do not exist (or patterns matching nothing) are
+        appended to it instead of raising.
+    warnings : list, optional
+        When given, what the folder walk left out (broken links, FIFOs and devices
+        without a structure name, unreadable folders, loops) is appended to it;
+        it is logged as a warning either way.
 
     Returns
     -------
@@ -235,24 +309,35 @@ def find_structure_files(inputs: Iterable[str | os.PathLike[str]],
     Raises
     ------
     fescan.errors.StructureNotFound
-        An input does not exist or a pattern matches nothing.
+        An input does not exist or a pattern matches nothing (unless ``missing`` is given).
     """
     skip = Path(exclude).resolve() if exclude is not None else None
+
+    def warn(text: str) -> None:
+        logger.warning("%s", text)
+        if warnings is not None:
+            warnings.append(text)
+
     seen: set[str] = set()
     out: list[str] = []
     for item in inputs:
         text = os.fspath(item)
-        if os.path.exists(text):
+        if os.path.exists(text) or os.path.islink(text):
             matches = [text]
         elif _GLOB_CHARS.search(text):
             matches = sorted(glob.glob(text, recursive=True))
             if not matches:
-                raise StructureNotFound(f"{text}: the pattern matches no file")
+                if missing is None:
+                    raise StructureNotFound(f"{text}: the pattern matches no file")
+                missing.append(text)
         else:
-            raise StructureNotFound(f"{text}: no such file or folder")
+            if missing is None:
+                raise StructureNotFound(f"{text}: no such file or folder")
+            missing.append(text)
+            matches = []
         for m in matches:
             p = Path(m)
-            found = _walk(p, skip) if p.is_dir() else [p]
+            found = _walk(p, skip, warn) if p.is_dir() else [p]
             for f in found:
                 key = str(f.resolve())
                 if key not in seen:
@@ -292,6 +377,8 @@ class SurveySummary:
         Wires with at least one hop, and those with a gap or too-slow hop.
     failures_by_reason : dict of str to int
         Failed files per reason (error, timeout, memory, crash).
+    warnings : list of str
+        What the folder walk left out (broken links, FIFOs, unreadable folders, loops).
     engine : str
     workers : int
     seconds : float
@@ -312,6 +399,7 @@ class SurveySummary:
     n_wires: int = 0
     n_wires_with_gaps: int = 0
     failures_by_reason: dict[str, int] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)
     engine: str = "processes"
     workers: int = 1
     seconds: float = 0.0
@@ -336,6 +424,7 @@ class SurveySummary:
             f"wires: {self.n_wires}, with gaps or too-slow hops: {self.n_wires_with_gaps}",
             f"failures by reason: {listing(self.failures_by_reason)}"
             + (f" ({self.n_unexpected} unexpected errors: bugs, see the log)" if self.n_unexpected else ""),
+            *(f"warning: {w}" for w in self.warnings),
             CAUTION,
         ])
 
@@ -435,9 +524,14 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
 
     Notes
     -----
-    Workers start from a ``forkserver`` and, as with any ``multiprocessing``
-    code, import the caller's main script: a script calling :func:`survey`
-    must guard its entry point with ``if __name__ == "__main__":``.
+    Workers start from a ``forkserver`` without the caller's ``__main__`` (a script
+    on stdin, ``python -c``, a notebook or a script without an
+    ``if __name__ == "__main__":`` guard all work) and with a ``sys.path`` free of
+    entries relative to the working folder. Workers that cannot start stop the survey
+    at once with :class:`~fescan.surveys.backends.WorkerStartError`, recording no
+    file. Only one survey writes into ``out_dir`` at a time (a second one raises
+    :class:`~fescan.surveys.lock.SurveyLocked` naming the first); an input path
+    that does not exist gets a failure row.
 
     Examples
     --------
@@ -458,14 +552,50 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
     if isinstance(inputs, (str, os.PathLike)):
         inputs = [inputs]
     out = Path(out_dir)
-    files = find_structure_files(list(inputs), exclude=out)
+    inputs = list(inputs)
+    missing: list[str] = []
+    walk_notes: list[str] = []
+    files = find_structure_files(inputs, exclude=out, missing=missing, warnings=walk_notes)
+    if not files and missing:  # nothing at all to survey: say so rather than write a table of absences
+        raise StructureNotFound(f"{', '.join(missing)}: no such file or folder (or the pattern matches no file)")
     if not files:
         raise StructureNotFound(f"no structure files found in {', '.join(map(os.fspath, inputs))}")
-    store = SurveyStore(out, opts)
+    with SurveyStore(out, opts) as store:
+        summary = _survey_in(store, out, files, missing, walk_notes, opts, report=report,
+                             retry_failed=retry_failed, workers=workers, engine=engine, scheduler=scheduler,
+                             report_writer=report_writer, time_limit=time_limit, memory_limit=memory_limit,
+                             batch_size=batch_size, quiet=quiet, table_format=table_format)
+    if report and page_writer is not None:
+        _survey_report(out, page_writer)
+    summary.seconds = time.monotonic() - t_start
+    logger.info("survey done:\n%s", summary.to_text())
+    return summary
+
+
+def _key(path: str) -> FileKey:
+    """The resume key of ``path``; a path that cannot be looked at gets size and mtime -1."""
+    try:
+        return file_key(path)
+    except (OSError, ValueError):
+        return FileKey(os.path.abspath(path), -1, -1)
+
+
+def _survey_in(store: SurveyStore, out: Path, files: list[str], missing: list[str], walk_notes: list[str],
+               opts: dict[str, Any], *, report: bool, retry_failed: bool, workers: int | None, engine: str,
+               scheduler: str | None, report_writer: Callable[[Any, Path], Any] | None,
+               time_limit: float | None, memory_limit: float | None, batch_size: int, quiet: bool,
+               table_format: str) -> SurveySummary:
+    """The survey proper, with the output folder locked."""
     done = store.latest()
+    lost: list[tuple[str, FileKey]] = []
+    for m in missing:  # an input that is not there is a failure row, not the end of the survey
+        key = FileKey(os.path.abspath(m), -1, -1)
+        rec = done.get(key.resolved)
+        if not (rec and rec["size"] == -1 and not retry_failed):
+            lost.append((m, key))
     todo: list[tuple[str, Any]] = []
     for f in files:
-        key = file_key(f)
+        key = _key(f)
         rec = done.get(key.resolved)
         if rec and (rec["size"], rec["mtime_ns"]) == (key.size, key.mtime_ns) and (
                 rec["status"] == "ok" or not retry_failed):
@@ -475,19 +605,22 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
                 continue
         todo.append((f, key))
     n_workers = max(1, min(workers or default_workers(), len(todo) or 1))
-    summary = SurveySummary(out_dir=str(out), n_files=len(files), n_skipped=len(files) - len(todo),
-                            engine=engine, workers=n_workers)
-    report_dir = str(out / "structures") if report else None
+    n_files = len(files) + len(missing)
+    summary = SurveySummary(out_dir=str(out), n_files=n_files, n_skipped=n_files - len(todo) - len(lost),
+                            engine=engine, workers=n_workers, warnings=list(walk_notes))
+    report_dir = str(out.absolute() / "structures") if report else None
+    if lost:
+        outcomes = [_failure(m, "StructureNotFound", f"{m}: no such file or folder"
+                             + (" (or the pattern matches no file)" if _GLOB_CHARS.search(m) else ""),
+                             "error", 0.0) for m, _ in lost]
+        store.commit(outcomes, [k for _, k in lost])
+        summary.n_failed += len(lost)
     if todo:
         _run(store, todo, summary, opts, report_dir, report_writer, time_limit=time_limit, memory_limit=memory_limit,
              engine=engine, scheduler=scheduler, batch_size=batch_size, quiet=quiet)
     totals = _Totals(summary)
     summary.tables = {k: str(v) for k, v in store.merge(table_format, on_chunk=totals).items()}
     totals.finish()
-    if report_dir is not None and page_writer is not None:
-        _survey_report(out, page_writer)
-    summary.seconds = time.monotonic() - t_start
-    logger.info("survey done:\n%s", summary.to_text())
     return summary
 
 
@@ -508,12 +641,20 @@ def _run(store: SurveyStore, todo: list[tuple[str, Any]], summary: SurveySummary
         runner: Any = DaskEngine(summary.workers, scheduler, time_limit, memory_limit)
     else:
         runner = ProcessPool(summary.workers, time_limit, memory_limit)
-    tasks = [(path, opts, report_dir, report_writer) for path, _ in todo]
+    # workers read absolute paths (a Dask worker has its own working folder); rows keep the paths as given
+    tasks = [(os.path.abspath(path), opts, report_dir, report_writer, path) for path, _ in todo]
     buf: list[dict[str, Any]] = []
     keys: list[Any] = []
     last = time.monotonic()
     bar = tqdm(total=len(todo), unit="file", file=sys.stderr, disable=quiet, dynamic_ncols=True,
                desc="survey")
+
+    def flush() -> None:
+        nonlocal buf, keys, last
+        batch, batch_keys = buf, keys
+        buf, keys, last = [], [], time.monotonic()  # emptied first: a failed commit is never replayed
+        store.commit(batch, batch_keys)
+
     try:
         for result in runner.run(analyse_file, tasks):
             path, key = todo[result.index]
@@ -528,13 +669,12 @@ def _run(store: SurveyStore, todo: list[tuple[str, Any]], summary: SurveySummary
             buf.append(o)
             keys.append(key)
             if len(buf) >= batch_size or time.monotonic() - last > _FLUSH_SECONDS:
-                store.commit(buf, keys)
-                buf, keys, last = [], [], time.monotonic()
+                flush()
             bar.update(1)
             bar.set_postfix({"ok": summary.n_ok, "failed": summary.n_failed}, refresh=False)
     finally:
         if buf:
-            store.commit(buf, keys)
+            flush()
         bar.close()
 
 

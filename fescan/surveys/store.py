@@ -18,6 +18,15 @@ has no line (orphans, deleted on the next run), at most one half-written last
 line (ignored and cut off) and temporary files (deleted) — never a committed
 file whose rows are missing, nor rows counted twice.
 
+One survey at a time: ``_survey_state/lock`` is held (``flock``, released by the
+kernel when its process ends, so a lock left by a killed run is taken over) from
+before the folder is read or tidied, so a second survey can never delete the
+parts of a running one. The merged tables are replaced as one set: all are
+written to temporary names first, then ``_survey_state/merge.json`` lists the
+renames, then they are made; a run killed among the renames has them finished
+by the next one. A write that fails (disk full...) raises one
+:class:`SurveyWriteError`; the batch is not retried under another id.
+
 A file is known by its resolved path, size and modification time (ns). When a
 file is analysed again (``retry_failed``, or it changed), the rows of its latest
 batch win at the merge; older rows stay in their parts but are filtered out.
@@ -27,12 +36,13 @@ Parts are always Parquet; the merged tables are Parquet or CSV.
 from __future__ import annotations
 
 import contextlib
+import errno
 import functools
 import json
 import logging
 import os
 import time
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -43,6 +53,7 @@ import pyarrow.parquet as pq
 
 from fescan.analysis.tables import SCHEMAS, empty_table, to_frame
 from fescan.core.errors import ConfigError, FescanError
+from fescan.surveys.lock import FolderLock
 
 __all__ = [
     "STATE_DIR",
@@ -51,7 +62,9 @@ __all__ = [
     "file_key",
     "arrow_schema",
     "SurveyStore",
+    "SurveyWriteError",
     "read_table",
+    "neutralise_csv",
 ]
 
 logger = logging.getLogger(__name__)
@@ -63,6 +76,7 @@ STATE_DIR = "_survey_state"
 #: (One list: the declared schemas; ``timings`` is the only table whose values differ between runs.)
 TABLE_NAMES: tuple[str, ...] = tuple(SCHEMAS)
 
+_MERGE_MANIFEST = "merge.json"  # tables being renamed into place (see SurveyStore.merge)
 _MERGE_ROWS = 65536  # rows buffered before a row group of a merged Parquet table is written
 
 
@@ -91,6 +105,23 @@ def arrow_schema(name: str) -> pa.Schema:
     ``float64``).
     """
     return pa.Schema.from_pandas(empty_table(name), preserve_index=False)
+
+
+class SurveyWriteError(FescanError):
+    """The survey folder cannot be written (disk full, read-only, quota...)."""
+
+
+@contextlib.contextmanager
+def _writing(folder: Path, what: str) -> Iterator[None]:
+    """Turn an OSError while writing into one clear :class:`SurveyWriteError`."""
+    try:
+        yield
+    except OSError as exc:
+        reason = exc.strerror or str(exc)
+        hint = " (disk full?)" if exc.errno in (errno.ENOSPC, errno.EDQUOT) else ""
+        raise SurveyWriteError(
+            f"{folder}: cannot write {what}: {reason}{hint}; the files committed before are kept: "
+            "fix this and run the same command again to resume") from exc
 
 
 def _fsync_dir(path: Path) -> None:
@@ -133,12 +164,38 @@ class SurveyStore:
                 (self.parts / name).mkdir(parents=True, exist_ok=True)
         except OSError as exc:
             raise FescanError(f"{self.out_dir}: cannot create the survey folder ({exc.strerror or exc})") from exc
-        self._check_settings(scan_options)
-        self._run = f"{time.time_ns():020d}-{os.getpid()}"
-        self._seq = 0
-        self.batches: dict[str, list[dict]] = {}
-        self._load_index()
-        self._remove_orphans()
+        # the lock comes before anything that reads or tidies the folder: never delete another run's parts
+        self._lock = FolderLock(self.state / "lock", self.out_dir)
+        self._lock.acquire()
+        try:
+            with _writing(self.out_dir, "the survey settings"):
+                self._check_settings(scan_options)
+            self._run = f"{time.time_ns():020d}-{os.getpid()}"
+            self._seq = 0
+            self.batches: dict[str, list[dict]] = {}
+            with _writing(self.out_dir, "the survey index"):
+                self._load_index()
+                self._finish_merge()
+                self._remove_orphans()
+        except BaseException:
+            self.close()
+            raise
+
+    def close(self) -> None:
+        """Release the folder lock (the store can no longer be written)."""
+        lock = getattr(self, "_lock", None)
+        if lock is not None:
+            lock.release()
+
+    def __enter__(self) -> SurveyStore:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    def __del__(self) -> None:  # a store dropped without close() must not keep the folder locked
+        with contextlib.suppress(Exception):
+            self.close()
 
     # --- opening -------------------------------------------------------------------
 
@@ -181,6 +238,21 @@ class SurveyStore:
                 fh.truncate(good)
                 os.fsync(fh.fileno())
 
+    def _finish_merge(self) -> None:
+        """Complete a merge killed while it renamed its tables into place (all or none are new)."""
+        manifest = self.state / _MERGE_MANIFEST
+        if not manifest.exists():
+            return
+        try:
+            pairs = json.loads(manifest.read_text(encoding="utf-8"))["tables"]
+        except (OSError, ValueError, KeyError, TypeError):
+            pairs = []  # the manifest itself was cut short: the old tables were never touched
+        for tmp, final in pairs:
+            if (self.out_dir / tmp).exists():
+                os.replace(self.out_dir / tmp, self.out_dir / final)
+        _fsync_dir(self.out_dir)
+        manifest.unlink(missing_ok=True)
+
     def _remove_orphans(self) -> None:
         """Delete temporary files and parts of batches never committed."""
         for table_dir in self.parts.iterdir():
@@ -222,6 +294,18 @@ class SurveyStore:
         """
         batch = f"{self._run}-{self._seq:06d}"
         self._seq += 1
+        try:
+            with _writing(self.out_dir, f"batch {batch}"):
+                self._commit(batch, outcomes, keys)
+        except BaseException:
+            for name in TABLE_NAMES:  # leave no part of an uncommitted batch (the next run would drop it anyway)
+                for f in (self.parts / name / f"{batch}.parquet", self.parts / name / f"{batch}.parquet.tmp"):
+                    with contextlib.suppress(OSError):
+                        f.unlink(missing_ok=True)
+            raise
+        return batch
+
+    def _commit(self, batch: str, outcomes: list[dict], keys: list[FileKey]) -> None:
         rows: dict[str, list[dict]] = {name: [] for name in TABLE_NAMES}
         for o in outcomes:
             rows["structures"].append(o["structure"])
@@ -247,7 +331,6 @@ class SurveyStore:
             fh.flush()
             os.fsync(fh.fileno())
         self.batches[batch] = files
-        return batch
 
     # --- merging -------------------------------------------------------------------
 
@@ -273,16 +356,33 @@ class SurveyStore:
             raise ConfigError(f"table format must be 'parquet' or 'csv', not {table_format!r}")
         keep = self._rows_to_keep()
         written: dict[str, Path] = {}
-        for name in TABLE_NAMES:
-            final = self.out_dir / f"{name}.{table_format}"
-            tmp = final.with_name(final.name + ".tmp")
-            chunks = self._filtered_parts(name, keep)
-            if table_format == "parquet":
-                _write_parquet(tmp, name, chunks, on_chunk)
-            else:
-                _write_csv(tmp, name, chunks, on_chunk)
-            _replace_durably(tmp, final)
-            written[name] = final
+        pairs: list[tuple[Path, Path]] = []
+        try:
+            with _writing(self.out_dir, "the merged tables"):
+                for name in TABLE_NAMES:  # every table to a temporary name first...
+                    final = self.out_dir / f"{name}.{table_format}"
+                    tmp = final.with_name(final.name + ".tmp")
+                    pairs.append((tmp, final))
+                    chunks = self._filtered_parts(name, keep)
+                    if table_format == "parquet":
+                        _write_parquet(tmp, name, chunks, on_chunk)
+                    else:
+                        _write_csv(tmp, name, chunks, on_chunk)
+                    with open(tmp, "rb+") as fh:
+                        os.fsync(fh.fileno())
+                    written[name] = final
+                # ...then a manifest, so that a kill during the renames is completed by the next run
+                manifest = self.state / _MERGE_MANIFEST
+                tmp_manifest = manifest.with_name(manifest.name + ".tmp")
+                tmp_manifest.write_text(json.dumps({"tables": [[t.name, f.name] for t, f in pairs]}) + "\n",
+                                        encoding="utf-8")
+                _replace_durably(tmp_manifest, manifest)
+        except BaseException:
+            for tmp, _ in pairs:
+                with contextlib.suppress(OSError):
+                    tmp.unlink(missing_ok=True)
+            raise
+        self._finish_merge()
         return written
 
     def _rows_to_keep(self) -> dict[str, set[str]]:
@@ -333,12 +433,47 @@ def _write_parquet(tmp: Path, name: str, chunks: Iterable[pa.Table],
             writer.write_table(table.slice(start, _MERGE_ROWS))
 
 
+# A text cell starting with one of these is run as a formula by spreadsheet programs
+# (CSV injection; OWASP, common practice, no primary source); a quote in front keeps it text.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = r"^[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?$"
+
+
+def neutralise_csv(df: pd.DataFrame) -> pd.DataFrame:
+    """Text cells that a spreadsheet would run as a formula, prefixed with ``'``; numbers untouched.
+
+    Only text columns are looked at; a text cell that is a plain number (``-1.5``) stays as it is.
+    :func:`read_table` takes the quote off again.
+    """
+    out = None
+    for col in df.columns:
+        s = df[col]
+        if not (pd.api.types.is_string_dtype(s.dtype) or s.dtype == object):
+            continue
+        text = s.astype("string")
+        risky = text.str.startswith(_FORMULA_START).fillna(False) & ~text.str.match(_PLAIN_NUMBER).fillna(False)
+        if risky.any():
+            out = df.copy() if out is None else out
+            out[col] = text.mask(risky, "'" + text)
+    return df if out is None else out
+
+
+def _unneutralise(df: pd.DataFrame) -> pd.DataFrame:
+    for col in df.columns:
+        if pd.api.types.is_string_dtype(df[col].dtype):
+            text = df[col]
+            quoted = text.str.startswith(tuple("'" + c for c in _FORMULA_START)).fillna(False)
+            if quoted.any():
+                df[col] = text.mask(quoted, text.str.slice(1))
+    return df
+
+
 def _write_csv(tmp: Path, name: str, chunks: Iterable[pa.Table],
                on_chunk: Callable[[str, pa.Table], None] | None) -> None:
     table = _sorted(name, chunks, on_chunk)
     with open(tmp, "w", encoding="utf-8", newline="") as fh:
         if table.num_rows:
-            table.to_pandas().to_csv(fh, index=False)
+            neutralise_csv(table.to_pandas()).to_csv(fh, index=False)
         else:  # no rows at all: still write the header line
             empty_table(name).to_csv(fh, index=False)
 
@@ -362,7 +497,7 @@ def read_table(path: str | os.PathLike[str], name: str) -> pd.DataFrame:
     cols = SCHEMAS[name]
     dtypes = {c.name: c.dtype for c in cols}
     if p.suffix == ".csv":
-        df = pd.read_csv(p, dtype=dtypes, keep_default_na=False, na_values=[""])
+        df = _unneutralise(pd.read_csv(p, dtype=dtypes, keep_default_na=False, na_values=[""]))
     else:
         df = pd.read_parquet(p)
     return df.astype(dtypes)
