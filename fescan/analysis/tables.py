@@ -9,9 +9,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-import pandas as pd
-
 if TYPE_CHECKING:  # pragma: no cover
+    import pandas as pd
+
     from fescan.analysis.scan import ScanResult
 
 __all__ = ["Column", "SCHEMAS", "empty_table", "cofactor_rows", "ligand_rows", "flag_rows", "pair_rows",
@@ -151,11 +151,15 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
 
 def empty_table(name: str) -> pd.DataFrame:
     """An empty DataFrame with the declared columns and dtypes of table ``name``."""
+    import pandas as pd  # imported on use: a single scan without --csv never loads pandas
+
     return pd.DataFrame({c.name: pd.Series(dtype=c.dtype) for c in SCHEMAS[name]})
 
 
 def to_frame(name: str, rows: list[dict]) -> pd.DataFrame:
     """Rows → DataFrame with exactly the declared columns (in order) and dtypes."""
+    import pandas as pd
+
     cols = SCHEMAS[name]
     df = pd.DataFrame(rows, columns=[c.name for c in cols]) if rows else empty_table(name)
     return df.astype({c.name: c.dtype for c in cols})

@@ -27,11 +27,12 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 def run(a: argparse.Namespace) -> int:
     """Run ``fescan scan``."""
     from fescan.analysis.scan import scan
-    from fescan.analysis.tables import result_tables
     from fescan.report.text import render_text
 
     res = scan(a.file, **wire_options(a))
     if a.csv:
+        from fescan.analysis.tables import result_tables
+
         out = Path(a.csv)
         try:
             out.mkdir(parents=True, exist_ok=True)
