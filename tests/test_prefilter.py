@@ -116,3 +116,13 @@ def test_chain_named_w_is_not_tungsten():
            b"ATOM 1 C CA ALA W 1.0 2.0 3.0\n")
     assert not screen_text(cif).candidate
     assert screen_text(cif.replace(b"ATOM 1 C CA ALA W", b"HETATM 1 W W W W")).candidate
+
+
+def test_irregular_mmcif_layout_uses_the_cif_tokenizer():
+    # a row split over two lines (legal CIF): the numpy column reader declines, gemmi's tokenizer decides
+    cif = (b"data_x\nloop_\n_atom_site.group_PDB\n_atom_site.id\n_atom_site.type_symbol\n"
+           b"_atom_site.label_atom_id\n_atom_site.label_comp_id\n_atom_site.label_asym_id\n"
+           b"_atom_site.Cartn_x\n_atom_site.Cartn_y\n_atom_site.Cartn_z\n"
+           b"ATOM 1 C CA ALA W 1.0 2.0 3.0\nHETATM 2 FE FE\nFE B 1.0 2.0 3.0\n")
+    assert screen_text(cif).candidate
+    assert not screen_text(cif.replace(b"HETATM 2 FE FE\nFE B", b"ATOM 2 C CB\nALA B")).candidate

@@ -201,6 +201,77 @@ def _cif_columns(text: bytes) -> Verdict:
     return Verdict(False, "no redox metal or cofactor code in the atom records")
 
 
+_WANTED = ("type_symbol", "label_comp_id", "auth_comp_id")
+_LOOP_END = re.compile(rb"\n(?:#|loop_|_|data_|;)")
+
+
+def _cif_loop_values(text: bytes) -> dict[str, set[str]] | None:
+    """Distinct values of the wanted ``_atom_site`` columns, read with numpy; None if irregular.
+
+    Works on the usual layout (one ``_atom_site`` loop, one row per line, no value
+    with inner spaces); anything else returns None and gemmi's tokenizer decides.
+    """
+    head = text.find(b"\n_atom_site.")
+    if head < 0 or text.find(b"\n_atom_site.", text.find(b"\n", text.rfind(b"\n_atom_site.")) + 1) >= 0:
+        return None
+    if not text[:head].rstrip().endswith(b"loop_"):
+        return None  # a one-atom file written as key-value pairs
+    first = head + 1
+    pos = first
+    names = []
+    while text.startswith(b"_atom_site.", pos):
+        end = text.find(b"\n", pos)
+        if end < 0:
+            return None
+        names.append(text[pos + 11:end].strip().decode("ascii", "replace"))
+        pos = end + 1
+    if len(names) > 0 and text.find(b"\n_atom_site.", pos - 1) >= 0:
+        return None  # a second _atom_site loop (several blocks)
+    stop = _LOOP_END.search(text, pos - 1)
+    body = np.frombuffer(text[pos:stop.start() + 1 if stop else len(text)] + b"\n", dtype=np.uint8)
+    ws = body <= 32
+    prev_ws = np.concatenate(([True], ws[:-1]))
+    starts = np.flatnonzero(~ws & prev_ws)
+    ends = np.flatnonzero(ws & ~prev_ws)
+    if len(starts) == 0:
+        return {k: set() for k in _WANTED}
+    line_of = np.cumsum(body == 10, dtype=np.int32)[starts]
+    counts = np.bincount(line_of)
+    if not np.all((counts == 0) | (counts == len(names))):
+        return None
+    index = np.arange(len(starts)) - (np.cumsum(counts) - counts)[line_of]
+    padded = np.concatenate((body, np.zeros(8, np.uint8)))
+    out = {}
+    for col in _WANTED:
+        if col not in names:
+            out[col] = set()
+            continue
+        pick = index == names.index(col)
+        s0, width = starts[pick], (ends[pick] - starts[pick])[:, None]
+        raw = padded[s0[:, None] + np.arange(8)]
+        raw[np.arange(8)[None, :] >= width] = 0
+        long = width[:, 0] > 8
+        vals = {v.decode("ascii", "replace").strip("'\"") for v in np.unique(raw.view("S8").ravel())}
+        if long.any():
+            vals.add("<long>")
+        out[col] = vals
+    return out
+
+
+def _cif_fast(text: bytes) -> Verdict | None:
+    values = _cif_loop_values(text)
+    if values is None:
+        return None
+    codes, metals, _ = _vocabulary()
+    found = sorted((values["label_comp_id"] | values["auth_comp_id"]) & codes)
+    if found:
+        return Verdict(True, f"residue {found[0]}")
+    hit = sorted({v.upper() for v in values["type_symbol"]} & metals)
+    if hit:
+        return Verdict(True, f"element {hit[0]}")
+    return Verdict(False, "no redox metal or cofactor code in the atom records")
+
+
 def screen_text(text: bytes) -> Verdict:
     """Decide from the whole (decompressed) text of a structure file.
 
@@ -220,6 +291,9 @@ def screen_text(text: bytes) -> Verdict:
         return _pdb_columns(text)
     if kind != "mmcif":
         return Verdict(True, f"{kind} text: left to the full analysis")
+    fast = _cif_fast(text)  # the usual layout: the atom_site columns read with numpy
+    if fast is not None:
+        return fast
     hits = _screen_hits(b"\n" + text + b"\n")
     if not hits:
         return Verdict(False, "no redox metal or cofactor code in the file")
