@@ -34,7 +34,6 @@ from __future__ import annotations
 
 import gzip
 import re
-import zlib
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
@@ -303,13 +302,22 @@ def screen_text(text: bytes) -> Verdict:
     return _cif_columns(text)
 
 
+def _gzip_reader(raw):
+    """A streaming gzip reader: ISA-L's when installed (about 3x zlib's speed), else zlib's."""
+    try:
+        from isal import igzip
+    except ImportError:  # pragma: no cover - isal is a dependency
+        return gzip.GzipFile(fileobj=raw)
+    return igzip.GzipFile(fileobj=raw)
+
+
 def _chunks(path: Path):
     """Decompressed text of ``path`` in steps of about 4 MiB (gzip detected by its magic bytes)."""
     with open(path, "rb") as raw:
         magic = raw.read(2)
         raw.seek(0)
         if magic == b"\x1f\x8b":
-            with gzip.GzipFile(fileobj=raw) as fh:
+            with _gzip_reader(raw) as fh:
                 while block := fh.read(_CHUNK):
                     yield block
         else:
@@ -336,6 +344,6 @@ def can_hold_candidate(path: str | Path) -> Verdict:
     """
     try:
         text = b"".join(_chunks(Path(path)))
-    except (OSError, EOFError, zlib.error) as exc:
+    except Exception as exc:  # OSError, EOFError, zlib or ISA-L errors: the full analysis reports them
         return Verdict(True, f"not readable by the prefilter ({type(exc).__name__})")
     return screen_text(text)
