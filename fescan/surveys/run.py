@@ -58,15 +58,7 @@ from pathlib import Path
 from typing import Any
 
 from fescan.analysis.scan import CAUTION, scan
-from fescan.analysis.tables import (
-    SCHEMAS,
-    cofactor_rows,
-    flag_rows,
-    hop_rows,
-    ligand_rows,
-    pair_rows,
-    wire_rows,
-)
+from fescan.analysis.tables import SCHEMAS, result_rows
 from fescan.core.errors import ConfigError, FescanError, StructureNotFound
 from fescan.core.options import ScanOptions
 from fescan.core.records import CATEGORIES
@@ -82,8 +74,6 @@ logger = logging.getLogger(__name__)
 #: File name endings taken from folders without looking inside (each also with ``.gz``).
 STRUCTURE_SUFFIXES: tuple[str, ...] = (".pdb", ".ent", ".cif", ".mmcif")
 
-_ROW_BUILDERS = {"cofactors": cofactor_rows, "ligands": ligand_rows, "flags": flag_rows,
-                 "pairs": pair_rows, "hops": hop_rows, "wires": wire_rows}
 _CATEGORY_COLUMNS = {c: "n_" + c.replace("-", "_") for c in CATEGORIES}
 _GLOB_CHARS = re.compile(r"[*?\[]")
 _SNIFF_BYTES = 65536
@@ -108,13 +98,13 @@ def _test_hooks(path: str) -> None:
             hog.append(np.empty(64 << 20, dtype=np.uint8))
 
 
-def _failed_structure_row(path: str, seconds: float) -> dict[str, Any]:
-    return {"file": path, "status": "failed", "seconds": seconds}
+def _failed_structure_row(path: str) -> dict[str, Any]:
+    return {"file": path, "status": "failed"}
 
 
 def _failure(path: str, error_class: str, message: str, reason: str, seconds: float) -> dict[str, Any]:
     return {"file": path, "status": "failed", "seconds": seconds,
-            "structure": _failed_structure_row(path, seconds),
+            "structure": _failed_structure_row(path),
             "failure": {"file": path, "error_class": error_class, "message": message, "reason": reason}}
 
 
@@ -161,7 +151,7 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
         return _no_candidate(path, time.perf_counter() - t0)
     try:
         res = scan(path, **options)
-        rows = {name: build(res) for name, build in _ROW_BUILDERS.items()}
+        rows = result_rows(res)
     except MemoryError:
         raise  # the worker reports it (and is replaced)
     except FescanError as exc:
@@ -179,7 +169,7 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
         "resolution": info.resolution, "n_models": info.n_models, "n_atoms": info.n_atoms,
         **{col: counts.get(cat, 0) for cat, col in _CATEGORY_COLUMNS.items()},
         "n_cofactors": len(res.cofactors), "n_flags": sum(len(c.flags) for c in res.cofactors),
-        "status": "ok", "seconds": seconds,
+        "status": "ok",
     }
     out: dict[str, Any] = {"file": path, "status": "ok", "seconds": seconds, "structure": structure, "rows": rows}
     if report_dir and report_writer is not None:

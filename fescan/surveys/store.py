@@ -52,7 +52,6 @@ __all__ = [
     "arrow_schema",
     "SurveyStore",
     "read_table",
-    "tables_markdown",
 ]
 
 logger = logging.getLogger(__name__)
@@ -61,9 +60,8 @@ logger = logging.getLogger(__name__)
 STATE_DIR = "_survey_state"
 
 #: Tables a survey writes, in the order they are merged.
-TABLE_NAMES: tuple[str, ...] = (
-    "structures", "failures", "cofactors", "ligands", "flags", "pairs", "hops", "wires",
-)
+#: (One list: the declared schemas; ``timings`` is the only table whose values differ between runs.)
+TABLE_NAMES: tuple[str, ...] = tuple(SCHEMAS)
 
 _MERGE_ROWS = 65536  # rows buffered before a row group of a merged Parquet table is written
 
@@ -227,6 +225,7 @@ class SurveyStore:
         rows: dict[str, list[dict]] = {name: [] for name in TABLE_NAMES}
         for o in outcomes:
             rows["structures"].append(o["structure"])
+            rows["timings"].append({"file": o["file"], "seconds": o["seconds"]})
             if o.get("failure"):
                 rows["failures"].append(o["failure"])
             for name, part in (o.get("rows") or {}).items():
@@ -307,34 +306,40 @@ class SurveyStore:
                 yield table
 
 
+def _sorted(name: str, chunks: Iterable[pa.Table],
+            on_chunk: Callable[[str, pa.Table], None] | None) -> pa.Table:
+    """All rows of one table in a defined order: by its declared columns, left to right.
+
+    Workers finish in any order; sorting makes the merged tables (and so the
+    committed demo outputs) independent of it. The rows of one table are held in
+    memory for the sort (Arrow columns: a few hundred bytes a row, so a survey of
+    the whole archive stays within a few GiB at most).
+    """
+    tables = []
+    for t in chunks:
+        if on_chunk:
+            on_chunk(name, t)
+        tables.append(t)
+    table = pa.concat_tables(tables) if tables else arrow_schema(name).empty_table()
+    keys = [(c.name, "ascending") for c in SCHEMAS[name]]
+    return table.sort_by(keys) if table.num_rows > 1 else table
+
+
 def _write_parquet(tmp: Path, name: str, chunks: Iterable[pa.Table],
                    on_chunk: Callable[[str, pa.Table], None] | None) -> None:
-    schema = arrow_schema(name)
-    buf: list[pa.Table] = []
-    n = 0
-    with pq.ParquetWriter(tmp, schema) as writer:
-        for t in chunks:
-            if on_chunk:
-                on_chunk(name, t)
-            buf.append(t)
-            n += t.num_rows
-            if n >= _MERGE_ROWS:
-                writer.write_table(pa.concat_tables(buf))
-                buf, n = [], 0
-        if buf:
-            writer.write_table(pa.concat_tables(buf))
+    table = _sorted(name, chunks, on_chunk)
+    with pq.ParquetWriter(tmp, arrow_schema(name)) as writer:
+        for start in range(0, max(table.num_rows, 1), _MERGE_ROWS):
+            writer.write_table(table.slice(start, _MERGE_ROWS))
 
 
 def _write_csv(tmp: Path, name: str, chunks: Iterable[pa.Table],
                on_chunk: Callable[[str, pa.Table], None] | None) -> None:
-    header = True
+    table = _sorted(name, chunks, on_chunk)
     with open(tmp, "w", encoding="utf-8", newline="") as fh:
-        for t in chunks:
-            if on_chunk:
-                on_chunk(name, t)
-            t.to_pandas().to_csv(fh, header=header, index=False)
-            header = False
-        if header:  # no rows at all: still write the header line
+        if table.num_rows:
+            table.to_pandas().to_csv(fh, index=False)
+        else:  # no rows at all: still write the header line
             empty_table(name).to_csv(fh, index=False)
 
 
@@ -361,57 +366,3 @@ def read_table(path: str | os.PathLike[str], name: str) -> pd.DataFrame:
     else:
         df = pd.read_parquet(p)
     return df.astype(dtypes)
-
-
-_TABLE_INTROS = {
-    "structures": "One row per input file, whether it succeeded (`status` = `ok`) or not (`failed`; the "
-                  "other columns are then empty and the file has a row in `failures`).",
-    "failures": "One row per file that could not be analysed. `reason` is `error` (the file is bad: missing, "
-                "empty, not a structure, damaged gzip, truncated, non-finite coordinates...; `error_class` is "
-                "the fescan exception, a `FescanError` subclass; any other class is a bug in fescan and is "
-                "logged with its traceback), `timeout` (over the per-file time limit; `Timeout`), `memory` "
-                "(over the per-worker memory cap; `MemoryError`) or `crash` (the worker process died: "
-                "segfault, `os._exit`, killed by a signal; `WorkerCrash`).",
-    "cofactors": "One row per redox cofactor found, as `fescan scan --csv` writes it.",
-    "ligands": "One row per bond from a cofactor metal to a ligating atom outside the cofactor.",
-    "flags": "One row per finding of the ligation and geometry checks.",
-    "pairs": "One row per cofactor pair within the cutoff. Rates are model estimates (Moser-Dutton), "
-             "not measurements.",
-    "hops": "One row per hop of the fastest path of each structure. Rates and times are model estimates.",
-    "wires": "One row per structure analysed: entry, exit, fastest path, bottleneck and transfer times. "
-             "Times are model estimates from the Moser-Dutton law, not measurements.",
-}
-
-_DOC_HEAD = """# Survey tables
-
-`fescan survey INPUT... -o OUT` (or `fescan.survey(inputs, out_dir)`) writes one table per kind into `OUT`:
-`OUT/<table>.parquet` by default, `OUT/<table>.csv` with `--format csv`. The columns are declared once, in
-`fescan/tables.py` (`SCHEMAS`); the tables below list them with their pandas dtype and unit. This file is
-made by `fescan.survey_store.tables_markdown()`; a test checks that it is up to date.
-
-- Every row has a `file` column: the structure file as found in the inputs (not resolved).
-- Rows come in the order the files finished; sort by `file` for a stable order.
-- Parquet keeps the dtypes: `pandas.read_parquet("OUT/cofactors.parquet")` gives `string`, `Int64`,
-  `boolean` and `float64` columns as listed. For CSV use `fescan.survey_store.read_table(path, name)`;
-  in CSV an empty string and a missing value are written alike.
-- Cofactor ids are `MODEL:CHAIN/RESNUM[ICODE]:CODE` (`CODE` is `-` for a cluster found by geometry alone).
-- Rates (`log10_k_*`, log10 of s⁻¹) and times (`*_time_s`, s) are estimates from the empirical Moser-Dutton
-  tunnelling law (Page, Moser, Chen & Dutton 1999, Nature 402:47), not measurements.
-- `OUT/_survey_state/` holds what lets a rerun resume: the options used, the index of files done
-  (keyed by resolved path, size and modification time) and the part files. A rerun into `OUT` analyses
-  only new or changed files (and, with `--retry-failed`, the failed ones); the merged tables always hold
-  the latest result of every file ever surveyed into `OUT`.
-- With `--report`, per-structure reports go to `OUT/structures/<file name>-<8 hex digits>` and the
-  survey report into `OUT` (when the report module is installed).
-"""
-
-
-def tables_markdown() -> str:
-    """The Markdown reference of the survey tables (``docs/survey_tables.md``), from SCHEMAS."""
-    out = [_DOC_HEAD]
-    for name in TABLE_NAMES:
-        out += [f"## `{name}`", "", _TABLE_INTROS[name], "", "| column | dtype | unit | meaning |",
-                "| --- | --- | --- | --- |"]
-        out += [f"| `{c.name}` | {c.dtype} | {c.unit} | {c.doc} |" for c in SCHEMAS[name]]
-        out.append("")
-    return "\n".join(out)
