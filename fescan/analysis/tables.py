@@ -138,7 +138,7 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("n_metal", "Int64", "", "cofactors of category metal"),
         ("n_cofactors", "Int64", "", "cofactors found"),
         ("n_flags", "Int64", "", "flags of the checks (warnings and notes)"),
-        ("status", "string", "", "ok or failed (then see the failures table)"),
+        ("status", "string", "", "ok, failed (then see the failures table) or no redox candidate (set aside by the prefilter, not parsed)"),
     ),
     "failures": _cols(
         ("file", "string", "", "structure file"),

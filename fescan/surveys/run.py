@@ -111,9 +111,8 @@ def _failure(path: str, error_class: str, message: str, reason: str, seconds: fl
 def _no_candidate(path: str, seconds: float) -> dict[str, Any]:
     """Outcome of a file the prefilter set aside: a structures row, no other rows."""
     structure = {"file": path, **dict.fromkeys(_CATEGORY_COLUMNS.values(), 0), "n_cofactors": 0, "n_flags": 0,
-                 "status": NO_CANDIDATE, "seconds": seconds}
-    return {"file": path, "status": NO_CANDIDATE, "seconds": seconds, "structure": structure,
-            "rows": {name: [] for name in _ROW_BUILDERS}}
+                 "status": NO_CANDIDATE}
+    return {"file": path, "status": NO_CANDIDATE, "seconds": seconds, "structure": structure, "rows": {}}
 
 
 def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = None,
