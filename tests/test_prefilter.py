@@ -126,3 +126,46 @@ def test_irregular_mmcif_layout_uses_the_cif_tokenizer():
            b"ATOM 1 C CA ALA W 1.0 2.0 3.0\nHETATM 2 FE FE\nFE B 1.0 2.0 3.0\n")
     assert screen_text(cif).candidate
     assert not screen_text(cif.replace(b"HETATM 2 FE FE\nFE B", b"ATOM 2 C CB\nALA B")).candidate
+
+
+@requires_shared
+def test_survey_records_a_row_and_resumes(tmp_path):
+    from fescan.surveys.run import read_file_list, survey
+    from fescan.surveys.store import read_table
+
+    # archive layout: two-character folders; one protein-only file, one ferredoxin (1FDN) as deposited
+    mirror = tmp_path / "mirror"
+    (mirror / "kf").mkdir(parents=True)
+    (mirror / "fd").mkdir(parents=True)
+    protein = _write(_keep(entry_path("1KF6"), lambda res: False), mirror / "kf", "1kf6", "cif")
+    fdn = mirror / "fd" / "pdb1fdn.ent.gz"
+    fdn.write_bytes(gzip.compress(entry_path("1FDN").read_bytes()))
+    listing = tmp_path / "list.txt"
+    listing.write_text("# two files\nmirror/kf/1kf6.cif.gz\n\nmirror/fd/pdb1fdn.ent.gz\n", encoding="utf-8")
+    assert read_file_list(listing) == [str(protein), str(fdn)]
+
+    s = survey([mirror], tmp_path / "out", workers=1, quiet=True)
+    assert (s.n_files, s.n_ok, s.n_no_candidate, s.n_failed) == (2, 1, 1, 0)
+    st = read_table(s.tables["structures"], "structures")
+    status = dict(zip((Path(f).name for f in st["file"]), st["status"]))
+    assert status == {"1kf6.cif.gz": NO_CANDIDATE, "pdb1fdn.ent.gz": "ok"}
+    again = survey(read_file_list(listing), tmp_path / "out", workers=1, quiet=True)
+    assert (again.n_skipped, again.n_ok, again.n_no_candidate) == (2, 0, 0)  # both already done
+
+    off = survey([mirror], tmp_path / "off", workers=1, quiet=True, prefilter=False)
+    assert (off.n_ok, off.n_no_candidate) == (2, 0)  # switched off: every file is parsed
+
+
+@requires_shared
+def test_cli_file_list_and_switch(tmp_path, capsys):
+    from fescan.cli.main import main
+
+    protein = _write(_keep(entry_path("1KF6"), lambda res: False), tmp_path, "1kf6", "pdb")
+    listing = tmp_path / "list.txt"
+    listing.write_text(f"{protein.name}\n", encoding="utf-8")  # relative: from the list's folder
+    assert main(["survey", "--file-list", str(listing), "-o", str(tmp_path / "on")]) == 0
+    assert f"1 {NO_CANDIDATE}" in capsys.readouterr().out
+    assert main(["survey", "--file-list", str(listing), "-o", str(tmp_path / "off"), "--no-prefilter"]) == 0
+    assert NO_CANDIDATE not in capsys.readouterr().out
+    assert main(["survey", "-o", str(tmp_path / "none")]) == 1  # neither inputs nor a list
+    assert "--file-list" in capsys.readouterr().err
