@@ -70,3 +70,24 @@ def test_scan_equals_the_atom_loop(path, monkeypatch):
     monkeypatch.setattr(ModelIndex.__init__, "__kwdefaults__", {"bulk": False})
     slow = fescan.scan(str(path)).to_dict()
     _same(fast, slow)
+
+
+@requires_shared
+@pytest.mark.parametrize("what", ["chain", "subchain"])
+def test_long_names_fall_back_to_the_loop(what):
+    # gemmi's flat columns hold 8 bytes: a longer chain name (or subchain, which gemmi
+    # refuses) sends the index to the atom loop, with the same columns
+    model = read_structure(entry_path("1FDN")).model
+    for ch in model:
+        if what == "chain":
+            ch.name = "CHAIN_NAME_12"
+        for res in ch:
+            if what == "subchain":
+                res.subchain = "SUBCHAIN_NAME_12"
+    bulk, loop = ModelIndex(model), ModelIndex(model, bulk=False)
+    assert bulk._flat is None
+    ids = np.arange(bulk.n_residues)
+    a, b = bulk.extract(ids), loop.extract(ids)
+    assert set(a.chain) == {"CHAIN_NAME_12"} or what == "subchain"
+    for name in AtomArrays.__slots__:
+        assert np.array_equal(getattr(a, name), getattr(b, name)), name

@@ -70,7 +70,7 @@ class AtomArrays:
 
     def ref(self, i: int) -> AtomRef:
         """Return atom ``i`` as an :class:`AtomRef`."""
-        x, y, z = (float(v) for v in self.xyz[i])
+        x, y, z = self.xyz[i].tolist()
         return AtomRef(
             chain=str(self.chain[i]),
             seqnum=int(self.seqnum[i]),
@@ -182,8 +182,11 @@ class ModelIndex:
         self._chain_names = chain_names
         self._flat: _Flat | None = None
         if bulk:
-            flat = _Flat(model)
-            if len(flat.pos) == int(size_all.sum()) and flat.faithful():
+            try:
+                flat: _Flat | None = _Flat(model)
+            except (RuntimeError, ValueError):  # gemmi refuses names longer than its columns
+                flat = None
+            if flat is not None and len(flat.pos) == int(size_all.sum()) and flat.faithful():
                 self._flat = flat
         if self._flat is not None:
             first = self._start
