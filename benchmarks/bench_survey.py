@@ -6,6 +6,8 @@ plus large synthetic structures it builds in a temporary folder):
 
 1. per file: gemmi read alone, Biopython parse alone, fescan full analysis
    (``fescan.scan``), and the ratios fescan/gemmi and Biopython/fescan;
+   and the start-up of fresh interpreters: ``import numpy, gemmi``, ``fescan --version``
+   and ``fescan scan`` of the smallest file;
 2. survey throughput with 1 and 2 workers and its ratio;
 3. peak memory of the parent and of the largest worker for N and 2N files;
 4. with ``--profile``, where the time of ``fescan.scan`` goes (cProfile, top
@@ -211,6 +213,19 @@ def _link_copies(files: list[Path], folder: Path, copies: int) -> list[str]:
     return out
 
 
+def startup(small: Path, repeats: int) -> dict:
+    """Wall time of fresh interpreters: numpy + gemmi import, ``fescan --version``, ``fescan scan`` of a small file."""
+    env = {**os.environ, "PYTHONPATH": str(REPO)}
+    cmds = {"import numpy, gemmi": [sys.executable, "-c", "import numpy, gemmi"],
+            "fescan --version": [sys.executable, "-m", "fescan.cli", "--version"],
+            f"fescan scan {small.name}": [sys.executable, "-m", "fescan.cli", "scan", str(small), "--brief"]}
+    out = {}
+    for label, cmd in cmds.items():
+        out[label] = _best(lambda cmd=cmd: subprocess.run(cmd, capture_output=True, env=env, cwd=REPO, check=True),
+                           repeats)
+    return out
+
+
 def profile_scan(path: Path, top: int) -> str:
     """cProfile of fescan.scan on one file: the ``top`` functions by own time."""
     fescan.scan(str(path))
@@ -268,6 +283,13 @@ def main(argv: list[str] | None = None) -> int:
               f"(target <= 1.5x: {_verdict(fg <= 1.5)})")
         print(f"  biopython/fescan (median of {len(rows)}): {bf:.1f}x (target >= 15x: {_verdict(bf >= 15)})")
 
+        small = min(files, key=lambda f: next(r["atoms"] for r in rows if r["file"] == f.name))
+        starts = startup(small, a.repeats)
+        base = starts["import numpy, gemmi"]
+        print(f"\n   start-up (fresh interpreter, best of {a.repeats}; load average {_load()})")
+        for label, sec in starts.items():
+            print(f"  {label:<32}{sec:7.2f} s  {sec / base:5.2f}x (target <= 3x: {_verdict(sec <= 3 * base)})")
+
         half = max(1, a.copies // 2)
         set_2n = _link_copies(files, tmp / "set", a.copies)
         set_n = set_2n[: half * len(files)]
@@ -297,7 +319,7 @@ def main(argv: list[str] | None = None) -> int:
                 prof[f.name] = profile_scan(f, 18)
                 print(prof[f.name])
         if a.json:
-            a.json.write_text(json.dumps({"per_file": rows, "survey_1": one, "survey_2": two, "survey_n": small,
+            a.json.write_text(json.dumps({"per_file": rows, "startup": starts, "survey_1": one, "survey_2": two, "survey_n": small,
                                           "profiles": prof}, indent=1) + "\n", encoding="utf-8")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)

@@ -10,9 +10,9 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-import pandas as pd
-
 if TYPE_CHECKING:  # pragma: no cover
+    import pandas as pd
+
     from fescan.analysis.scan import ScanResult
 
 __all__ = ["Column", "TableSpec", "TABLES", "SCHEMAS", "empty_table", "result_rows", "result_tables",
@@ -144,7 +144,7 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("n_metal", "Int64", "", "cofactors of category metal"),
         ("n_cofactors", "Int64", "", "cofactors found"),
         ("n_flags", "Int64", "", "flags of the checks (warnings and notes)"),
-        ("status", "string", "", "ok or failed (then see the failures table)"),
+        ("status", "string", "", "ok, failed (then see the failures table) or no redox candidate (set aside by the prefilter, not parsed)"),
     ),
     "failures": _cols(
         ("file", "string", "", "structure file"),
@@ -161,11 +161,15 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
 
 def empty_table(name: str) -> pd.DataFrame:
     """An empty DataFrame with the declared columns and dtypes of table ``name``."""
+    import pandas as pd  # imported on use: a single scan without --csv never loads pandas
+
     return pd.DataFrame({c.name: pd.Series(dtype=c.dtype) for c in SCHEMAS[name]})
 
 
 def to_frame(name: str, rows: list[dict]) -> pd.DataFrame:
     """Rows → DataFrame with exactly the declared columns (in order) and dtypes."""
+    import pandas as pd
+
     cols = SCHEMAS[name]
     df = pd.DataFrame(rows, columns=[c.name for c in cols]) if rows else empty_table(name)
     return df.astype({c.name: c.dtype for c in cols})

@@ -26,12 +26,13 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 def run(a: argparse.Namespace) -> int:
     """Run ``fescan scan``."""
     from fescan.analysis.scan import scan
-    from fescan.analysis.tables import result_tables
     from fescan.report.text import render_text
     from fescan.surveys.store import neutralise_csv
 
     res = scan(a.file, **wire_options(a))
     if a.csv:
+        from fescan.analysis.tables import result_tables
+
         out = Path(a.csv)
         try:
             out.mkdir(parents=True, exist_ok=True)

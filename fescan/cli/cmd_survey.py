@@ -26,8 +26,13 @@ def _positive(text: str) -> float:
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     """Arguments of ``fescan survey``."""
-    p.add_argument("inputs", nargs="+", metavar="INPUT",
+    p.add_argument("inputs", nargs="*", metavar="INPUT",
                    help="structure files, folders (searched recursively) or glob patterns")
+    p.add_argument("--file-list", metavar="FILE",
+                   help="also read structure paths from FILE, one per line (relative paths: from FILE's folder)")
+    p.add_argument("--no-prefilter", action="store_true",
+                   help="parse every file (by default files whose bytes name no redox metal and no cofactor "
+                        "code are recorded as 'no redox candidate' without parsing)")
     p.add_argument("-o", "--out", required=True, metavar="OUT",
                    help="output folder for the tables; rerun into it to resume")
     p.add_argument("--workers", type=int, metavar="N", help="worker processes (default: all cores)")
@@ -58,11 +63,18 @@ def run(a: argparse.Namespace) -> int:
         raise ConfigError(f"--workers must be at least 1, got {a.workers}")
     if a.scheduler and a.engine != "dask":
         raise ConfigError("--scheduler needs --engine dask")
+    inputs = list(a.inputs)
+    if a.file_list:
+        from fescan.surveys.run import read_file_list
+
+        inputs += read_file_list(a.file_list)
+    if not inputs:
+        raise ConfigError("give structure files, folders or patterns, or --file-list FILE")
     try:
-        summary = survey(a.inputs, a.out, workers=a.workers, time_limit=a.time_limit or None,
+        summary = survey(inputs, a.out, workers=a.workers, time_limit=a.time_limit or None,
                          memory_limit=a.memory_limit or None, table_format=a.format, quiet=a.quiet,
                          retry_failed=a.retry_failed, engine=a.engine, scheduler=a.scheduler,
-                         report=a.report, **wire_options(a))
+                         report=a.report, prefilter=not a.no_prefilter, **wire_options(a))
     except KeyboardInterrupt:
         sys.stderr.write(f"fescan: interrupted; finished files are saved in {a.out}: "
                          "run the same command again to resume\n")

@@ -8,6 +8,7 @@ A Python loop over all atoms of a large model would cost more than reading it.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 import gemmi
 import numpy as np
@@ -69,7 +70,7 @@ class AtomArrays:
 
     def ref(self, i: int) -> AtomRef:
         """Return atom ``i`` as an :class:`AtomRef`."""
-        x, y, z = (float(v) for v in self.xyz[i])
+        x, y, z = self.xyz[i].tolist()
         return AtomRef(
             chain=str(self.chain[i]),
             seqnum=int(self.seqnum[i]),
@@ -88,8 +89,68 @@ class AtomArrays:
         return AtomArrays(*(getattr(self, f)[idx] for f in self.__slots__))  # type: ignore[attr-defined]
 
 
+_NAME_WIDTH = 8  # gemmi.FlatStructure keeps at most 8 bytes of a chain, residue or atom name
+
+
+@lru_cache(maxsize=1)
+def _element_names() -> np.ndarray:
+    """Upper-case element symbol by atomic number (gemmi's numbering; 0 is ``X``)."""
+    return np.asarray([gemmi.Element(z).name.upper() for z in range(119)], dtype=object)
+
+
+def _text(arr: np.ndarray) -> np.ndarray:
+    """Bytes array (``S8``) → object array of ``str``."""
+    return arr.astype(f"U{max(arr.dtype.itemsize, 1)}").astype(object)
+
+
+def _chars(codes: np.ndarray, blank: int) -> np.ndarray:
+    """One-byte codes → object array of one-character ``str`` (``""`` for ``blank`` and 0)."""
+    table = np.asarray([""] + [chr(k) for k in range(1, 256)], dtype=object)
+    table[blank] = ""
+    return table[codes.astype(np.uint8)]
+
+
+class _Flat:
+    """The model's atoms as whole-model numpy columns, read by gemmi in compiled code."""
+
+    __slots__ = ("pos", "elements", "names", "resnames", "chains", "resnums", "icodes", "altlocs", "occ", "b")
+
+    def __init__(self, model: gemmi.Model) -> None:
+        st = gemmi.Structure()
+        st.add_model(model)  # a copy: FlatStructure takes a structure, the caller's stays untouched
+        flat = gemmi.FlatStructure(st)
+        flat.strings_as_numbers = False
+        self.pos = flat.pos
+        self.elements = flat.elements
+        self.names = flat.atom_names
+        self.resnames = flat.residue_names
+        self.chains = flat.chain_ids
+        self.resnums = flat.resnums
+        self.icodes = flat.icodes
+        self.altlocs = flat.altlocs
+        self.occ = flat.occ
+        self.b = flat.b_iso
+
+    def faithful(self) -> bool:
+        """False when a name may have been cut to 8 bytes or is not ASCII (then the loop is used)."""
+        for arr in (self.names, self.resnames, self.chains):
+            if len(arr) == 0:
+                continue
+            raw = arr.view(np.uint8).reshape(len(arr), -1)
+            if raw.shape[1] >= _NAME_WIDTH and raw[:, _NAME_WIDTH - 1].any():
+                return False
+            if (raw >= 128).any():
+                return False
+        return True
+
+
 class ModelIndex:
     """Residue-level index of one gemmi model, with lazy atom extraction.
+
+    The atoms are read once as whole-model numpy columns (``gemmi.FlatStructure``,
+    compiled code); extracting residues is then array indexing, with no Python loop
+    over atoms. Only a names check (longer than gemmi's 8-byte columns, or not ASCII)
+    falls back to reading the atoms one by one, with the same results.
 
     Parameters
     ----------
@@ -98,24 +159,52 @@ class ModelIndex:
     skip : frozenset of str, optional
         Residue names never treated as cofactor candidates (their atoms still
         count as surroundings of a metal site).
+    bulk : bool, optional
+        Read the columns in compiled code (default). ``False`` reads atom by atom
+        (the reference the bulk path is tested against).
     """
 
-    def __init__(self, model: gemmi.Model, skip: frozenset[str] = frozenset()) -> None:
-        self.residues: list[tuple[str, gemmi.Residue]] = []
-        reps: list[tuple[float, float, float]] = []
-        cand: list[bool] = []
+    def __init__(self, model: gemmi.Model, skip: frozenset[str] = frozenset(), *, bulk: bool = True) -> None:
+        self._model = model
+        chain_names: list[str] = []
+        sizes: list[list[int]] = []
         for ch in model:
-            cname = ch.name
-            for res in ch:
-                if len(res) == 0:
-                    continue
-                self.residues.append((cname, res))
-                p = res[0].pos
-                reps.append((p.x, p.y, p.z))
-                rn = res.name
-                cand.append(rn not in STANDARD_RESIDUES and rn not in WATER_NAMES and rn not in skip)
-        self.rep_xyz = np.asarray(reps, dtype=float).reshape(-1, 3)
-        self.is_candidate = np.asarray(cand, dtype=bool)
+            chain_names.append(ch.name)
+            sizes.append([len(res) for res in ch])
+        per_chain = np.asarray([len(s) for s in sizes], dtype=np.intp)
+        size_all = np.asarray([n for s in sizes for n in s], dtype=np.intp)
+        start_all = np.cumsum(size_all) - size_all
+        chain_all = np.repeat(np.arange(len(chain_names)), per_chain)
+        keep = size_all > 0  # empty residues are not indexed
+        self._size = size_all[keep]
+        self._start = start_all[keep]
+        self._chain_of = chain_all[keep]
+        self._chain_names = chain_names
+        self._flat: _Flat | None = None
+        if bulk:
+            try:
+                flat: _Flat | None = _Flat(model)
+            except (RuntimeError, ValueError):  # gemmi refuses names longer than its columns
+                flat = None
+            if flat is not None and len(flat.pos) == int(size_all.sum()) and flat.faithful():
+                self._flat = flat
+        if self._flat is not None:
+            first = self._start
+            self.rep_xyz = np.array(self._flat.pos[first], dtype=float).reshape(-1, 3)
+            res_names = _text(self._flat.resnames[first]) if len(first) else np.zeros(0, dtype=object)
+        else:
+            # residue lists by the same (chain, residue) order; gemmi objects only on this path
+            residues = [res for ch in model for res in ch if len(res)]
+            self.rep_xyz = np.asarray([res[0].pos.tolist() for res in residues], dtype=float).reshape(-1, 3)
+            res_names = np.asarray([res.name for res in residues], dtype=object)
+            self._residues = residues
+        self._res_names = res_names
+        names, inverse = np.unique(res_names.astype(str), return_inverse=True) if len(res_names) \
+            else (np.zeros(0, dtype=str), np.zeros(0, dtype=np.intp))
+        std = np.asarray([n in STANDARD_RESIDUES or n in WATER_NAMES for n in names], dtype=bool)
+        skipped = np.asarray([n in skip for n in names], dtype=bool)
+        self._standard = std[inverse].reshape(-1)
+        self.is_candidate = ~(std | skipped)[inverse].reshape(-1)
         self._rep_tree: cKDTree | None = None
         self.hidden: frozenset[int] = frozenset()
 
@@ -125,11 +214,55 @@ class ModelIndex:
         for r in self.hidden:
             self.is_candidate[r] = False
 
+    @property
+    def residues(self) -> list[tuple[str, gemmi.Residue]]:
+        """``(chain name, gemmi residue)`` by residue index (built on first use)."""
+        if getattr(self, "_residues", None) is None:
+            self._residues = [res for ch in self._model for res in ch if len(res)]
+        return [(self._chain_names[int(self._chain_of[i])], r) for i, r in enumerate(self._residues)]
+
+    @property
+    def n_residues(self) -> int:
+        """Number of (non-empty) residues indexed."""
+        return len(self._size)
+
     def extract(self, res_ids: np.ndarray | list[int]) -> AtomArrays:
         """Extract all atoms of the given residues (in the given order)."""
+        ids = np.asarray(res_ids, dtype=np.intp).reshape(-1)
+        if self._flat is None:
+            return self._extract_loop(ids)
+        sz = self._size[ids]
+        which = np.repeat(np.arange(len(ids)), sz)
+        ordinal = np.arange(int(sz.sum())) - np.repeat(np.cumsum(sz) - sz, sz)
+        rows = self._start[ids][which] + ordinal
+        f = self._flat
+        icode = _chars(f.icodes[rows], ord(" "))
+        return AtomArrays(
+            xyz=np.array(f.pos[rows], dtype=float).reshape(-1, 3),
+            element=_element_names()[f.elements[rows]],
+            name=_text(f.names[rows]),
+            resname=self._res_names[ids][which],
+            chain=np.asarray(self._chain_names, dtype=object)[self._chain_of[ids]][which]
+            if len(ids) else np.zeros(0, dtype=object),
+            seqnum=f.resnums[rows].astype(int),
+            icode=icode,
+            altloc=_chars(f.altlocs[rows], 0),
+            occ=f.occ[rows].astype(float),
+            b=f.b[rows].astype(float),
+            res_id=ids[which].astype(int),
+            standard=self._standard[ids][which],
+            ordinal=ordinal.astype(int),
+        )
+
+    def _extract_loop(self, res_ids: np.ndarray) -> AtomArrays:
+        """Atom-by-atom extraction (the reference; used when the bulk columns cannot be)."""
+        residues = getattr(self, "_residues", None)
+        if residues is None:
+            residues = self._residues = [res for ch in self._model for res in ch if len(res)]
         cols: dict[str, list] = {k: [] for k in AtomArrays.__slots__}  # type: ignore[attr-defined]
         for rid in res_ids:
-            cname, res = self.residues[int(rid)]
+            res = residues[int(rid)]
+            cname = self._chain_names[int(self._chain_of[int(rid)])]
             rn = res.name
             std = rn in STANDARD_RESIDUES or rn in WATER_NAMES
             num = res.seqid.num
@@ -176,11 +309,9 @@ class ModelIndex:
             return np.zeros(0, dtype=int)
         if self._rep_tree is None:
             self._rep_tree = cKDTree(self.rep_xyz)
-        hits = self._rep_tree.query_ball_point(np.asarray(points, dtype=float), r=radius)
-        ids = set()
-        for h in hits:
-            ids.update(h)
-        return np.asarray(sorted(ids - self.hidden), dtype=int)
+        hits = self._rep_tree.query_ball_point(np.asarray(points, dtype=float).reshape(-1, 3), r=radius)
+        ids = {i for h in hits for i in h} - self.hidden
+        return np.asarray(sorted(ids), dtype=int)
 
     def environment(self, points: np.ndarray, radius: float = _REP_RADIUS) -> AtomArrays:
         """Atoms of all residues (standard or not) near the given points."""

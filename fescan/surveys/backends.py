@@ -292,12 +292,16 @@ class ProcessPool:
                     result = self._check(w, ready)
                     if result is None:
                         continue
-                    yield result
                     if result.kind != "done" or not w.proc.is_alive():
                         w.stop(kill=True)  # replaced only if there is more to do
                         if pending:
                             pool[i] = _Worker(self._ctx, func, self.memory_limit)
                     w.task = None
+                    if pending and pool[i].task is None:
+                        # the next task goes out before the caller handles this result, so a
+                        # worker never waits while the parent writes a batch of results
+                        pool[i] = self._give(pool[i], pending.pop(), tasks, func)
+                    yield result
         finally:
             for w in pool:
                 w.stop(kill=w.task is not None)

@@ -65,9 +65,10 @@ from fescan.core.options import ScanOptions
 from fescan.core.records import CATEGORIES
 from fescan.structure.reading import detect_format
 from fescan.surveys.backends import DaskEngine, ProcessPool, TaskResult, default_workers
+from fescan.surveys.prefilter import NO_CANDIDATE, can_hold_candidate
 from fescan.surveys.store import TABLE_NAMES, FileKey, SurveyStore, file_key
 
-__all__ = ["STRUCTURE_SUFFIXES", "SurveySummary", "analyse_file", "find_structure_files", "survey"]
+__all__ = ["STRUCTURE_SUFFIXES", "SurveySummary", "analyse_file", "find_structure_files", "read_file_list", "survey"]
 
 logger = logging.getLogger(__name__)
 
@@ -108,9 +109,16 @@ def _failure(path: str, error_class: str, message: str, reason: str, seconds: fl
             "failure": {"file": path, "error_class": error_class, "message": message, "reason": reason}}
 
 
+def _no_candidate(path: str, seconds: float) -> dict[str, Any]:
+    """Outcome of a file the prefilter set aside: a structures row, no other rows."""
+    structure = {"file": path, **dict.fromkeys(_CATEGORY_COLUMNS.values(), 0), "n_cofactors": 0, "n_flags": 0,
+                 "status": NO_CANDIDATE}
+    return {"file": path, "status": NO_CANDIDATE, "seconds": seconds, "structure": structure, "rows": {}}
+
+
 def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = None,
                  report_writer: Callable[[Any, Path], Any] | None = None,
-                 label: str | None = None) -> dict[str, Any]:
+                 label: str | None = None, prefilter: bool = False) -> dict[str, Any]:
     """Analyse one file for a survey: :func:`fescan.scan` and the rows of every table.
 
     Parameters
@@ -128,6 +136,9 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
     label : str, optional
         The path as the user gave it, for the ``file`` column and the messages, when
         ``path`` is that path made absolute (a Dask worker has another working folder).
+    prefilter : bool, optional
+        First ask :func:`fescan.surveys.prefilter.can_hold_candidate`; a file that cannot
+        hold a redox cofactor becomes a row with status ``"no redox candidate"`` unparsed.
 
     Returns
     -------
@@ -139,14 +150,16 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
         an unexpected error). Never raises for a bad file.
     """
     if label is not None and label != path:
-        return _relabel(_analyse(path, options, report_dir, report_writer, label), path, label)
-    return _analyse(path, options, report_dir, report_writer, path)
+        return _relabel(_analyse(path, options, report_dir, report_writer, label, prefilter), path, label)
+    return _analyse(path, options, report_dir, report_writer, path, prefilter)
 
 
 def _analyse(path: str, options: dict[str, Any], report_dir: str | None,
-             report_writer: Callable[[Any, Path], Any] | None, label: str) -> dict[str, Any]:
+             report_writer: Callable[[Any, Path], Any] | None, label: str, prefilter: bool = False) -> dict[str, Any]:
     _test_hooks(path)
     t0 = time.perf_counter()
+    if prefilter and not can_hold_candidate(path).candidate:
+        return _no_candidate(path, time.perf_counter() - t0)
     try:
         res = scan(path, **options)
         rows = result_rows(res)
@@ -277,6 +290,42 @@ def _walk(folder: Path, skip: Path | None, warn: Callable[[str], None] = logger.
                 yield p
 
 
+def read_file_list(path: str | os.PathLike[str]) -> list[str]:
+    """Structure paths listed in a text file, one per line.
+
+    Blank lines and lines starting with ``#`` are skipped; a relative path is taken
+    from the list file's folder (so a list written inside a mirror travels with it).
+
+    Parameters
+    ----------
+    path : path-like
+        The list file.
+
+    Returns
+    -------
+    list of str
+
+    Raises
+    ------
+    fescan.core.errors.StructureNotFound
+        The list file cannot be read.
+    """
+    where = Path(path)
+    try:
+        text = where.read_text(encoding="utf-8", errors="replace")
+    except OSError as exc:
+        raise StructureNotFound(f"{where}: cannot read the file list ({exc.strerror or exc})") from None
+    base = where.parent
+    out = []
+    for line in text.splitlines():
+        line = line.strip()
+        if not line or line.startswith("#"):
+            continue
+        p = Path(line)
+        out.append(str(p if p.is_absolute() else base / p))
+    return out
+
+
 def find_structure_files(inputs: Iterable[str | os.PathLike[str]],
                          exclude: str | os.PathLike[str] | None = None, *,
                          missing: list[str] | None = None,
@@ -391,6 +440,7 @@ class SurveySummary:
     n_skipped: int = 0
     n_ok: int = 0
     n_failed: int = 0
+    n_no_candidate: int = 0
     n_unexpected: int = 0
     table_rows: dict[str, int] = field(default_factory=dict)
     structures_ok: int = 0
@@ -415,8 +465,10 @@ class SurveySummary:
 
         rows = ", ".join(f"{k} {v}" for k, v in self.table_rows.items())
         return "\n".join([
-            f"files: {self.n_files} found; {self.n_ok + self.n_failed} analysed now ({self.n_ok} ok, "
-            f"{self.n_failed} failed), {self.n_skipped} already done; {self.seconds:.1f} s "
+            f"files: {self.n_files} found; {self.n_ok + self.n_failed + self.n_no_candidate} analysed now "
+            f"({self.n_ok} ok, {self.n_failed} failed"
+            + (f", {self.n_no_candidate} {NO_CANDIDATE}" if self.n_no_candidate else "")
+            + f"), {self.n_skipped} already done; {self.seconds:.1f} s "
             f"({self.engine}, {self.workers} worker(s))",
             f"structures in {self.out_dir}: {self.structures_ok} ok, {self.structures_failed} failed",
             f"table rows: {rows}",
@@ -475,7 +527,8 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
            table_format: str = "parquet", quiet: bool = False, retry_failed: bool = False,
            engine: str = "processes", scheduler: str | None = None, report: bool = False,
            batch_size: int = 32, report_writer: Callable[[Any, Path], Any] | None = None,
-           page_writer: Callable[[Path], Any] | None = None, **options: Any) -> SurveySummary:
+           page_writer: Callable[[Path], Any] | None = None, prefilter: bool = True,
+           **options: Any) -> SurveySummary:
     """Analyse many structure files into one set of tables (see the module docstring).
 
     Parameters
@@ -508,6 +561,9 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
         ``report_writer(result, folder)`` and ``page_writer(survey_folder)``.
     batch_size : int, optional
         Finished files written together as one part (at least every 5 s).
+    prefilter : bool, optional
+        Set aside, unparsed, files whose bytes name no redox metal and no cofactor code
+        (status ``"no redox candidate"``; see :mod:`fescan.surveys.prefilter`). Default on.
     **options
         Options of :func:`fescan.scan` (fields of :class:`fescan.options.ScanOptions`).
 
@@ -564,7 +620,8 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
         summary = _survey_in(store, out, files, missing, walk_notes, opts, report=report,
                              retry_failed=retry_failed, workers=workers, engine=engine, scheduler=scheduler,
                              report_writer=report_writer, time_limit=time_limit, memory_limit=memory_limit,
-                             batch_size=batch_size, quiet=quiet, table_format=table_format)
+                             batch_size=batch_size, quiet=quiet, table_format=table_format,
+                             prefilter=prefilter)
     if report and page_writer is not None:
         _survey_report(out, page_writer)
     summary.seconds = time.monotonic() - t_start
@@ -584,7 +641,7 @@ def _survey_in(store: SurveyStore, out: Path, files: list[str], missing: list[st
                opts: dict[str, Any], *, report: bool, retry_failed: bool, workers: int | None, engine: str,
                scheduler: str | None, report_writer: Callable[[Any, Path], Any] | None,
                time_limit: float | None, memory_limit: float | None, batch_size: int, quiet: bool,
-               table_format: str) -> SurveySummary:
+               table_format: str, prefilter: bool = True) -> SurveySummary:
     """The survey proper, with the output folder locked."""
     done = store.latest()
     lost: list[tuple[str, FileKey]] = []
@@ -598,7 +655,7 @@ def _survey_in(store: SurveyStore, out: Path, files: list[str], missing: list[st
         key = _key(f)
         rec = done.get(key.resolved)
         if rec and (rec["size"], rec["mtime_ns"]) == (key.size, key.mtime_ns) and (
-                rec["status"] == "ok" or not retry_failed):
+                rec["status"] in ("ok", NO_CANDIDATE) or not retry_failed):
             # a finished file is analysed again only to write a structure report it lacks
             if not (report and rec["status"] == "ok"
                     and not (out / "structures" / report_stem(f) / "report.html").is_file()):
@@ -617,7 +674,7 @@ def _survey_in(store: SurveyStore, out: Path, files: list[str], missing: list[st
         summary.n_failed += len(lost)
     if todo:
         _run(store, todo, summary, opts, report_dir, report_writer, time_limit=time_limit, memory_limit=memory_limit,
-             engine=engine, scheduler=scheduler, batch_size=batch_size, quiet=quiet)
+             engine=engine, scheduler=scheduler, batch_size=batch_size, quiet=quiet, prefilter=prefilter)
     totals = _Totals(summary)
     summary.tables = {k: str(v) for k, v in store.merge(table_format, on_chunk=totals).items()}
     totals.finish()
@@ -633,7 +690,7 @@ def _survey_report(out: Path, page_writer: Callable[[Path], Any]) -> None:
 
 def _run(store: SurveyStore, todo: list[tuple[str, Any]], summary: SurveySummary, opts: dict[str, Any],
          report_dir: str | None, report_writer: Callable[[Any, Path], Any] | None, *, time_limit: float | None, memory_limit: float | None, engine: str,
-         scheduler: str | None, batch_size: int, quiet: bool) -> None:
+         scheduler: str | None, batch_size: int, quiet: bool, prefilter: bool = False) -> None:
     """Run the engine over ``todo``, committing finished files batch by batch."""
     from tqdm import tqdm
 
@@ -642,7 +699,7 @@ def _run(store: SurveyStore, todo: list[tuple[str, Any]], summary: SurveySummary
     else:
         runner = ProcessPool(summary.workers, time_limit, memory_limit)
     # workers read absolute paths (a Dask worker has its own working folder); rows keep the paths as given
-    tasks = [(os.path.abspath(path), opts, report_dir, report_writer, path) for path, _ in todo]
+    tasks = [(os.path.abspath(path), opts, report_dir, report_writer, path, prefilter) for path, _ in todo]
     buf: list[dict[str, Any]] = []
     keys: list[Any] = []
     last = time.monotonic()
@@ -662,6 +719,8 @@ def _run(store: SurveyStore, todo: list[tuple[str, Any]], summary: SurveySummary
             _log_outcome(o)
             if o["status"] == "ok":
                 summary.n_ok += 1
+            elif o["status"] == NO_CANDIDATE:
+                summary.n_no_candidate += 1
             else:
                 summary.n_failed += 1
                 if o["failure"]["reason"] == "error" and "traceback" in o:
