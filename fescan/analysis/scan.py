@@ -155,7 +155,10 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     """
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
-    cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution)
+    from fescan.transfer.uncertainty import _header_text, deposited_coordinate_error
+
+    cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution,
+                               coordinate_error=deposited_coordinate_error(_header_text(str(path), 2_000_000)))
     cell = ops = None
     if opts.symmetry:
         st = loaded.structure

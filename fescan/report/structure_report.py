@@ -13,11 +13,11 @@ from __future__ import annotations
 
 import logging
 import math
-from collections import Counter
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 from fescan.analysis.scan import CAUTION
+from fescan.cofactors.ligation import ligand_counts
 from fescan.core.errors import ConfigError
 from fescan.core.version import __version__
 from fescan.report.content import (
@@ -76,8 +76,7 @@ def _structure_facts(res: ScanResult) -> Facts:
 
 
 def _ligand_summary(c) -> str:
-    cnt = Counter(lig.kind for lig in c.ligands)
-    return ", ".join(f"{n}× {k}" for k, n in sorted(cnt.items())) or "–"
+    return ", ".join(f"{n}× {k}" for k, n in ligand_counts(c.ligands)) or "–"
 
 
 def _checks(c) -> str:

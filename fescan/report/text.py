@@ -6,6 +6,7 @@ import math
 from collections import Counter
 
 from fescan.analysis.scan import CAUTION, ScanResult
+from fescan.cofactors.ligation import ligand_counts
 
 __all__ = ["render_text", "format_time", "signed", "table"]
 
@@ -55,8 +56,7 @@ def table(headers: list[str], rows: list[list[str]]) -> str:
 def _ligand_summary(c) -> str:
     if not c.ligands:
         return "-"
-    cnt = Counter(lig.kind for lig in c.ligands)
-    return ", ".join(f"{n}x {k}" if n > 1 else k for k, n in sorted(cnt.items()))
+    return ", ".join(f"{n}x {k}" if n > 1 else k for k, n in ligand_counts(c.ligands))
 
 
 def render_text(res: ScanResult, *, details: bool = True) -> str:
