@@ -31,7 +31,7 @@ def test_scan_text_json_csv(tmp_path, capsys):
     cof = pd.read_csv(tmp_path / "t" / "cofactors.csv")
     # 1FDN: 2[4Fe-4S] ferredoxin, SF4 A/56 and A/57 (shared/structures/SOURCES.md)
     assert list(cof["class"]) == ["[4Fe-4S]", "[4Fe-4S]"]
-    assert main(["scan", str(entry_path("1FDN")), "--json"]) == 0
+    assert main(["scan", str(entry_path("1FDN")), "--json", "-"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert {"cofactors", "pairs", "wire", "structure", "options", "caution"} <= set(data)
     assert data["cofactors"][0]["class"] == "[4Fe-4S]"
@@ -56,8 +56,32 @@ def test_bad_input_one_line_error(tmp_path, content, expect):
 def test_missing_file_and_bad_option(tmp_path):
     r = run_cli("scan", str(tmp_path / "nope.pdb"))
     assert r.returncode == 1 and "nope.pdb: no such file" in r.stderr
-    r = run_cli("scan", str(tmp_path / "nope.pdb"), "--packing-density", "2")
-    assert r.returncode == 1 and "packing_density" in r.stderr and "Traceback" not in r.stderr
+    r = run_cli("scan", str(tmp_path / "nope.pdb"), "--packing", "2")
+    # errors name the option as typed, not the API field
+    assert r.returncode == 1 and "--packing" in r.stderr and "packing_density" not in r.stderr
+    assert "Traceback" not in r.stderr
+
+
+@requires_shared
+def test_json_never_swallows_the_file_and_verbose_after_subcommand(tmp_path, capsys):
+    # `--json` takes its own value; a structure path after it is not silently eaten
+    with pytest.raises(SystemExit):
+        main(["scan", "--json", str(entry_path("1FDN"))])
+    out = tmp_path / "r.json"
+    assert main(["scan", str(entry_path("1FDN")), "-v", "--json", str(out), "--brief"]) == 0
+    assert json.loads(out.read_text())["cofactors"]
+
+
+def test_one_packing_option():
+    from fescan.cli.common import parse_packing
+    from fescan.core.errors import ConfigError
+
+    assert parse_packing("0.7") == {"packing": "default", "packing_density": 0.7}
+    assert parse_packing("measured") == {"packing": "measured"}
+    assert parse_packing("measured*0.9") == {"packing": "measured", "packing_scale": 0.9}
+    assert parse_packing("index") == {"measure_packing": True}
+    with pytest.raises(ConfigError, match="--packing"):
+        parse_packing("dense")
 
 
 @requires_shared

@@ -93,7 +93,7 @@ def test_table_schemas_cover_categories():
 def test_docs_are_up_to_date():
     # docs/survey_tables.md is what the README section is copied from: it must match SCHEMAS
     assert DOCS.read_text(encoding="utf-8") == tables_markdown(), (
-        "docs/survey_tables.md is stale; regenerate it: python -c \"from fescan.survey_store import "
+        "docs/survey_tables.md is stale; regenerate it: python -c \"from fescan.surveys.store import "
         "tables_markdown; open('docs/survey_tables.md', 'w', encoding='utf-8').write(tables_markdown())\"")
     for name in TABLE_NAMES:
         for c in SCHEMAS[name]:
@@ -281,3 +281,13 @@ def test_report_stems_are_unique(tmp_path):
     a, b = tmp_path / "x" / "1ABC.pdb.gz", tmp_path / "y" / "1ABC.pdb.gz"
     assert report_stem(str(a)) != report_stem(str(b))
     assert re.fullmatch(r"1ABC\.pdb-[0-9a-f]{8}", report_stem(str(a)))
+
+
+@requires_shared
+def test_timings_table_has_one_row_per_file(tmp_path):
+    # per-file wall time lives in its own table, so every other table is run-independent
+    paths = [str(entry_path("1FDN")), str(entry_path("2DSX"))]
+    s = survey(paths, tmp_path / "o", workers=1, quiet=True)
+    t = read_table(s.tables["timings"], "timings")
+    assert sorted(t["file"]) == sorted(paths) and (t["seconds"] >= 0).all()
+    assert "seconds" not in read_table(s.tables["structures"], "structures").columns

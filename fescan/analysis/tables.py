@@ -138,13 +138,16 @@ SCHEMAS: dict[str, tuple[Column, ...]] = {
         ("n_cofactors", "Int64", "", "cofactors found"),
         ("n_flags", "Int64", "", "flags of the checks (warnings and notes)"),
         ("status", "string", "", "ok or failed (then see the failures table)"),
-        ("seconds", "float64", "s", "wall time of the analysis of this file"),
     ),
     "failures": _cols(
         ("file", "string", "", "structure file"),
         ("error_class", "string", "", "exception class, or Timeout / WorkerCrash"),
         ("message", "string", "", "what went wrong, in plain words"),
         ("reason", "string", "", "error, timeout, memory or crash"),
+    ),
+    "timings": _cols(
+        ("file", "string", "", "structure file"),
+        ("seconds", "float64", "s", "wall time of the analysis of this file (differs from run to run)"),
     ),
 }
 

@@ -6,7 +6,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from fescan.cli.common import add_wire_options, emit_json, wire_options
+from fescan.cli.common import add_json_option, add_wire_options, emit_json, wire_options
 from fescan.core.errors import ConfigError
 
 NAME = "scan"
@@ -16,8 +16,7 @@ HELP = "one structure: cofactors, ligands, checks and the electron wire"
 def add_arguments(p: argparse.ArgumentParser) -> None:
     """Arguments of ``fescan scan``."""
     p.add_argument("file", help="PDB or mmCIF file (gzipped or not)")
-    p.add_argument("--json", metavar="FILE", nargs="?", const="-",
-                   help="write the full result as JSON (to FILE, or to stdout when no FILE is given)")
+    add_json_option(p, "the full result")
     p.add_argument("--csv", metavar="DIR",
                    help="write the tables (cofactors, ligands, flags, pairs, hops, wires) as CSV files in DIR")
     p.add_argument("--brief", action="store_true", help="leave out the per-ligand and per-flag lines")

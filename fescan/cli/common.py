@@ -4,13 +4,74 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 import sys
 from pathlib import Path
 from typing import Any
 
 from fescan.core.errors import ConfigError
 
-__all__ = ["add_wire_options", "wire_options", "emit_json"]
+__all__ = ["add_wire_options", "wire_options", "emit_json", "add_json_option", "parse_packing",
+           "option_words", "add_verbose"]
+
+#: Option fields of the API and the command-line option that sets each (for error messages).
+OPTION_NAMES = {
+    "model": "--model-number", "altloc": "--altloc", "reorg": "--reorg", "packing_density": "--packing",
+    "packing_scale": "--packing", "packing": "--packing", "gap_limit": "--gap-limit", "cutoff": "--cutoff",
+    "rate_threshold": "--rate-threshold", "temperature": "--temperature", "potentials_file": "--potentials",
+    "entry": "--entry", "exit": "--exit", "match_cutoff": "--match-cutoff", "moved_limit": "--moved-limit",
+    "rate_drop_limit": "--rate-drop", "time_limit": "--time-limit", "memory_limit": "--memory-limit",
+    "batch_size": "--batch-size", "workers": "--workers",
+}
+
+
+def option_words(message: str) -> str:
+    """An API error message with option fields named as the command line names them."""
+    for field, option in sorted(OPTION_NAMES.items(), key=lambda kv: -len(kv[0])):
+        # a field with an underscore is never an English word; a plain word only as the subject of "must"
+        tail = "" if "_" in field else r"(?= must)"
+        message = re.sub(rf"(?<![\w-]){field}(?![\w-]){tail}", option, message)
+    return message
+
+
+def add_verbose(p: argparse.ArgumentParser) -> None:
+    """``-v`` accepted after the subcommand too (``fescan scan FILE -v``)."""
+    p.add_argument("-v", "--verbose", action="store_true", default=argparse.SUPPRESS,
+                   help="log progress to stderr")
+
+
+def add_json_option(p: argparse.ArgumentParser, what: str) -> None:
+    """``--json FILE`` (``-`` for standard output); never takes the next argument by surprise."""
+    p.add_argument("--json", metavar="FILE",
+                   help=f"write {what} as JSON to FILE (use - for standard output)")
+
+
+def parse_packing(spec: str) -> dict[str, Any]:
+    """Options for one ``--packing`` value.
+
+    ``0.76`` (a number): ρ used for every hop; ``measured``: ρ measured from the
+    atoms between each pair and used in the rates; ``measured*0.9``: the same,
+    scaled; ``index``: measured and reported beside the rates, which keep the
+    default ρ (compare only).
+    """
+    text = spec.strip().lower()
+    if text == "index":
+        return {"measure_packing": True}
+    if text.startswith("measured"):
+        rest = text[len("measured"):]
+        if not rest:
+            return {"packing": "measured"}
+        if rest.startswith("*"):
+            try:
+                return {"packing": "measured", "packing_scale": float(rest[1:])}
+            except ValueError:
+                pass
+        raise ConfigError(f"--packing {spec!r}: write measured or measured*SCALE (e.g. measured*0.9)")
+    try:
+        return {"packing": "default", "packing_density": float(text)}
+    except ValueError:
+        raise ConfigError(f"--packing {spec!r}: give a density (e.g. 0.76), measured, measured*SCALE "
+                          "or index") from None
 
 
 def emit_json(data: Any, dest: str) -> None:
@@ -25,10 +86,11 @@ def emit_json(data: Any, dest: str) -> None:
         raise ConfigError(f"{dest}: cannot write the JSON file ({exc.strerror or exc})") from None
 
 
-def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> None:
-    """Add the reading and wire options of :class:`fescan.options.ScanOptions`."""
+def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True, index_packing: bool = False) -> None:
+    """Add the reading and wire options of :class:`fescan.core.options.ScanOptions`."""
     g = p.add_argument_group("reading and wire options")
-    g.add_argument("--model", type=int, default=1, help="model number to read (default 1)")
+    g.add_argument("--model-number", dest="model", type=int, default=1, metavar="N",
+                   help="model number to read (default 1)")
     g.add_argument("--altloc", choices=("occupancy", "first", "all"), default="occupancy",
                    help="alternative locations: keep the highest-occupancy one per residue (default), "
                         "the first one, or all")
@@ -36,11 +98,11 @@ def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> N
         g.add_argument("--entry", metavar="CHAIN/RESNUM", help="entry cofactor, e.g. A/500 (default: a flavin)")
         g.add_argument("--exit", metavar="CHAIN/RESNUM", help="exit cofactor (default: a quinone or heme)")
     g.add_argument("--reorg", type=float, default=0.7, help="reorganisation energy λ in eV (default 0.7)")
-    g.add_argument("--packing-density", type=float, default=0.76, help="packing density ρ, 0-1 (default 0.76)")
-    g.add_argument("--packing", choices=("default", "measured"), default="default",
-                   help="ρ per hop: the --packing-density value (default) or measured from the atoms between")
-    g.add_argument("--packing-scale", type=float, default=1.0,
-                   help="factor applied to measured ρ (default 1; see docs on why measured ρ runs low)")
+    g.add_argument("--packing", metavar="RHO|measured[*SCALE]" + ("|index" if index_packing else ""),
+                   default="0.76",
+                   help="protein packing density ρ in the rate law: a number for every hop (default 0.76), "
+                        "'measured' from the atoms between each pair (optionally scaled, measured*0.9)"
+                        + ("; 'index': measure and report ρ per hop, rates keep 0.76" if index_packing else ""))
     g.add_argument("--gap-limit", type=float, default=14.0, help="longest hop not flagged as a gap, Å (default 14)")
     g.add_argument("--cutoff", type=float, default=25.0, help="longest pair distance considered, Å (default 25)")
     g.add_argument("--rate-threshold", type=float, default=1e3,
@@ -55,11 +117,15 @@ def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True) -> N
 def wire_options(a: argparse.Namespace) -> dict:
     """Keyword options for :func:`fescan.scan` from parsed arguments."""
     out = {
-        "model": a.model, "altloc": a.altloc, "reorg": a.reorg, "packing_density": a.packing_density,
+        "model": a.model, "altloc": a.altloc, "reorg": a.reorg,
         "gap_limit": a.gap_limit, "cutoff": a.cutoff, "rate_threshold": a.rate_threshold,
         "temperature": a.temperature, "potentials_file": a.potentials, "symmetry": a.symmetry,
-        "packing": a.packing, "packing_scale": a.packing_scale,
     }
+    packing = parse_packing(a.packing)
+    if "measure_packing" in packing and not getattr(a, "index_packing", False):
+        raise ConfigError("--packing index: only fescan compare reports ρ as an index; "
+                          "use --packing measured to put measured ρ into the rates")
+    out.update(packing)
     for k in ("entry", "exit", "all_pairs"):
         if hasattr(a, k):
             out[k] = getattr(a, k)

@@ -10,7 +10,8 @@ import sys
 from collections.abc import Sequence
 from types import ModuleType
 
-from fescan.core.errors import FescanError
+from fescan.cli.common import add_verbose, option_words
+from fescan.core.errors import ConfigError, FescanError
 from fescan.core.version import __version__
 
 __all__ = ["main", "build_parser"]
@@ -43,6 +44,7 @@ def build_parser() -> tuple[argparse.ArgumentParser, dict[str, ModuleType]]:
     for mod in _commands():
         sp = sub.add_parser(mod.NAME, help=mod.HELP, description=mod.HELP)
         mod.add_arguments(sp)
+        add_verbose(sp)
         mods[mod.NAME] = mod
     return p, mods
 
@@ -58,6 +60,9 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 2
     try:
         return int(mods[a.command].run(a) or 0)
+    except ConfigError as exc:  # an option's value: name it as the command line does
+        sys.stderr.write(f"fescan: error: {option_words(str(exc))}\n")
+        return 1
     except FescanError as exc:
         sys.stderr.write(f"fescan: error: {exc}\n")
         return 1

@@ -107,13 +107,13 @@ def _test_hooks(path: str) -> None:
             hog.append(np.empty(64 << 20, dtype=np.uint8))
 
 
-def _failed_structure_row(path: str, seconds: float) -> dict[str, Any]:
-    return {"file": path, "status": "failed", "seconds": seconds}
+def _failed_structure_row(path: str) -> dict[str, Any]:
+    return {"file": path, "status": "failed"}
 
 
 def _failure(path: str, error_class: str, message: str, reason: str, seconds: float) -> dict[str, Any]:
     return {"file": path, "status": "failed", "seconds": seconds,
-            "structure": _failed_structure_row(path, seconds),
+            "structure": _failed_structure_row(path),
             "failure": {"file": path, "error_class": error_class, "message": message, "reason": reason}}
 
 
@@ -165,7 +165,7 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
         "resolution": info.resolution, "n_models": info.n_models, "n_atoms": info.n_atoms,
         **{col: counts.get(cat, 0) for cat, col in _CATEGORY_COLUMNS.items()},
         "n_cofactors": len(res.cofactors), "n_flags": sum(len(c.flags) for c in res.cofactors),
-        "status": "ok", "seconds": seconds,
+        "status": "ok",
     }
     out: dict[str, Any] = {"file": path, "status": "ok", "seconds": seconds, "structure": structure, "rows": rows}
     if report_dir and report_writer is not None:

@@ -61,9 +61,8 @@ logger = logging.getLogger(__name__)
 STATE_DIR = "_survey_state"
 
 #: Tables a survey writes, in the order they are merged.
-TABLE_NAMES: tuple[str, ...] = (
-    "structures", "failures", "cofactors", "ligands", "flags", "pairs", "hops", "wires",
-)
+#: (One list: the declared schemas; ``timings`` is the only table whose values differ between runs.)
+TABLE_NAMES: tuple[str, ...] = tuple(SCHEMAS)
 
 _MERGE_ROWS = 65536  # rows buffered before a row group of a merged Parquet table is written
 
@@ -227,6 +226,7 @@ class SurveyStore:
         rows: dict[str, list[dict]] = {name: [] for name in TABLE_NAMES}
         for o in outcomes:
             rows["structures"].append(o["structure"])
+            rows["timings"].append({"file": o["file"], "seconds": o["seconds"]})
             if o.get("failure"):
                 rows["failures"].append(o["failure"])
             for name, part in (o.get("rows") or {}).items():
@@ -307,34 +307,40 @@ class SurveyStore:
                 yield table
 
 
+def _sorted(name: str, chunks: Iterable[pa.Table],
+            on_chunk: Callable[[str, pa.Table], None] | None) -> pa.Table:
+    """All rows of one table in a defined order: by its declared columns, left to right.
+
+    Workers finish in any order; sorting makes the merged tables (and so the
+    committed demo outputs) independent of it. The rows of one table are held in
+    memory for the sort (Arrow columns: a few hundred bytes a row, so a survey of
+    the whole archive stays within a few GiB at most).
+    """
+    tables = []
+    for t in chunks:
+        if on_chunk:
+            on_chunk(name, t)
+        tables.append(t)
+    table = pa.concat_tables(tables) if tables else arrow_schema(name).empty_table()
+    keys = [(c.name, "ascending") for c in SCHEMAS[name]]
+    return table.sort_by(keys) if table.num_rows > 1 else table
+
+
 def _write_parquet(tmp: Path, name: str, chunks: Iterable[pa.Table],
                    on_chunk: Callable[[str, pa.Table], None] | None) -> None:
-    schema = arrow_schema(name)
-    buf: list[pa.Table] = []
-    n = 0
-    with pq.ParquetWriter(tmp, schema) as writer:
-        for t in chunks:
-            if on_chunk:
-                on_chunk(name, t)
-            buf.append(t)
-            n += t.num_rows
-            if n >= _MERGE_ROWS:
-                writer.write_table(pa.concat_tables(buf))
-                buf, n = [], 0
-        if buf:
-            writer.write_table(pa.concat_tables(buf))
+    table = _sorted(name, chunks, on_chunk)
+    with pq.ParquetWriter(tmp, arrow_schema(name)) as writer:
+        for start in range(0, max(table.num_rows, 1), _MERGE_ROWS):
+            writer.write_table(table.slice(start, _MERGE_ROWS))
 
 
 def _write_csv(tmp: Path, name: str, chunks: Iterable[pa.Table],
                on_chunk: Callable[[str, pa.Table], None] | None) -> None:
-    header = True
+    table = _sorted(name, chunks, on_chunk)
     with open(tmp, "w", encoding="utf-8", newline="") as fh:
-        for t in chunks:
-            if on_chunk:
-                on_chunk(name, t)
-            t.to_pandas().to_csv(fh, header=header, index=False)
-            header = False
-        if header:  # no rows at all: still write the header line
+        if table.num_rows:
+            table.to_pandas().to_csv(fh, index=False)
+        else:  # no rows at all: still write the header line
             empty_table(name).to_csv(fh, index=False)
 
 
@@ -377,6 +383,8 @@ _TABLE_INTROS = {
     "flags": "One row per finding of the ligation and geometry checks.",
     "pairs": "One row per cofactor pair within the cutoff. Rates are model estimates (Moser-Dutton), "
              "not measurements.",
+    "timings": "One row per input file: the wall time of its analysis. Kept apart from `structures` so that "
+               "every other table depends only on the inputs and options, not on the machine or its load.",
     "hops": "One row per hop of the fastest path of each structure. Rates and times are model estimates.",
     "wires": "One row per structure analysed: entry, exit, fastest path, bottleneck and transfer times. "
              "Times are model estimates from the Moser-Dutton law, not measurements.",
