@@ -169,7 +169,7 @@ def binding_motif(ligands: Iterable[Ligand]) -> str | None:
 
     Examples
     --------
-    >>> from fescan.model import AtomRef, Ligand
+    >>> from fescan.core.records import AtomRef, Ligand
     >>> ligs = [Ligand("FE1", "FE", AtomRef("A", n, "", "CYS", "SG", "S", (0, 0, 0)), 2.3, "Cys S")
     ...         for n in (8, 11, 14, 18)]
     >>> binding_motif(ligs)

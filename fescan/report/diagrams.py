@@ -45,7 +45,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["RC", "figure_context", "new_figure", "save_figure", "draw_wire", "draw_scene", "relay_figure",
            "relay_diagram", "legend_handles", "DiagramInfo", "distance_by_class_figure", "rate_distance_figure",
-           "counts_figure"]
+           "counts_figure", "bottleneck_figure", "ligation_by_resolution_figure", "ambiguity_ratio",
+           "AMBIGUOUS_RATIO", "MAX_PANELS"]
 
 #: rcParams of every fescan figure (see :func:`figure_context`).
 RC: dict[str, object] = {
@@ -744,4 +745,71 @@ def counts_figure(class_counts: Sequence[tuple[str, style.Glyph, int]],
         else:
             bottom.legend(loc="lower right", **{**_legend_kw(), "handlelength": 1.2})
         bottom.set_xlabel("count", fontsize=style.FONT_PT)
+    return fig
+
+
+def bottleneck_figure(distances: np.ndarray, *, gap_limit: float, n_without: int = 0) -> Figure:
+    """Histogram of the edge-to-edge distance of every wire's slowest hop (1 Å bins).
+
+    Parameters
+    ----------
+    distances : ndarray
+        Bottleneck edge-to-edge distances (Å), one per wire.
+    gap_limit : float
+        Gap limit (Å), marked.
+    n_without : int, optional
+        Structures without a wire (said in the axis label).
+    """
+    with figure_context("fescan-survey-bottleneck"):
+        fig = new_figure(style.COLUMN_WIDTH_IN, 2.2)
+        ax = fig.add_axes((0.15, 0.27, 0.8, 0.62))
+        _plain_axes(ax)
+        d = np.asarray(distances, dtype=float)
+        d = d[np.isfinite(d)]
+        top = max(float(np.ceil(d.max())) + 1 if len(d) else 0.0, gap_limit + 2.0)
+        bins = np.arange(0.0, top + 1.0, 1.0)
+        below, above = d[d <= gap_limit], d[d > gap_limit]
+        ax.hist([below, above], bins=bins, stacked=True, color=["#8c8c8c", "white"], edgecolor=style.INK,
+                linewidth=0.5, hatch=None, gid="bottlenecks")
+        for patch in ax.patches[len(bins) - 1:]:
+            patch.set_hatch("////")
+        ax.axvline(gap_limit, color=style.INK, linewidth=0.8, linestyle=(0, (3.0, 2.0)), gid="gap-limit")
+        ax.text(gap_limit, 1.0, f" {gap_limit:g} Å limit", transform=ax.get_xaxis_transform(), ha="left", va="top",
+                fontsize=style.FONT_PT)
+        ax.set_xlim(0, top + 1.0)
+        ax.yaxis.get_major_locator().set_params(integer=True)
+        ax.set_ylabel("wires", fontsize=style.FONT_PT)
+        extra = f"; {n_without} structures without a wire" if n_without else ""
+        ax.set_xlabel(f"edge-to-edge distance of the slowest hop (Å), {len(d)} wires{extra}\n"
+                      "hatched: over the gap limit", fontsize=style.FONT_PT, linespacing=1.3)
+    return fig
+
+
+def ligation_by_resolution_figure(rows: Sequence[tuple[str, int, int]]) -> Figure:
+    """Share of Fe-S clusters with a ligation or geometry warning, by resolution bin.
+
+    Parameters
+    ----------
+    rows : sequence of (bin label, clusters with a warning, clusters)
+    """
+    with figure_context("fescan-survey-ligation"):
+        n = max(len(rows), 1)
+        fig = new_figure(style.COLUMN_WIDTH_IN, 0.9 + 0.22 * n)
+        h = fig.get_figheight()
+        ax = fig.add_axes((0.30, 0.5 / h, 0.58, 0.22 * n / h))
+        _plain_axes(ax)
+        y = np.arange(len(rows))
+        total = np.array([t for _, _, t in rows], dtype=float)
+        bad = np.array([b for _, b, _ in rows], dtype=float)
+        share = np.divide(bad, total, out=np.zeros_like(bad), where=total > 0)
+        ax.barh(y, share, color="#6e6e6e", edgecolor=style.INK, linewidth=0.5, height=0.7, gid="warned-share")
+        for yy, (_, b, t), v in zip(y, rows, share):
+            ax.text(v, yy, f" {b} of {t}", va="center", ha="left", fontsize=style.FONT_PT)
+        ax.set_yticks(y, [lab for lab, _, _ in rows], fontsize=style.FONT_PT)
+        ax.set_xlim(0, 1.0)
+        ax.invert_yaxis()
+        ax.set_xlabel("share of Fe-S clusters with a warning", fontsize=style.FONT_PT)
+        ax.set_ylabel("resolution", fontsize=style.FONT_PT)
+        if not rows:
+            ax.text(0.5, 0.5, "no Fe-S clusters", transform=ax.transAxes, ha="center", fontsize=style.FONT_PT)
     return fig
