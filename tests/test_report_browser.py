@@ -110,3 +110,33 @@ def test_survey_page_fits_1400_px(survey_page):
     assert m["scrollWidth"] <= WINDOW, m
     assert m["outside"] == [], m
     assert {"figures", "structures", "failures"} <= set(m["sections"])
+
+
+@pytest.fixture(scope="module")
+def compare_page(tmp_path_factory):
+    from fescan.comparison.compare import compare
+    from fescan.report.compare_report import write_compare_report
+
+    # 1CLF (NMR model 1) against 1FDN (X-ray): the same 2[4Fe-4S] ferredoxin (SOURCES.md)
+    r = compare(entry_path("1CLF"), entry_path("1FDN"))
+    return r, write_compare_report(r, tmp_path_factory.mktemp("compare"))
+
+
+def test_compare_report_uses_the_shared_document_model(compare_page):
+    r, out = compare_page
+    html = out["html"].read_text(encoding="utf-8")
+    md = out["markdown"].read_text(encoding="utf-8")
+    from fescan.report.html import CSS
+
+    assert CSS.splitlines()[0] in html  # the house style sheet, not a private one
+    assert 'id="mapping"' in html and "## Residue mapping" in md
+    chain = r.superposition.chains[0]
+    assert f"{chain['offset']:+d}" in html and str(chain["aligned"]) in html
+
+
+@requires_chromium
+def test_compare_page_fits_1400_px(compare_page):
+    _, out = compare_page
+    m = measure_page(out["html"], width=WINDOW)
+    assert m["scrollWidth"] <= WINDOW and m["outside"] == [], m
+    assert {"verdict", "mapping", "cofactors", "hops"} <= set(m["sections"])
