@@ -97,3 +97,17 @@ def test_every_flag_has_a_severity():
     for c in res.cofactors:
         for f in c.flags:
             assert f.severity in ("warning", "note"), f
+
+
+def test_a_pdb_id_is_not_a_file(tmp_path, capsys, monkeypatch):
+    # `fescan scan 1KF6` in a folder without such a file: say that fescan reads local files
+    # and how to get one (common practice, no source: fescan never downloads)
+    from fescan.cli.main import main
+
+    monkeypatch.chdir(tmp_path)
+    assert main(["scan", "1KF6"]) == 1
+    err = capsys.readouterr().err
+    assert "1KF6: no such file" in err and "reads local structure files" in err and "1kf6.cif.gz" in err
+    assert "Traceback" not in err
+    assert main(["scan", "missing.pdb"]) == 1
+    assert "looks like a PDB entry id" not in capsys.readouterr().err

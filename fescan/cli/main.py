@@ -10,7 +10,7 @@ import sys
 from collections.abc import Sequence
 from types import ModuleType
 
-from fescan.cli.common import add_verbose, option_words
+from fescan.cli.common import add_verbose, local_file_hint, option_words
 from fescan.core.errors import ConfigError, FescanError
 from fescan.core.version import __version__
 
@@ -64,7 +64,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         sys.stderr.write(f"fescan: error: {option_words(str(exc))}\n")
         return 1
     except FescanError as exc:
-        sys.stderr.write(f"fescan: error: {exc}\n")
+        sys.stderr.write(f"fescan: error: {local_file_hint(str(exc))}\n")
         return 1
     except BrokenPipeError:  # output piped into head and closed
         return 0
