@@ -16,13 +16,13 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from fescan.analysis.tables import SCHEMAS
+from fescan.analysis.tables import SCHEMAS, tables_markdown
 from fescan.api import survey
 from fescan.cli.main import main
 from fescan.core.errors import ConfigError, StructureNotFound
 from fescan.core.records import CATEGORIES
 from fescan.surveys.run import analyse_file, find_structure_files, report_stem
-from fescan.surveys.store import TABLE_NAMES, arrow_schema, read_table, tables_markdown
+from fescan.surveys.store import TABLE_NAMES, arrow_schema, read_table
 from tests.datafiles import ENTRIES, SHARED, entry_path, requires_shared
 from tests.survey_helpers import (
     HOOK_ENV,
@@ -93,7 +93,7 @@ def test_table_schemas_cover_categories():
 def test_docs_are_up_to_date():
     # docs/survey_tables.md is what the README section is copied from: it must match SCHEMAS
     assert DOCS.read_text(encoding="utf-8") == tables_markdown(), (
-        "docs/survey_tables.md is stale; regenerate it: python -c \"from fescan.surveys.store import "
+        "docs/survey_tables.md is stale; regenerate it: python -c \"from fescan.analysis.tables import "
         "tables_markdown; open('docs/survey_tables.md', 'w', encoding='utf-8').write(tables_markdown())\"")
     for name in TABLE_NAMES:
         for c in SCHEMAS[name]:
@@ -115,7 +115,7 @@ def bad_run(tmp_path_factory):
     try:
         # 2 GiB: well above a worker's start (about 0.5 GiB of address space) and the
         # largest shared entry; the memory-marked file allocates past it
-        summary = survey([SHARED, root / "bad"], root / "out", workers=2, time_limit=4, memory_limit=2,
+        summary = survey([SHARED, root / "bad"], root / "out", workers=2, time_limit=20, memory_limit=2,
                          quiet=True)
     finally:
         mp.undo()

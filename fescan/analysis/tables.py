@@ -6,6 +6,7 @@ columns below. ``file`` is the structure file the row comes from.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -14,8 +15,8 @@ import pandas as pd
 if TYPE_CHECKING:  # pragma: no cover
     from fescan.analysis.scan import ScanResult
 
-__all__ = ["Column", "SCHEMAS", "empty_table", "cofactor_rows", "ligand_rows", "flag_rows", "pair_rows",
-           "hop_rows", "wire_rows", "result_tables", "to_frame"]
+__all__ = ["Column", "TableSpec", "TABLES", "SCHEMAS", "empty_table", "result_rows", "result_tables",
+           "to_frame", "tables_markdown"]
 
 
 @dataclass(frozen=True)
@@ -233,13 +234,95 @@ def wire_rows(res: ScanResult) -> list[dict]:
     }]
 
 
+# --- the one list of tables -----------------------------------------------------------------
+
+_INTROS = {
+    "structures": "One row per input file, whether it succeeded (`status` = `ok`) or not (`failed`; the "
+                  "other columns are then empty and the file has a row in `failures`).",
+    "failures": "One row per file that could not be analysed. `reason` is `error` (the file is bad: missing, "
+                "empty, not a structure, damaged gzip, truncated, non-finite coordinates...; `error_class` is "
+                "the fescan exception, a `FescanError` subclass; any other class is a bug in fescan and is "
+                "logged with its traceback), `timeout` (over the per-file time limit; `Timeout`), `memory` "
+                "(over the per-worker memory cap; `MemoryError`) or `crash` (the worker process died: "
+                "segfault, `os._exit`, killed by a signal; `WorkerCrash`).",
+    "cofactors": "One row per redox cofactor found, as `fescan scan --csv` writes it.",
+    "ligands": "One row per bond from a cofactor metal to a ligating atom outside the cofactor.",
+    "flags": "One row per finding of the ligation and geometry checks.",
+    "pairs": "One row per cofactor pair within the cutoff. Rates are model estimates (Moser-Dutton), "
+             "not measurements.",
+    "timings": "One row per input file: the wall time of its analysis. Kept apart from `structures` so that "
+               "every other table depends only on the inputs and options, not on the machine or its load.",
+    "hops": "One row per hop of the fastest path of each structure. Rates and times are model estimates.",
+    "wires": "One row per structure analysed: entry, exit, fastest path, bottleneck and transfer times. "
+             "Times are model estimates from the Moser-Dutton law, not measurements.",
+}
+
+_DOC_HEAD = """# Survey tables
+
+`fescan survey INPUT... -o OUT` (or `fescan.survey(inputs, out_dir)`) writes one table per kind into `OUT`:
+`OUT/<table>.parquet` by default, `OUT/<table>.csv` with `--format csv`. The columns are declared once, in
+`fescan/analysis/tables.py` (`TABLES`); the tables below list them with their pandas dtype and unit. This file is
+made by `fescan.analysis.tables.tables_markdown()`; a test checks that it is up to date.
+
+- Every row has a `file` column: the structure file as found in the inputs (not resolved).
+- Rows are sorted by their columns, left to right (`file` first), whatever order the files finished in.
+- Parquet keeps the dtypes: `pandas.read_parquet("OUT/cofactors.parquet")` gives `string`, `Int64`,
+  `boolean` and `float64` columns as listed. For CSV use `fescan.surveys.store.read_table(path, name)`;
+  in CSV an empty string and a missing value are written alike.
+- Cofactor ids are `MODEL:CHAIN/RESNUM[ICODE]:CODE` (`CODE` is `-` for a cluster found by geometry alone).
+- Rates (`log10_k_*`, log10 of s⁻¹) and times (`*_time_s`, s) are estimates from the empirical Moser-Dutton
+  tunnelling law (Page, Moser, Chen & Dutton 1999, Nature 402:47), not measurements.
+- `OUT/_survey_state/` holds what lets a rerun resume: the options used, the index of files done
+  (keyed by resolved path, size and modification time) and the part files. A rerun into `OUT` analyses
+  only new or changed files (and, with `--retry-failed`, the failed ones); the merged tables always hold
+  the latest result of every file ever surveyed into `OUT`.
+- With `--report`, per-structure reports go to `OUT/structures/<file name>-<8 hex digits>` and the
+  survey report into `OUT` (when the report module is installed).
+"""
+
+
+@dataclass(frozen=True)
+class TableSpec:
+    """One output table: its name, what a row is, its columns and how rows are built.
+
+    ``rows`` builds the rows of one structure's result; it is ``None`` for the
+    tables a survey fills itself (``structures``, ``failures``, ``timings``).
+    """
+
+    name: str
+    intro: str
+    columns: tuple[Column, ...]
+    rows: Callable[[ScanResult], list[dict]] | None
+
+
+_ROWS: dict[str, Callable[[ScanResult], list[dict]]] = {
+    "cofactors": cofactor_rows, "ligands": ligand_rows, "flags": flag_rows,
+    "pairs": pair_rows, "hops": hop_rows, "wires": wire_rows,
+}
+
+#: Every table fescan writes, in the order surveys merge and documents list them. Adding a
+#: table is one entry here (columns in SCHEMAS, a row builder, an intro).
+TABLES: dict[str, TableSpec] = {
+    name: TableSpec(name, _INTROS[name], cols, _ROWS.get(name)) for name, cols in SCHEMAS.items()
+}
+
+
+def result_rows(res: ScanResult) -> dict[str, list[dict]]:
+    """Rows of every per-result table of one result, keyed by table name."""
+    return {t.name: t.rows(res) for t in TABLES.values() if t.rows is not None}
+
+
 def result_tables(res: ScanResult) -> dict[str, pd.DataFrame]:
-    """All tables of one result, keyed by table name."""
-    return {
-        "cofactors": to_frame("cofactors", cofactor_rows(res)),
-        "ligands": to_frame("ligands", ligand_rows(res)),
-        "flags": to_frame("flags", flag_rows(res)),
-        "pairs": to_frame("pairs", pair_rows(res)),
-        "hops": to_frame("hops", hop_rows(res)),
-        "wires": to_frame("wires", wire_rows(res)),
-    }
+    """All per-result tables of one result as DataFrames, keyed by table name."""
+    return {name: to_frame(name, rows) for name, rows in result_rows(res).items()}
+
+
+def tables_markdown() -> str:
+    """The Markdown reference of the tables (``docs/survey_tables.md``), from :data:`TABLES`."""
+    out = [_DOC_HEAD]
+    for t in TABLES.values():
+        out += [f"## `{t.name}`", "", t.intro, "", "| column | dtype | unit | meaning |",
+                "| --- | --- | --- | --- |"]
+        out += [f"| `{c.name}` | {c.dtype} | {c.unit} | {c.doc} |" for c in t.columns]
+        out.append("")
+    return "\n".join(out)

@@ -58,15 +58,7 @@ from pathlib import Path
 from typing import Any
 
 from fescan.analysis.scan import CAUTION, scan
-from fescan.analysis.tables import (
-    SCHEMAS,
-    cofactor_rows,
-    flag_rows,
-    hop_rows,
-    ligand_rows,
-    pair_rows,
-    wire_rows,
-)
+from fescan.analysis.tables import SCHEMAS, result_rows
 from fescan.core.errors import ConfigError, FescanError, StructureNotFound
 from fescan.core.options import ScanOptions
 from fescan.core.records import CATEGORIES
@@ -81,8 +73,6 @@ logger = logging.getLogger(__name__)
 #: File name endings taken from folders without looking inside (each also with ``.gz``).
 STRUCTURE_SUFFIXES: tuple[str, ...] = (".pdb", ".ent", ".cif", ".mmcif")
 
-_ROW_BUILDERS = {"cofactors": cofactor_rows, "ligands": ligand_rows, "flags": flag_rows,
-                 "pairs": pair_rows, "hops": hop_rows, "wires": wire_rows}
 _CATEGORY_COLUMNS = {c: "n_" + c.replace("-", "_") for c in CATEGORIES}
 _GLOB_CHARS = re.compile(r"[*?\[]")
 _SNIFF_BYTES = 65536
@@ -147,7 +137,7 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
     t0 = time.perf_counter()
     try:
         res = scan(path, **options)
-        rows = {name: build(res) for name, build in _ROW_BUILDERS.items()}
+        rows = result_rows(res)
     except MemoryError:
         raise  # the worker reports it (and is replaced)
     except FescanError as exc:

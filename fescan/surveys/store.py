@@ -52,7 +52,6 @@ __all__ = [
     "arrow_schema",
     "SurveyStore",
     "read_table",
-    "tables_markdown",
 ]
 
 logger = logging.getLogger(__name__)
@@ -367,59 +366,3 @@ def read_table(path: str | os.PathLike[str], name: str) -> pd.DataFrame:
     else:
         df = pd.read_parquet(p)
     return df.astype(dtypes)
-
-
-_TABLE_INTROS = {
-    "structures": "One row per input file, whether it succeeded (`status` = `ok`) or not (`failed`; the "
-                  "other columns are then empty and the file has a row in `failures`).",
-    "failures": "One row per file that could not be analysed. `reason` is `error` (the file is bad: missing, "
-                "empty, not a structure, damaged gzip, truncated, non-finite coordinates...; `error_class` is "
-                "the fescan exception, a `FescanError` subclass; any other class is a bug in fescan and is "
-                "logged with its traceback), `timeout` (over the per-file time limit; `Timeout`), `memory` "
-                "(over the per-worker memory cap; `MemoryError`) or `crash` (the worker process died: "
-                "segfault, `os._exit`, killed by a signal; `WorkerCrash`).",
-    "cofactors": "One row per redox cofactor found, as `fescan scan --csv` writes it.",
-    "ligands": "One row per bond from a cofactor metal to a ligating atom outside the cofactor.",
-    "flags": "One row per finding of the ligation and geometry checks.",
-    "pairs": "One row per cofactor pair within the cutoff. Rates are model estimates (Moser-Dutton), "
-             "not measurements.",
-    "timings": "One row per input file: the wall time of its analysis. Kept apart from `structures` so that "
-               "every other table depends only on the inputs and options, not on the machine or its load.",
-    "hops": "One row per hop of the fastest path of each structure. Rates and times are model estimates.",
-    "wires": "One row per structure analysed: entry, exit, fastest path, bottleneck and transfer times. "
-             "Times are model estimates from the Moser-Dutton law, not measurements.",
-}
-
-_DOC_HEAD = """# Survey tables
-
-`fescan survey INPUT... -o OUT` (or `fescan.survey(inputs, out_dir)`) writes one table per kind into `OUT`:
-`OUT/<table>.parquet` by default, `OUT/<table>.csv` with `--format csv`. The columns are declared once, in
-`fescan/tables.py` (`SCHEMAS`); the tables below list them with their pandas dtype and unit. This file is
-made by `fescan.survey_store.tables_markdown()`; a test checks that it is up to date.
-
-- Every row has a `file` column: the structure file as found in the inputs (not resolved).
-- Rows come in the order the files finished; sort by `file` for a stable order.
-- Parquet keeps the dtypes: `pandas.read_parquet("OUT/cofactors.parquet")` gives `string`, `Int64`,
-  `boolean` and `float64` columns as listed. For CSV use `fescan.survey_store.read_table(path, name)`;
-  in CSV an empty string and a missing value are written alike.
-- Cofactor ids are `MODEL:CHAIN/RESNUM[ICODE]:CODE` (`CODE` is `-` for a cluster found by geometry alone).
-- Rates (`log10_k_*`, log10 of s⁻¹) and times (`*_time_s`, s) are estimates from the empirical Moser-Dutton
-  tunnelling law (Page, Moser, Chen & Dutton 1999, Nature 402:47), not measurements.
-- `OUT/_survey_state/` holds what lets a rerun resume: the options used, the index of files done
-  (keyed by resolved path, size and modification time) and the part files. A rerun into `OUT` analyses
-  only new or changed files (and, with `--retry-failed`, the failed ones); the merged tables always hold
-  the latest result of every file ever surveyed into `OUT`.
-- With `--report`, per-structure reports go to `OUT/structures/<file name>-<8 hex digits>` and the
-  survey report into `OUT` (when the report module is installed).
-"""
-
-
-def tables_markdown() -> str:
-    """The Markdown reference of the survey tables (``docs/survey_tables.md``), from SCHEMAS."""
-    out = [_DOC_HEAD]
-    for name in TABLE_NAMES:
-        out += [f"## `{name}`", "", _TABLE_INTROS[name], "", "| column | dtype | unit | meaning |",
-                "| --- | --- | --- | --- |"]
-        out += [f"| `{c.name}` | {c.dtype} | {c.unit} | {c.doc} |" for c in SCHEMAS[name]]
-        out.append("")
-    return "\n".join(out)
