@@ -155,8 +155,8 @@ def _steady_state(res: ScanResult) -> dict | None:
     return ss or None
 
 
-def _time_interval(res: ScanResult) -> tuple[float, float] | None:
-    """95 % interval of the summed hop time from the input spreads, when it can be computed."""
+def _time_interval(res: ScanResult) -> tuple[float, float, str] | None:
+    """95 % interval of the summed hop time and what it covers, when it can be computed."""
     if not res.wire.hops:
         return None
     try:
@@ -168,15 +168,16 @@ def _time_interval(res: ScanResult) -> tuple[float, float] | None:
         return None
     iv = getattr(u, "summed_hop_time_95", None)
     if iv and all(x is not None and math.isfinite(x) for x in iv):
-        return float(iv[0]), float(iv[1])
+        basis = u.basis() if callable(getattr(u, "basis", None)) else "coordinate and potential spread only"
+        return float(iv[0]), float(iv[1]), str(basis)
     return None
 
 
-def _with_interval(value: float | None, iv: tuple[float, float] | None) -> str:
+def _with_interval(value: float | None, iv: tuple[float, float, str] | None) -> str:
     text = duration(value)
     if iv is None or value is None or not math.isfinite(value):
         return text
-    return f"{text} (95 %: {duration(iv[0])} to {duration(iv[1])}; coordinate and potential spread only)"
+    return f"{text} (95 %: {duration(iv[0])} to {duration(iv[1])}; {iv[2]})"
 
 
 def _not_analysed_words(res: ScanResult) -> list[str]:
