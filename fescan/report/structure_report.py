@@ -14,7 +14,7 @@ from __future__ import annotations
 import logging
 import math
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from fescan.analysis.scan import CAUTION
 from fescan.cofactors.ligation import ligand_counts
@@ -304,7 +304,12 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
     return out
 
 
+def _num(v: Any, digits: int = 3) -> str:
+    return number(v, digits) if isinstance(v, (int, float)) else ("–" if v is None else str(v))
+
+
 def _steady_state_blocks(res: ScanResult, refs: References) -> list:
+    """The steady state between the reservoirs, as the kinetic model gives it (absent: nothing)."""
     ss = _steady_state(res)
     if not ss:
         return []
@@ -312,25 +317,46 @@ def _steady_state_blocks(res: ScanResult, refs: References) -> list:
     out: list = [Heading(3, "Steady state (model estimate)")]
     facts = []
     if ss.get("flux_per_s") is not None:
-        facts.append(("Electron flux", f"{number(ss['flux_per_s'], 3)} s⁻¹ {refs.cite(KINETIC_MODEL)}"))
-    for key in ("conditions", "boundary", "method", "note"):
+        facts.append(("Electron flux", f"{_num(ss['flux_per_s'])} electrons s⁻¹ {refs.cite(KINETIC_MODEL)}"))
+    for key, label in (("source", "Source reservoir"), ("sink", "Sink reservoir")):
+        r = ss.get(key)
+        if isinstance(r, dict):
+            facts.append((label, f"{r.get('pool', '')} at {volts(r['e_v'], 3) if r.get('e_v') is not None else '–'}"
+                          + (f" {refs.cite(r['source'])}" if r.get("source") else "")))
+    if ss.get("transit_time_s") is not None:
+        facts.append(("Transit time", f"{duration(ss['transit_time_s'])} (electrons on the path / flux)"))
+    for key in ("method", "note"):
         if ss.get(key):
             facts.append((key.capitalize(), str(ss[key])))
     if facts:
         out.append(Facts(facts))
-    occ, ctl, sens = (ss.get(k) or {} for k in ("occupancy", "control", "sensitivity"))
-    uids = [u for u in res.wire.path if u in occ or u in ctl or u in sens] or sorted(set(occ) | set(sens))
+    occ, sens = ss.get("occupancy") or {}, ss.get("sensitivity") or {}
+    sites = ss.get("sites") or list(res.wire.path)
+    if isinstance(occ, list):
+        occ = dict(zip(sites, occ))
+    if isinstance(sens, list):
+        sens = dict(zip(sites, sens))
+    uids = [u for u in res.wire.path if u in occ or u in sens]
     if uids:
-        def val(d, u):
-            v = d.get(u)
-            return number(v, 3) if isinstance(v, (int, float)) else ("–" if v is None else str(v))
-
-        out.append(Table(["Cofactor", "Reduced fraction", "Sensitivity of the flux to E (per V)"],
-                         [[names.get(u, u), val(occ, u), val(sens, u)] for u in uids], frozenset({1, 2})))
-    if ctl:
-        out.append(Table(["Hop", "Flux control coefficient"],
-                         [[str(k), number(v, 3) if isinstance(v, (int, float)) else str(v)] for k, v in ctl.items()],
-                         frozenset({1}), "Share of the flux control held by each hop (the coefficients sum to 1)"))
+        out.append(Table(["Cofactor", "Reduced fraction", "d log10 flux / dE (per V)"],
+                         [[names.get(u, u), _num(occ.get(u)), _num(sens.get(u), 2)] for u in uids],
+                         frozenset({1, 2}), "Occupancy of each site and the sensitivity of the flux to its potential"))
+    ctl = ss.get("control") or []
+    rows = []
+    if isinstance(ctl, dict):
+        rows = [[str(k), _num(v)] for k, v in ctl.items()]
+    else:
+        steps = ss.get("steps") or []
+        for k, c in enumerate(ctl):
+            if isinstance(c, dict):
+                rows.append([f"{names.get(c.get('donor'), c.get('donor'))} → "
+                             f"{names.get(c.get('acceptor'), c.get('acceptor'))}", _num(c.get("coefficient"))])
+            elif k < len(steps):
+                a, b = steps[k][:2]
+                rows.append([f"{names.get(a, a)} → {names.get(b, b)}", _num(c)])
+    if rows:
+        out.append(Table(["Step", "Flux control coefficient"], rows, frozenset({1}),
+                         "Share of the control of the flux held by each step (the coefficients sum to 1)"))
     return out
 
 
@@ -414,7 +440,9 @@ def _parameter_blocks(res: ScanResult, refs: References) -> list:
         if p is None:
             continue
         src = refs.cite(p.source) if p.origin == "default" else p.origin
-        rows.append([c.label, volts(p.e_v, 3), f"{volts(p.low_v, 3)} to {volts(p.high_v, 3)}", p.couple or "–",
+        step = getattr(p, "step", "")
+        couple = (p.couple or "–") + (f"; works at {step}" if step and step != "1e" else "")
+        rows.append([c.label, volts(p.e_v, 3), f"{volts(p.low_v, 3)} to {volts(p.high_v, 3)}", couple,
                      p.status or "–", src])
     pots = Table(["Cofactor", "E used", "Typical range", "Couple", "Status", "Source"], rows,
                  frozenset({1}), "Midpoint potentials (V vs SHE). Status FOUND: read in a source; "
