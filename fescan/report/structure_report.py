@@ -84,6 +84,7 @@ def _structure_facts(res: ScanResult) -> Facts:
         ("Crystal cell", cell + (f"; space group {i.spacegroup}" if i.spacegroup else "")),
     ]
     items += [("File note", n) for n in i.notes]
+    items += [("Note", n) for n in getattr(res, "notes", None) or []]
     return Facts(items)
 
 
@@ -240,6 +241,7 @@ def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, fl
         problems.append(f"{len(w.isolated)} isolated cofactor{'s' * (len(w.isolated) != 1)} "
                         f"(no partner within {o.gap_limit:g} Å)")
     problems += list(w.notes) if w.path else []
+    problems += [str(n) for n in getattr(res, "notes", None) or []]
     out: list = [Heading(2, "Summary", "summary"), Facts(items)]
     out.append(Heading(3, "Problems and notes"))
     out.append(BulletList(problems) if problems else Paragraph("None: every cluster passes the checks and every hop "
@@ -297,6 +299,11 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
         extra.append((f"Isolated (no partner within {o.gap_limit:g} Å)", ", ".join(names[u] for u in w.isolated)))
     for grp in w.groups:
         extra.append(("Other connected group", " + ".join(names[u] for u in grp)))
+    for cp in getattr(w, "copies", None) or []:
+        text = " → ".join(names.get(u, u) for u in cp.get("path", [])) or "no path"
+        if cp.get("mean_first_passage_time_s") is not None:
+            text += f" (mean first passage {duration(cp['mean_first_passage_time_s'])})"
+        extra.append(("Other copy", text))
     for n in w.notes if w.path else []:
         extra.append(("Note", n))
     if extra:
