@@ -18,7 +18,13 @@ import pytest
 from matplotlib.text import Text
 
 from fescan.analysis.scan import scan
-from fescan.report.diagrams import AMBIGUOUS_RATIO, ambiguity_ratio, relay_figure, save_figure
+from fescan.report.diagrams import (
+    AMBIGUOUS_RATIO,
+    ambiguity_ratio,
+    link_ambiguity,
+    relay_figure,
+    save_figure,
+)
 from fescan.report.placement import Box
 from fescan.report.scene import SCALE_TOLERANCE, panel_groups
 from tests import synth
@@ -154,6 +160,12 @@ def test_no_label_is_ambiguous(figures, key):
             if gid in p.leaders:
                 continue  # joined to its glyph by a leader line
             assert ambiguity_ratio(boxes[gid], gid, glyph) <= AMBIGUOUS_RATIO + 1e-6, gid
+        centre = {u: np.array([(b.x0 + b.x1) / 2, (b.y0 + b.y1) / 2]) for u, b in p.glyph_boxes.items()}
+        lines = {lk.label_gid: (centre[lk.first], centre[lk.second]) for lk in p.scene.links if lk.label}
+        for gid in lines:  # a line label is nearest its own line, or joined to it
+            if gid in p.leaders:
+                continue
+            assert link_ambiguity(boxes[gid], gid, lines) <= AMBIGUOUS_RATIO + 1e-6, gid
 
 
 @requires_shared

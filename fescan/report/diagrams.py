@@ -45,7 +45,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["RC", "figure_context", "new_figure", "save_figure", "draw_wire", "draw_scene", "relay_figure",
            "relay_diagram", "legend_handles", "DiagramInfo", "distance_by_class_figure", "rate_distance_figure",
-           "counts_figure", "bottleneck_figure", "ligation_by_resolution_figure", "ambiguity_ratio",
+           "counts_figure", "bottleneck_figure", "ligation_by_resolution_figure", "ambiguity_ratio", "link_ambiguity",
            "AMBIGUOUS_RATIO", "MAX_PANELS"]
 
 #: rcParams of every fescan figure (see :func:`figure_context`).
@@ -433,6 +433,8 @@ def _place_texts(ax: Axes, scene: Scene, px: dict, segments: list[Segment],
     boxes = place_labels(items, fixed=fixed, segments=segments, frame=Box(bb.x0, bb.y0, bb.x1, bb.y1))
     inv = ax.transData.inverted()
     glyph_xy = {n.label_gid: np.asarray(px[n.uid]) for n in scene.nodes}
+    link_xy = {lk.label_gid: (np.asarray(px[lk.first]), np.asarray(px[lk.second]))
+               for lk in scene.links if lk.label is not None}
     leaders: set[str] = set()
     for key, box in boxes.items():
         if key == "scale-bar":
@@ -441,6 +443,16 @@ def _place_texts(ax: Axes, scene: Scene, px: dict, segments: list[Segment],
         t, anchor = texts[key]
         t.set_position(tuple(inv.transform(((box.x0 + box.x1) / 2, (box.y0 + box.y1) / 2))))
         if anchor is None:
+            own = link_xy.get(key)
+            if own is not None and link_ambiguity(box, key, link_xy) > AMBIGUOUS_RATIO:
+                p, q = own
+                a = _nearest_on_segment(p, q, box)
+                near = np.array([min(max(a[0], box.x0), box.x1), min(max(a[1], box.y0), box.y1)])
+                if float(np.hypot(*(near - a))) > 1.0:
+                    leaders.add(key)
+                    (x0, y0), (x1, y1) = inv.transform(a), inv.transform(near)
+                    ax.plot([x0, x1], [y0, y1], color="#555555", linewidth=0.5, zorder=7, linestyle=(0, (1.0, 1.0)),
+                            gid=key.replace("-label", "-leader"))
             continue
         seg = leader(anchor, box, _LEADER_FROM_PT * k)
         if seg is None and _ambiguous(box, key, glyph_xy):
@@ -471,6 +483,27 @@ def ambiguity_ratio(box: Box, own: str, glyph_xy: dict[str, np.ndarray]) -> floa
     """
     mine = _box_distance(box, glyph_xy[own])
     others = [_box_distance(box, xy) for k, xy in glyph_xy.items() if k != own]
+    if not others:
+        return 0.0
+    return mine / max(min(others), 1e-9)
+
+
+def _nearest_on_segment(p: np.ndarray, q: np.ndarray, box: Box) -> np.ndarray:
+    """Point of segment p-q nearest to the centre of a box."""
+    c = np.array([(box.x0 + box.x1) / 2, (box.y0 + box.y1) / 2])
+    d = q - p
+    t = float(np.clip((c - p) @ d / max(float(d @ d), 1e-12), 0.0, 1.0))
+    return p + t * d
+
+
+def _segment_distance(box: Box, p: np.ndarray, q: np.ndarray) -> float:
+    return _box_distance(box, _nearest_on_segment(p, q, box))
+
+
+def link_ambiguity(box: Box, own: str, link_xy: dict[str, tuple[np.ndarray, np.ndarray]]) -> float:
+    """Distance of a line label to its own line over the distance to the nearest other labelled line."""
+    mine = _segment_distance(box, *link_xy[own])
+    others = [_segment_distance(box, *pq) for k, pq in link_xy.items() if k != own]
     if not others:
         return 0.0
     return mine / max(min(others), 1e-9)
