@@ -201,7 +201,8 @@ def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, fl
                                f"{f'{i.resolution:.2f} Å' if i.resolution else 'resolution not given'}; "
                                f"{len(res.cofactors)} redox cofactors found"))
     if w.path:
-        items.append(("Wire", f"{names[w.entry]} → {names[w.exit]}: {len(w.path)} cofactors, {len(w.hops)} hops"))
+        items.append(("Wire", f"{names[w.entry]} → {names[w.exit]}: {len(w.path)} cofactors, {len(w.hops)} "
+                              f"hop{'s' * (len(w.hops) != 1)}"))
         items.append(("Direction", w.how_chosen or "–"))
         items.append(("Transfer time (sum of hops)", [_with_interval(w.summed_hop_time, interval), " ",
                                                       refs.cite(RATE_LAW)]))
@@ -231,7 +232,7 @@ def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, fl
     if res.not_analysed:
         problems.append("present but not analysed (the wire ignores them): " + ", ".join(_not_analysed_words(res)))
     off = _off_wire(res)
-    if off:
+    if off and not any("kept off the wire" in n for n in w.notes):
         problems.append(f"{len(off)} kept off the wire: " + ", ".join(f"{x.get('label', x.get('id'))} "
                                                                     f"({x.get('role', '')})" for x in off))
     if w.groups:
