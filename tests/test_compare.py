@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import json
 import math
+from pathlib import Path
 
 import gemmi
 import numpy as np
@@ -160,7 +161,11 @@ def test_moved_renumbered_copy_uses_the_superposition(fdn_moved):
     assert np.allclose(np.asarray(r.superposition.rotation), rot.T, atol=1e-4)
     keys = sorted((r.reference.cofactor(m.reference).key, r.model.cofactor(m.model).key) for m in r.matches)
     assert keys == [("A/56", "X/156"), ("A/57", "X/157")]
-    assert all(m.how == "position" and m.displacement < 1e-3 for m in r.matches)
+    # matched through the residue mapping (chain X -> A, numbers - 100), which is reported
+    assert all(m.how == "chain and residue, mapped" and m.displacement < 1e-3 for m in r.matches)
+    (chain,) = r.superposition.chains
+    assert (chain["model_chain"], chain["reference_chain"], chain["offset"], chain["aligned"]) == ("X", "A", -100, 55)
+    assert chain["identity"] == pytest.approx(1.0)
     # ligands map through the sequence alignment (X/108 is A/8): no ligation change
     assert r.n_changes == 0
 
@@ -182,7 +187,12 @@ def test_cofactor_centre_fit_without_protein(tmp_path):
     assert r.superposition.method == "cofactor centres" and r.superposition.n_pairs == 10
     assert len(r.matches) == 10 and r.missing == [] and r.extra == []
     assert all(m.displacement < 1e-2 and not m.class_changed for m in r.matches)
-    assert [h.status for h in r.hops] == ["unchanged"] * len(r.reference.wire.hops)
+    # the hops keep their geometry, but every cluster lost its Cys ligands with the protein:
+    # each hop is "changed" (ligation), so a hop is never both unchanged and implausible
+    assert all(abs(h.delta("edge")) < 1e-3 for h in r.hops)
+    assert [h.status for h in r.hops] == ["changed"] * len(r.reference.wire.hops)
+    problems = {p["step"] for p in r.problems()}
+    assert not [h for h in r.hops if h.status == "unchanged" and h.step in problems]
 
 
 def test_incomplete_cluster_is_reported(tmp_path):
@@ -231,7 +241,7 @@ def test_report_files_escape_input_strings(fdn_moved, tmp_path):
     page = out["html"].read_text(encoding="utf-8")
     assert "fdn<b>&moved" not in page and "fdn&lt;b&gt;&amp;moved" in page
     md = out["markdown"].read_text(encoding="utf-8")
-    assert "<b>" not in md and "&lt;b&gt;" in md
+    assert "<b>" not in md and "\\<b\\>" in md  # the Markdown renderer's escaping, as in every report
     svg = out["svg"].read_text(encoding="utf-8")
     assert "reference: 1FDN" in svg and "model, superposed" in svg  # both panels
     assert md_escape("a|b") == "a\\|b"
@@ -271,3 +281,25 @@ def test_renamed_chains_do_not_change_non_protein_ligands(tmp_path):
     res = compare(tmp_path / "renamed.cif", entry_path("1YQ9"))
     assert res.changes()["ligation_changed"] == 0
     assert not res.problems()
+
+
+def test_unchanged_hop_is_never_implausible(tmp_path):
+    # the rb2 demo has a relay gap (example_structures/README.md); a renamed, renumbered and
+    # rotated copy keeps it: the hop is unchanged, noted as inherited, never called implausible
+    src = Path(__file__).resolve().parent.parent / "example_structures" / "rb2_gap.pdb"
+    st = gemmi.read_structure(str(src))
+    _move_whole(st, _rotation(90, 2), (12.0, -3.0, 40.0))
+    for ch in st[0]:
+        ch.name = "Q"
+        for res in ch:
+            res.seqid = gemmi.SeqId(res.seqid.num + 2000, " ")
+    st.setup_entities()
+    r = compare(rewrite.write(st, tmp_path / "rb2_moved.pdb"), str(src))
+    assert r.superposition.method == "protein chains" and r.superposition.rmsd < 1e-2
+    (chain,) = r.superposition.chains
+    assert (chain["model_chain"], chain["offset"]) == ("Q", -2000)
+    assert all(m.how == "chain and residue, mapped" for m in r.matches) and not r.missing
+    assert all(h.status == "unchanged" for h in r.hops)
+    assert r.problems() == []
+    v = r.to_dict()["verdict"]
+    assert any("unchanged and already over" in n for n in v["notes"]), v["notes"]

@@ -27,7 +27,7 @@ def test_survey_report_from_the_command_line(tmp_path, capsys):
     folder = write_tables(survey_tables([res]), tmp_path / "survey", "csv")
     assert main(["report", "--survey", str(folder), "--survey-out", str(tmp_path / "o")]) == 0
     printed = capsys.readouterr().out.split()
-    assert printed[0] == str(tmp_path / "o" / "index.html") and len(printed) == 7
+    assert printed[0] == str(tmp_path / "o" / "index.html") and len(printed) == 11  # index + 5 figures (SVG, PNG)
 
 
 def test_errors_are_one_line(tmp_path, capsys):

@@ -66,7 +66,8 @@ def test_index_lists_structures_links_reports_and_escapes_failures(survey_dir):
     written = write_survey_report(survey_dir)
     index = survey_dir / "index.html"
     assert written[0] == index and all(p.is_file() for p in written)
-    assert {p.name for p in written[1:]} == {f"{n}.{s}" for n in ("nearest_neighbour", "rate_distance", "counts")
+    assert {p.name for p in written[1:]} == {f"{n}.{s}" for n in ("nearest_neighbour", "rate_distance", "counts",
+                                                                   "bottlenecks", "ligation_by_resolution")
                                              for s in ("svg", "png")}
     html = index.read_text(encoding="utf-8")
     for entry in ("1KF6", "1YQ9", "1BE3"):
@@ -76,7 +77,7 @@ def test_index_lists_structures_links_reports_and_escapes_failures(survey_dir):
     assert "<script" not in html and "<b>1.cif" not in html
     assert esc(FAILURE["message"]) in html and esc(FAILURE["file"]) in html
     assert "4 files, 3 analysed, 1 failed" in html
-    assert html.count("<svg") == 3 and "not measurements" in html
+    assert html.count("<svg") == 5 and "not measurements" in html
 
 
 def test_csv_and_parquet_tables_give_the_same_report(tmp_path, tables):

@@ -177,6 +177,21 @@ class ScanResult:
         })
 
 
+def _deposited_coordinate_error(path: str) -> float | None:
+    """The overall coordinate error (Å) the file's header states, or ``None`` (widens the bond windows)."""
+    try:
+        from fescan.structure.refinement import read_refinement_stats
+    except ImportError:  # before the refinement-statistics reader: the header patterns of the uncertainty module
+        from fescan.transfer.uncertainty import _header_text, deposited_coordinate_error
+
+        return deposited_coordinate_error(_header_text(path, 2_000_000))
+    st = read_refinement_stats(path)
+    for v in (st.dpi_rfree, st.dpi_r, st.ml_error, st.luzzati_free, st.luzzati):
+        if v is not None and v > 0:
+            return float(v)
+    return None
+
+
 def scan(path: str, entry: str | None = None, exit: str | None = None, **options: Any) -> ScanResult:  # noqa: A002
     """Analyse one structure file: cofactors, checks, distances, rates and the wire.
 
@@ -209,7 +224,8 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     """
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
-    cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution)
+    cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution,
+                               coordinate_error=_deposited_coordinate_error(str(path)))
     user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
     every_param = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
     roles = {c.key: every_param[c.uid].role for c in cofactors if every_param[c.uid].role}

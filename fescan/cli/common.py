@@ -12,7 +12,7 @@ from typing import Any
 from fescan.core.errors import ConfigError
 
 __all__ = ["add_wire_options", "wire_options", "emit_json", "add_json_option", "parse_packing",
-           "option_words", "add_verbose"]
+           "option_words", "add_verbose", "local_file_hint"]
 
 #: Option fields of the API and the command-line option that sets each (for error messages).
 OPTION_NAMES = {
@@ -136,3 +136,26 @@ def wire_options(a: argparse.Namespace) -> dict:
         if hasattr(a, k):
             out[k] = getattr(a, k)
     return out
+
+
+_PDB_ID = re.compile(r"^(?:[0-9][A-Za-z0-9]{3}|pdb_[0-9]{4}[0-9a-z]{4})$", re.IGNORECASE)
+
+
+def local_file_hint(message: str) -> str:
+    """Add how to get a file when a missing "file" is a PDB entry id (``fescan scan 1KF6``).
+
+    Examples
+    --------
+    >>> print(local_file_hint("1KF6: no such file"))  # doctest: +NORMALIZE_WHITESPACE
+    1KF6: no such file. fescan reads local structure files and never downloads: 1KF6 looks like a PDB
+    entry id. Download the entry's PDBx/mmCIF or PDB file from a wwPDB archive site (for example
+    1kf6.cif.gz) and give its path: fescan scan 1kf6.cif.gz
+    """
+    name, sep, rest = message.partition(": ")
+    if not sep or not rest.startswith("no such file") or not _PDB_ID.match(name.strip()):
+        return message
+    pid = name.strip().lower()
+    return (f"{message}. fescan reads local structure files and never downloads: {name.strip()} looks like a PDB "
+            f"entry id. Download the entry's PDBx/mmCIF or PDB file from a wwPDB archive site (for example "
+            f"{pid}.cif.gz) and give its path: fescan scan {pid}.cif.gz")
+

@@ -11,7 +11,7 @@ import sys
 from collections.abc import Sequence
 from types import ModuleType
 
-from fescan.cli.common import add_verbose, option_words
+from fescan.cli.common import add_verbose, local_file_hint, option_words
 from fescan.core.errors import ConfigError, FescanError
 from fescan.core.version import __version__
 
@@ -67,7 +67,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         sys.stderr.write("fescan: error: " + _CONTROL.sub("?", option_words(str(exc))) + "\n")
         return 1
     except FescanError as exc:  # one line, without terminal control characters from a file or path name
-        sys.stderr.write("fescan: error: " + _CONTROL.sub("?", str(exc)) + "\n")
+        sys.stderr.write("fescan: error: " + _CONTROL.sub("?", local_file_hint(str(exc))) + "\n")
         return 1
     except BrokenPipeError:  # output piped into head and closed
         return 0

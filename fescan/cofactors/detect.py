@@ -30,7 +30,13 @@ from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays, ModelIndex
 from fescan.cofactors.inventory import count_not_analysed, unique_keys, with_states
-from fescan.cofactors.ligation import binding_motif, check_metal_site, find_ligands, occupancy_flags
+from fescan.cofactors.ligation import (
+    binding_motif,
+    bond_margin,
+    check_metal_site,
+    find_ligands,
+    occupancy_flags,
+)
 from fescan.cofactors.metal_sites import (
     METALS,
     MetalSite,
@@ -81,14 +87,15 @@ def _might_be_flavin(atoms: AtomArrays, rows: np.ndarray) -> bool:
 class _Builder(OrganicMixin):
     """Collects cofactors of one model."""
 
-    def __init__(self, model: gemmi.Model, model_number: int, resolution: float | None) -> None:
+    def __init__(self, model: gemmi.Model, model_number: int, resolution: float | None,
+                 coordinate_error: float | None = None) -> None:
         self.table = ccd_table()
         skip = frozenset(k for k, v in self.table.items() if v.category == "not analysed")
         self.index = ModelIndex(model, skip=skip)
         self.states = find_alternative_states(self.index.residues, np.flatnonzero(self.index.is_candidate))
         self.index.hide(st.res_id for group in self.states.values() for st in group[1:])
         self.model_number = model_number
-        self.low_res = resolution is not None and resolution > LOW_RESOLUTION_LIMIT
+        self.margin = bond_margin(resolution, coordinate_error)
         self.cand = self.index.candidates()
         self.by_res = _rows_by_residue(self.cand)
         self.cofactors: list[tuple[int, Cofactor]] = []
@@ -275,7 +282,7 @@ class _Builder(OrganicMixin):
                 category = entry.category
             expected = (entry.composition or None) if entry.category != "metal" else None
         flags, coordination = check_metal_site(
-            cls, composition, expected, env, env_core, ligs, clashes, self.low_res
+            cls, composition, expected, env, env_core, ligs, clashes, self.margin
         )
         if entry is not None and detected_by == "ccd" and not any(f.code == "incomplete_cluster" for f in flags):
             flags.append(Flag("class_mismatch", "warning",
@@ -312,7 +319,8 @@ class _Builder(OrganicMixin):
         self.cofactors.append((int(c.res_id[first_metal]), cof))
 
 
-def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: float | None = None) -> list[Cofactor]:
+def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: float | None = None,
+                   coordinate_error: float | None = None) -> list[Cofactor]:
     """Find, classify and check every redox cofactor of one model.
 
     Parameters
@@ -322,14 +330,16 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     model_number : int, optional
         Number of the model, recorded in each cofactor's id.
     resolution : float or None, optional
-        Resolution of the data (Å); worse than 3.0 Å selects the wide bond windows.
+        Resolution of the data (Å); widens the bond windows (``ligation.bond_margin``).
+    coordinate_error : float or None, optional
+        Deposited overall coordinate error (Å), preferred over the resolution for that.
 
     Returns
     -------
     list of Cofactor
         In file order of the residue naming each cofactor.
     """
-    b = _Builder(model, model_number, resolution)
+    b = _Builder(model, model_number, resolution, coordinate_error)
     heme_fe = b.heme_iron()
     sites = b.find_sites(heme_fe)
     points = [b.cand.xyz[i] for i in heme_fe.values()]

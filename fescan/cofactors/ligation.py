@@ -5,13 +5,24 @@ donor-specific distance (S/Se 3.0 Å, N/O 2.6 Å, Cl 2.8 Å; C 2.2 Å only insid
 cofactor's own residue, such as CO/CN on the [NiFe] iron). Bond lengths are
 compared with the reference windows of ``fescan/data/bond_ranges.csv``
 (cctbx restraint library values, Moriarty & Adams 2019 lineage; see the
-``source`` column), widened for data worse than 3.0 Å resolution.
+``source`` column), widened on both sides by the coordinate error of the file
+(:func:`bond_margin`), so a warning says the bond lies outside what the reference
+and the precision of the model together allow.
+
+Every iron of a standard Fe–S class is checked against what the class needs: its
+bridging sulfides (3 in a cubane or [3Fe-4S], 2 in a [2Fe-2S]) and its terminal
+protein ligands (4 minus the bridges). A missing bridge is reported as a missing
+sulfide, a missing terminal ligand as a missing Cys (or Cys/His for a Rieske
+centre), so a message never contradicts the ligand table printed beside it.
 """
 
 from __future__ import annotations
 
+import math
+import re
 from collections import defaultdict
 from collections.abc import Iterable
+from dataclasses import dataclass
 
 import gemmi
 import numpy as np
@@ -29,6 +40,10 @@ __all__ = [
     "binding_motif",
     "check_metal_site",
     "occupancy_flags",
+    "ligand_counts",
+    "bond_margin",
+    "BondMargin",
+    "BOND_Z",
     "STANDARD_FES_CLASSES",
 ]
 
@@ -41,6 +56,12 @@ CLASH_MAX = 2.5
 STANDARD_FES_CLASSES = frozenset(
     {"[2Fe-2S]", "Rieske [2Fe-2S]", "[3Fe-4S]", "linear [3Fe-4S]", "[4Fe-4S]", "[4Fe-3S]", "Fe(Cys)4"}
 )
+#: Bridging (inorganic) sulfides each Fe binds in an intact cluster of the class.
+EXPECTED_BRIDGES = {
+    "[2Fe-2S]": 2, "Rieske [2Fe-2S]": 2, "[3Fe-4S]": 3, "[4Fe-4S]": 3, "Fe(Cys)4": 0,
+}
+#: z of the one-sided test on a bond length (95 %, one-sided normal quantile).
+BOND_Z = 1.645
 _EXPECTED_COMPOSITION = {
     "[2Fe-2S]": "Fe2S2",
     "Rieske [2Fe-2S]": "Fe2S2",
@@ -148,7 +169,7 @@ def binding_motif(ligands: Iterable[Ligand]) -> str | None:
 
     Examples
     --------
-    >>> from fescan.model import AtomRef, Ligand
+    >>> from fescan.core.records import AtomRef, Ligand
     >>> ligs = [Ligand("FE1", "FE", AtomRef("A", n, "", "CYS", "SG", "S", (0, 0, 0)), 2.3, "Cys S")
     ...         for n in (8, 11, 14, 18)]
     >>> binding_motif(ligs)
@@ -192,19 +213,129 @@ def occupancy_flags(occ: np.ndarray) -> list[Flag]:
     return flags
 
 
-def _window_flag(bond: str, cls: str, label: str, d: float, low_res: bool) -> Flag | None:
+@dataclass(frozen=True, slots=True)
+class BondMargin:
+    """How much the reference bond windows are widened for one file.
+
+    Attributes
+    ----------
+    margin : float
+        Added to both ends of every window (Å): ``BOND_Z`` × σ_d.
+    sigma_bond : float
+        Spread of a bond length from coordinate error, σ_d = √2 · σ₁ (Å).
+    reason : str
+        Where σ₁ came from, in plain words (for the messages).
+    """
+
+    margin: float
+    sigma_bond: float
+    reason: str
+
+
+def bond_margin(resolution: float | None = None, coordinate_error: float | None = None) -> BondMargin:
+    """Widening of the bond windows from the coordinate error of the file.
+
+    A file's overall coordinate error E (Å, a 3-D positional error: Cruickshank's
+    DPI, Refmac's ESU or the Luzzati estimate as deposited) gives the error of one
+    atom along one direction σ₁ = E / √3; without one, the rule of thumb E ≈ d_min / 10
+    is used (from memory, no source). A bond length between two atoms with
+    independent isotropic errors has σ_d = √2 · σ₁ (common practice, no source).
+    The window is widened by ``BOND_Z`` · σ_d on each side, so a bond is flagged only
+    when it lies outside the reference window by more than the one-sided 95 % error
+    of the model. Without resolution or deposited error the windows are not widened.
+
+    Parameters
+    ----------
+    resolution : float or None
+        Resolution of the data (Å).
+    coordinate_error : float or None
+        Deposited overall coordinate error (Å), preferred over the resolution.
+
+    Returns
+    -------
+    BondMargin
+
+    Examples
+    --------
+    >>> round(bond_margin(resolution=3.0).margin, 3)
+    0.403
+    >>> bond_margin().margin
+    0.0
+    """
+    if coordinate_error is not None and math.isfinite(coordinate_error) and coordinate_error > 0:
+        e, why = float(coordinate_error), f"deposited coordinate error {coordinate_error:.2f} Å"
+    elif resolution is not None and math.isfinite(resolution) and resolution > 0:
+        e, why = 0.1 * float(resolution), f"coordinate error ≈ d_min/10 = {0.1 * resolution:.2f} Å at {resolution:.2f} Å"
+    else:
+        return BondMargin(0.0, 0.0, "no resolution or coordinate error given: reference window not widened")
+    sigma_d = math.sqrt(2.0) * e / math.sqrt(3.0)
+    return BondMargin(BOND_Z * sigma_d, sigma_d, why)
+
+
+def ligand_counts(ligands: Iterable[Ligand]) -> list[tuple[str, int]]:
+    """Count ligands, not bonds: one per ligating atom, whatever the metals it binds.
+
+    A Cys SG that bridges the Ni and the Fe of a [NiFe] site is one Cys, not two.
+
+    Parameters
+    ----------
+    ligands : iterable of Ligand
+
+    Returns
+    -------
+    list of (kind, count)
+        Sorted by kind.
+
+    Examples
+    --------
+    >>> from fescan.core.records import AtomRef, Ligand
+    >>> sg = AtomRef("A", 8, "", "CYS", "SG", "S", (0, 0, 0))
+    >>> ligand_counts([Ligand("NI", "NI", sg, 2.3, "Cys S"), Ligand("FE", "FE", sg, 2.4, "Cys S")])
+    [('Cys S', 1)]
+    """
+    seen: dict[str, set[tuple]] = defaultdict(set)
+    for lig in ligands:
+        a = lig.atom
+        seen[lig.kind].add((a.chain, a.seqnum, a.icode, a.name, a.altloc))
+    return sorted((k, len(v)) for k, v in seen.items())
+
+
+def _window_flag(bond: str, cls: str, label: str, d: float, margin: BondMargin) -> Flag | None:
     br = bond_range(bond, cls)
     if br is None:
         return None
-    lo, hi = br.window(low_res)
-    d = round(d, 3)  # judge the value as printed, so a message never contradicts itself
-    if d > hi:
-        return Flag("stretched_bond", "warning",
-                    f"{bond} {label} {d:.3f} Å is stretched (expected {lo:.3f}-{hi:.3f} Å for {cls}; {br.status})")
-    if d < lo:
-        return Flag("compressed_bond", "warning",
-                    f"{bond} {label} {d:.3f} Å is compressed (expected {lo:.3f}-{hi:.3f} Å for {cls}; {br.status})")
-    return None
+    lo, hi = br.low, br.high
+    wlo, whi = lo - margin.margin, hi + margin.margin
+    d = round(d, 2)  # judge the value as the ligand table prints it, so the two never disagree
+    if wlo <= d <= whi:
+        return None
+    word = "stretched" if d > whi else "compressed"
+    widened = (f"; {wlo:.2f}-{whi:.2f} Å allowing for the {margin.reason}" if margin.margin > 0
+               else f"; {margin.reason}")
+    memory = " (reference window from memory)" if br.status == "MEMORY" else ""
+    return Flag(f"{word}_bond", "warning",
+                f"{bond} {label} {d:.2f} Å is {word}: expected {lo:.2f}-{hi:.2f} Å for {cls}{widened}{memory}")
+
+
+def _nearest_hint(env: AtomArrays, m: int, skip: set[int]) -> str:
+    """Name the nearest protein side-chain atom beyond the ligand cut-off (a hint, within 5 Å)."""
+    d = np.linalg.norm(env.xyz - env.xyz[m], axis=1)
+    best = None
+    for j in np.argsort(d):
+        if d[j] > 5.0:
+            break
+        if j in skip or d[j] < 1e-6 or str(env.name[j]) in ("N", "C", "O", "CA") or env.element[j] == "C" \
+                and str(env.name[j]) != "CB":
+            continue
+        info = gemmi.find_tabulated_residue(str(env.resname[j]))
+        if info is None or not info.is_amino_acid():
+            continue
+        best = j
+        break
+    if best is None:
+        return "no protein side chain within 5 Å"
+    return f"nearest side-chain atom {env.resname[best]} {env.chain[best]}/{env.seqnum[best]}{env.icode[best]} " \
+           f"{env.name[best]} at {d[best]:.2f} Å"
 
 
 def check_metal_site(
@@ -215,7 +346,7 @@ def check_metal_site(
     core_rows: list[int],
     ligands: list[tuple[int, Ligand]],
     clashes: list[tuple[int, int, float]],
-    low_resolution: bool = False,
+    margin: BondMargin | None = None,
 ) -> tuple[list[Flag], dict[str, int]]:
     """Run the ligation and geometry checks of one metal site.
 
@@ -231,15 +362,19 @@ def check_metal_site(
         Rows of the core atoms in ``env``.
     ligands, clashes :
         As returned by :func:`find_ligands`.
-    low_resolution : bool
-        Use the wide bond windows (data worse than 3.0 Å).
+    margin : BondMargin, optional
+        Widening of the bond windows for the file's coordinate error (:func:`bond_margin`);
+        none when not given.
 
     Returns
     -------
     flags : list of Flag
+        Severity ``"warning"`` (probably a modelling problem) or ``"note"`` (unusual but
+        known in nature).
     coordination : dict of str to int
         Coordination number of each metal atom (bridges plus ligands).
     """
+    margin = margin or BondMargin(0.0, 0.0, "reference window not widened")
     flags: list[Flag] = []
     el = env.element
     metals = [r for r in core_rows if el[r] not in ("S", "SE", "C", "N", "O", "CA")]
@@ -249,9 +384,8 @@ def check_metal_site(
         lig_by_metal[m].append(lig)
     coordination: dict[str, int] = {}
     expected = expected_composition or _EXPECTED_COMPOSITION.get(cls)
-    if expected and composition != expected:
-        flags.append(Flag("incomplete_cluster", "warning",
-                          f"incomplete cluster: core {composition} found, {expected} expected for {cls}"))
+    n_bridges_expected = EXPECTED_BRIDGES.get(cls)
+    short_of_bridge: list[str] = []
     for m in metals:
         mname = str(env.name[m])
         n_bridge = 0
@@ -262,7 +396,7 @@ def check_metal_site(
                 n_bridge += 1
                 bonded.append(f"{env.name[s]} {d:.2f} Å")
                 if el[m] == "FE":
-                    f = _window_flag("Fe-S(inorganic)", cls, f"{mname}-{env.name[s]}", d, low_resolution)
+                    f = _window_flag("Fe-S(inorganic)", cls, f"{mname}-{env.name[s]}", d, margin)
                     if f:
                         flags.append(f)
         ligs = lig_by_metal.get(m, [])
@@ -270,26 +404,37 @@ def check_metal_site(
         coordination[mname] = cn
         if cls not in STANDARD_FES_CLASSES or el[m] != "FE":
             continue
-        if cn < 4:
+        if n_bridges_expected is not None and n_bridge < n_bridges_expected:
+            short_of_bridge.append(f"{mname} ({n_bridge} of {n_bridges_expected})")
+        n_terminal_expected = 4 - (n_bridges_expected if n_bridges_expected is not None else n_bridge)
+        if n_bridges_expected is not None and len(ligs) < n_terminal_expected:
+            want = "a Cys or His" if cls == "Rieske [2Fe-2S]" else "a Cys"
+            missing = n_terminal_expected - len(ligs)
+            have = f"; bound: {', '.join(f'{lig.kind} {lig.atom.residue}' for lig in ligs)}" if ligs else ""
             flags.append(Flag("missing_ligand", "warning",
-                              f"{mname} is {cn}-coordinate: no terminal ligand within "
-                              f"{LIGAND_MAX['S']:.1f} Å (missing ligand)"))
-        elif cn > 4:
+                              f"{mname} lacks {missing if missing > 1 else 'its'} terminal protein "
+                              f"ligand{'s' * (missing > 1)} ({want} expected within {LIGAND_MAX['S']:.1f} Å{have}; "
+                              f"{_nearest_hint(env, m, set(core_rows))})"))
+        elif n_bridges_expected is None and cn < 4:
+            flags.append(Flag("missing_ligand", "warning",
+                              f"{mname} is {cn}-coordinate ({n_bridge} bridging S, {len(ligs)} terminal "
+                              f"ligand{'s' * (len(ligs) != 1)}); 4 expected"))
+        if cn > 4:
             partners = bonded + [f"{lig.kind} {lig.atom.residue} {lig.distance:.2f} Å" for lig in ligs]
             flags.append(Flag("extra_ligand", "warning",
                               f"{mname} is {cn}-coordinate ({', '.join(partners)}); 4 expected"))
         for lig in ligs:
             label = f"{mname}-{lig.atom.resname} {lig.atom.residue} {lig.atom.name}"
             if lig.kind == "Cys S":
-                f = _window_flag("Fe-S(Cys)", cls, label, lig.distance, low_resolution)
+                f = _window_flag("Fe-S(Cys)", cls, label, lig.distance, margin)
             elif lig.kind == "His N":
-                f = _window_flag("Fe-N(His)", cls, label, lig.distance, low_resolution)
+                f = _window_flag("Fe-N(His)", cls, label, lig.distance, margin)
                 if cls != "Rieske [2Fe-2S]":
                     flags.append(Flag("non_cys_ligand", "note",
                                       f"{mname} is bound by His {lig.atom.residue} {lig.atom.name} "
                                       f"instead of Cys (known in some clusters)"))
             elif lig.kind == "Met S":
-                f = _window_flag("Fe-S(Met)", cls, label, lig.distance, low_resolution)
+                f = _window_flag("Fe-S(Met)", cls, label, lig.distance, margin)
             else:
                 f = None
                 known = lig.kind.split()[0] in ("Asp", "Glu", "Ser", "water", "Cys")
@@ -299,12 +444,20 @@ def check_metal_site(
                                   f"{lig.atom.residue} ({lig.distance:.2f} Å)"))
             if f:
                 flags.append(f)
+    which = _missing_core_atoms(env, bridges, composition, expected)
+    bound = f"; bridging S bound by {', '.join(short_of_bridge)}" if short_of_bridge else ""
+    if expected and composition != expected:
+        flags.insert(0, Flag("incomplete_cluster", "warning",
+                             f"incomplete cluster: core {composition} found, {expected} expected for {cls}"
+                             f"{which}{bound}"))
+    elif short_of_bridge:
+        flags.insert(0, Flag("missing_sulfide", "warning", f"missing bridging sulfide{bound}"))
     fe_rows = [m for m in metals if el[m] == "FE"]
     for i, a in enumerate(fe_rows):
         for b in fe_rows[i + 1:]:
             d = float(np.linalg.norm(env.xyz[a] - env.xyz[b]))
             if d < 3.4:
-                f = _window_flag("Fe...Fe", cls, f"{env.name[a]}-{env.name[b]}", d, low_resolution)
+                f = _window_flag("Fe...Fe", cls, f"{env.name[a]}-{env.name[b]}", d, margin)
                 if f:
                     flags.append(f)
     for c, j, d in clashes:
@@ -313,3 +466,18 @@ def check_metal_site(
                           f"{env.name[j]} is {d:.2f} Å from {env.name[c]} and not a ligand"))
     return flags, coordination
 
+
+def _missing_core_atoms(env: AtomArrays, bridges: list[int], composition: str, expected: str | None) -> str:
+    """``"; sulfide S3 absent"`` when the CCD names (S1..Sn) show which bridge is missing, else ''."""
+    if not expected:
+        return ""
+
+    want = {e.upper(): int(n or 1) for e, n in re.findall(r"([A-Z][a-z]?)(\d*)", expected)}
+    n_s = want.get("S", 0)
+    names = {str(env.name[r]) for r in bridges}
+    if n_s <= len(bridges) or not names or not all(re.fullmatch(r"S\d", n) for n in names):
+        return ""
+    absent = [f"S{k}" for k in range(1, n_s + 1) if f"S{k}" not in names]
+    if len(absent) != n_s - len(bridges):
+        return f": {n_s - len(bridges)} inorganic sulfide(s) missing"
+    return f": sulfide {', '.join(absent)} is missing"

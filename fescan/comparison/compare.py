@@ -9,11 +9,15 @@ matches their cofactors:
    atoms of aligned residues are superposed with gemmi's QCP fit,
    ``superpose_positions(reference, model)`` (its transform moves the *second* list
    onto the first), dropping pairs farther apart than max(2 Å, 2 × RMSD) for up to
-   three cycles. Without three aligned Cα pairs the cofactor centres are fitted
+   three cycles. Without three aligned Cα pairs, or when that fit is poor (RMSD over
+   3 Å) and the cofactor centres fit better, the cofactor centres are fitted
    instead (Kabsch, numpy) on class-matched partners, iterated to a fixed point.
+   The residue mapping used (chain pairs, aligned and identical residues, the
+   numbering offset) is kept in :attr:`Superposition.chains` and reported.
 2. **Matching.** A cofactor is matched by chain and residue when its chain
    corresponds (same chain name, aligned residues with the same numbers) and the
-   category agrees; the rest by position: a Hungarian assignment (scipy
+   category agrees, or through the mapping (model chain → reference chain, number
+   + offset: ``X/1501`` → ``A/501``); the rest by position: a Hungarian assignment (scipy
    ``linear_sum_assignment``) on centroid distance after superposition, same
    category, within ``match_cutoff`` (4 Å).
 3. **Changes.** Displacement of every matched cofactor (Å, after superposition;
@@ -22,10 +26,12 @@ matches their cofactors:
    through the sequence alignment), new warning flags; along the reference wire,
    the model's R, ΔG, log10 k and hop time of every hop. A hop whose partner has
    no counterpart is *broken*.
-4. **Verdict** (:mod:`fescan.compare_report` words it): a model hop is implausible
-   when it is broken, longer than the gap limit, slower than the rate threshold,
-   more than ``rate_drop_limit`` decades slower than in the reference, or touches a
-   mis-ligated cluster.
+4. **Verdict** (:mod:`fescan.comparison.verdict` words it): a *changed* or broken
+   model hop is implausible when it is broken, longer than the gap limit, slower
+   than the rate threshold, more than ``rate_drop_limit`` decades slower than in the
+   reference, or touches a mis-ligated cluster. A hop touching a re-ligated cluster
+   counts as changed; an unchanged hop is never implausible (what the reference
+   already has is noted, not blamed on the model).
 
 The model's wire is traced between the counterparts of the reference's entry and
 exit, so the two wires read side by side. Rates are Moser–Dutton estimates.
@@ -62,6 +68,8 @@ log = logging.getLogger(__name__)
 _MISLIGATION = frozenset({"missing_ligand", "non_cys_ligand", "extra_ligand", "class_mismatch", "incomplete_cluster"})
 _CIGAR = re.compile(r"(\d+)([MID])")
 _MIN_IDENTITY = 0.3
+#: A protein superposition worse than this (Å RMSD) is checked against the cofactor-centre fit.
+_POOR_RMSD = 3.0
 _BIG = 1e9
 
 
@@ -115,6 +123,14 @@ class Superposition:
     n_pairs : int
     chain_map : dict of str to str
         Model chain → reference chain (protein chains paired by sequence).
+    chains : tuple of dict
+        The residue mapping used, one record per chain pair: ``model_chain``,
+        ``reference_chain``, ``aligned`` (residue pairs), ``identical``,
+        ``identity`` (fraction of aligned pairs), ``offset`` (reference number −
+        model number, the most common), ``model_residues`` and
+        ``reference_residues`` (first-last numbers).
+    note : str
+        Why this superposition was chosen when another was rejected.
     """
 
     method: str
@@ -123,6 +139,8 @@ class Superposition:
     rmsd: float | None
     n_pairs: int
     chain_map: dict[str, str] = field(default_factory=dict)
+    chains: tuple[dict[str, Any], ...] = ()
+    note: str = ""
 
     def apply(self, xyz: Any) -> np.ndarray:
         """Model coordinates (n, 3) → reference frame (n, 3)."""
@@ -132,7 +150,8 @@ class Superposition:
         """JSON-ready record."""
         return {"method": self.method, "rotation": [list(r) for r in self.rotation],
                 "translation": list(self.translation), "rmsd": self.rmsd, "n_pairs": self.n_pairs,
-                "chain_map": dict(self.chain_map)}
+                "chain_map": dict(self.chain_map), "residue_mapping": [dict(c) for c in self.chains],
+                "note": self.note}
 
 
 def _superposition(method, rot, t, rmsd, n, cmap) -> Superposition:
@@ -220,6 +239,7 @@ def _protein_fit(ref_model, mod_model):
     pairs = _pair_chains(_protein_chains(ref_model), _protein_chains(mod_model))
     resmap, corresponding = {}, set()
     pr, pm = [], []
+    chains = []
     for r, m, idx in pairs:
         same_num = 0
         for a, b in idx:
@@ -229,9 +249,17 @@ def _protein_fit(ref_model, mod_model):
             pm.append(m.ca[b])
         if r.name == m.name and idx and same_num >= 0.9 * len(idx):
             corresponding.add(r.name)
+        if idx:
+            offsets = Counter(r.keys[a][0] - m.keys[b][0] for a, b in idx)
+            identical = sum(1 for a, b in idx if r.names[a] == m.names[b])
+            chains.append({"model_chain": m.name, "reference_chain": r.name, "aligned": len(idx),
+                           "identical": identical, "identity": round(identical / len(idx), 3),
+                           "offset": offsets.most_common(1)[0][0],
+                           "model_residues": f"{m.keys[0][0]}-{m.keys[-1][0]}",
+                           "reference_residues": f"{r.keys[0][0]}-{r.keys[-1][0]}"})
     cmap = {m.name: r.name for r, m, _ in pairs}
     if len(pr) < 3:
-        return None, resmap, corresponding, cmap
+        return None, resmap, corresponding, cmap, tuple(chains)
     pr, pm = np.asarray(pr), np.asarray(pm)
     keep = np.ones(len(pr), bool)
     for _ in range(3):
@@ -243,8 +271,8 @@ def _protein_fit(ref_model, mod_model):
         if new.sum() < 3 or (new == keep).all():
             break
         keep = new
-    fit = _superposition("protein chains", rot, t, sup.rmsd, sup.count, cmap)
-    return fit, resmap, corresponding, cmap
+    fit = replace(_superposition("protein chains", rot, t, sup.rmsd, sup.count, cmap), chains=tuple(chains))
+    return fit, resmap, corresponding, cmap, tuple(chains)
 
 
 # ----------------------------------------------------------------------------- cofactor matching
@@ -278,6 +306,26 @@ def _signature_pairs(ref, mod, rc, mc):
             if a.category == b.category:
                 cost[i, j] = float(np.mean(np.abs(sr[i][:n] - sm[j][:n]))) if n else 0.0
     return [(int(i), int(j)) for i, j in zip(*linear_sum_assignment(cost)) if cost[i, j] < _BIG]
+
+
+def _mapped_seed(ref: Sequence[Cofactor], mod: Sequence[Cofactor], chains: Sequence[dict[str, Any]],
+                 used_r: set[int], used_m: set[int]) -> list[tuple[int, int]]:
+    """Cofactors matched through the residue mapping: model chain → reference chain, number + offset.
+
+    A cofactor numbered in its protein chain's series (``X/1501`` beside residues
+    1001-1125 of chain X, aligned to A 1-125) maps to ``A/501`` of the reference.
+    """
+    rule = {c["model_chain"]: (c["reference_chain"], int(c["offset"])) for c in chains}
+    by_key = {(c.chain, c.seqnum, c.icode, c.category): i for i, c in enumerate(ref) if i not in used_r}
+    out = []
+    for j, c in enumerate(mod):
+        if j in used_m or c.chain not in rule:
+            continue
+        chain, off = rule[c.chain]
+        i = by_key.get((chain, c.seqnum + off, c.icode, c.category))
+        if i is not None and i not in {a for a, _ in out}:
+            out.append((i, j))
+    return out
 
 
 def _centre_fit(ref, mod, seed_pairs, cutoff):
@@ -598,14 +646,23 @@ def compare(
     mod = scan(model_path, **mod_opts)
     lr = read_structure(reference_path, model=ref.options.model, altloc=ref.options.altloc)
     lm = read_structure(model_path, model=mod.options.model, altloc=mod.options.altloc)
-    fit, resmap, corresponding, cmap = _protein_fit(lr.model, lm.model)
+    fit, resmap, corresponding, cmap, chains = _protein_fit(lr.model, lm.model)
     rc, mc = ref.cofactors, mod.cofactors
 
     keeps = _ChainRule(corresponding, set(cmap) | set(cmap.values()))
     keys = {(c.key, c.category): j for j, c in enumerate(mc)}
     seed = [(i, keys[(c.key, c.category)]) for i, c in enumerate(rc) if c.chain in keeps and (c.key, c.category) in keys]
+    mapped_seed = _mapped_seed(rc, mc, chains, {i for i, _ in seed}, {j for _, j in seed})
+    seed += mapped_seed
+    if fit is not None and fit.rmsd is not None and fit.rmsd > _POOR_RMSD:
+        alt = _centre_fit(rc, mc, seed, match_cutoff)
+        if alt is not None and alt.n_pairs >= 3 and alt.rmsd is not None and alt.rmsd < fit.rmsd:
+            fit = replace(alt, chain_map=fit.chain_map, chains=fit.chains,
+                          note=f"the protein fit ({fit.n_pairs} Cα pairs, RMSD {fit.rmsd:.1f} Å) was rejected: "
+                               f"the cofactor centres fit better (RMSD {alt.rmsd:.2f} Å)")
     if fit is None:
         fit = _centre_fit(rc, mc, seed, match_cutoff) or _superposition("none", np.eye(3), np.zeros(3), None, 0, {})
+        fit = replace(fit, chains=chains, chain_map=cmap)
     pairs = dict(seed)
     rest_r = [i for i in range(len(rc)) if i not in pairs]
     rest_m = [j for j in range(len(mc)) if j not in pairs.values()]
@@ -618,7 +675,8 @@ def compare(
     for i in sorted(pairs):
         j = pairs[i]
         disp = float(np.linalg.norm(moved_c[j] - rcen[i]))
-        how = "chain and residue" if (i, j) in seed else "position"
+        how = ("chain and residue, mapped" if (i, j) in mapped_seed else
+               "chain and residue" if (i, j) in seed else "position")
         matches.append(_describe(rc[i], mc[j], how, disp, resmap, keeps))
     r2m = {rc[i].uid: mc[j].uid for i, j in pairs.items()}
     missing = [c.uid for i, c in enumerate(rc) if i not in pairs]
@@ -626,7 +684,8 @@ def compare(
     mod = _retrace(mod, ref, r2m)
     settings = {"match_cutoff": match_cutoff, "moved_limit": moved_limit, "rate_drop_limit": rate_drop_limit,
                 "distance_tolerance": distance_tolerance}
-    hops = _hop_changes(ref, mod, r2m, distance_tolerance)
+    relig = {m.model for m in matches if m.misligated}
+    hops = _hop_changes(ref, mod, r2m, distance_tolerance, relig)
     if measure_packing:
         hops = _with_packing(hops, ref, mod, lr, lm)
     log.info("compared %s with %s: %d matches, %d missing, %d extra", model_path, reference_path,
@@ -650,7 +709,9 @@ def _retrace(mod: ScanResult, ref: ScanResult, r2m: dict[str, str]) -> ScanResul
     return replace(mod, options=opts, wire=wire)
 
 
-def _hop_changes(ref: ScanResult, mod: ScanResult, r2m: dict[str, str], tol: float) -> list[HopChange]:
+def _hop_changes(ref: ScanResult, mod: ScanResult, r2m: dict[str, str], tol: float,
+                 misligated: set[str] = frozenset()) -> list[HopChange]:
+    """Each reference hop and its model counterpart; a hop touching a re-ligated cofactor is "changed"."""
     out = []
     for k, h in enumerate(ref.wire.hops, start=1):
         d, a = r2m.get(h.donor), r2m.get(h.acceptor)
@@ -658,7 +719,8 @@ def _hop_changes(ref: ScanResult, mod: ScanResult, r2m: dict[str, str], tol: flo
             out.append(HopChange(k, h.donor, h.acceptor, d, a, "broken", h, None))
             continue
         m = _model_hop(mod, d, a)
-        same = abs(m.edge - h.edge) <= tol and abs(m.dg - h.dg) <= 1e-6 and abs(m.reorg - h.reorg) <= 1e-9
+        same = (abs(m.edge - h.edge) <= tol and abs(m.dg - h.dg) <= 1e-6 and abs(m.reorg - h.reorg) <= 1e-9
+                and d not in misligated and a not in misligated)
         out.append(HopChange(k, h.donor, h.acceptor, d, a, "unchanged" if same else "changed", h, m))
     return out
 

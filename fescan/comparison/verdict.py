@@ -13,7 +13,7 @@ from fescan.analysis.scan import CAUTION
 if TYPE_CHECKING:
     from fescan.comparison.compare import CompareResult
 
-__all__ = ["hop_problems", "verdict", "cofactor_label", "ligand_words", "counterpart"]
+__all__ = ["hop_problems", "verdict", "cofactor_label", "ligand_words", "counterpart", "inherited_notes"]
 
 
 def cofactor_label(res: Any, uid: str | None) -> str:
@@ -54,6 +54,8 @@ def hop_problems(result: CompareResult) -> list[dict[str, Any]]:
     out = []
     for h in result.hops:
         r, m = h.reference, h.model
+        if h.status == "unchanged":  # what the reference already has is no fault of the model
+            continue
         reasons: list[tuple[str, str]] = []
         if m is None:
             for uid, got in ((h.reference_donor, h.model_donor), (h.reference_acceptor, h.model_acceptor)):
@@ -104,7 +106,7 @@ def verdict(result: CompareResult) -> dict[str, Any]:
     else:
         summary = f"{len(probs)} of {n} hop{'s' * (n != 1)} of the model {'are' if len(probs) > 1 else 'is'} " \
                   "implausible (see the problems listed)."
-    notes = []
+    notes = inherited_notes(result)
     if result.missing:
         notes.append("missing in the model: " + ", ".join(cofactor_label(ref, u) for u in result.missing))
     if result.extra:
@@ -118,12 +120,30 @@ def verdict(result: CompareResult) -> dict[str, Any]:
     if mod.wire.path and list(mod.wire.path) != [counterpart(result, u) for u in ref.wire.path]:
         notes.append("the model's fastest path differs: " + " > ".join(cofactor_label(mod, u) for u in mod.wire.path))
     fit = result.superposition
+    if fit.note:
+        notes.insert(0, fit.note)
     if fit.n_pairs == 0 or (fit.rmsd is not None and fit.rmsd > 3.0):
         notes.insert(0, f"the superposition is poor ({fit.method}, {fit.n_pairs} pairs"
                         + (f", RMSD {fit.rmsd:.1f} Å" if fit.rmsd is not None else "")
                         + "): the two structures may not be the same protein; matches by position are unreliable")
     notes.append(CAUTION)
     return {"summary": summary, "problems": probs, "notes": notes}
+
+
+def inherited_notes(result: CompareResult) -> list[str]:
+    """Unchanged hops that are over the gap limit or slow in the reference too (not the model's fault)."""
+    o = result.model.options
+    out = []
+    for h in result.hops:
+        if h.status != "unchanged" or h.model is None:
+            continue
+        what = [x for x, on in ((f"over the {o.gap_limit:g} Å gap limit", h.model.gap),
+                                (f"slower than {o.rate_threshold:g}/s", h.model.slow)) if on]
+        if what:
+            hop = f"{cofactor_label(result.reference, h.reference_donor)} > " \
+                  f"{cofactor_label(result.reference, h.reference_acceptor)}"
+            out.append(f"hop {h.step} ({hop}) is unchanged and already {' and '.join(what)} in the reference")
+    return out
 
 
 def counterpart(result: CompareResult, ref_uid: str) -> str | None:

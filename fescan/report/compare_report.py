@@ -1,19 +1,21 @@
 """Words, text, HTML and Markdown of a model-versus-reference comparison.
 
-:func:`hop_problems` and :func:`verdict` put the findings of
-:func:`fescan.compare.compare` into plain words; :func:`render_compare_text` is the
-terminal view; :func:`write_compare_report` writes ``compare.html`` (self-contained,
-the diagram inline), ``compare.md`` and ``compare_wires.svg``/``.png``: both wires
-side by side in one view plane (the model superposed on the reference). Every
-string that comes from an input file is escaped. Rates and times are model
-estimates (Moser–Dutton), and every output says so.
+:func:`hop_problems` and :func:`verdict` (from :mod:`fescan.comparison.verdict`)
+put the findings of :func:`fescan.comparison.compare.compare` into plain words;
+:func:`render_compare_text` is the terminal view; :func:`compare_document`
+describes the comparison on the shared document model
+(:mod:`fescan.report.content`), and :func:`write_compare_report` renders it with
+the same HTML and Markdown renderers as the structure report (one escaping per
+output kind: :func:`fescan.report.html.esc`, :func:`fescan.report.markdown.md_escape`)
+into ``compare.html`` (self-contained, the diagram inline), ``compare.md`` and
+``compare_wires.svg``/``.png``: both wires side by side in one view plane (the
+model superposed on the reference). Rates and times are model estimates
+(Moser–Dutton), and every output says so.
 """
 
 from __future__ import annotations
 
-import html
 import math
-import re
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -23,33 +25,36 @@ from fescan.analysis.scan import CAUTION
 from fescan.comparison.verdict import cofactor_label as _label
 from fescan.comparison.verdict import hop_problems, verdict
 from fescan.comparison.verdict import ligand_words as _ligand_words
+from fescan.core.version import __version__
+from fescan.report.content import (
+    BulletList,
+    Document,
+    Facts,
+    Figure,
+    Heading,
+    Notice,
+    Paragraph,
+    Run,
+    Table,
+)
+from fescan.report.html import render_html
+from fescan.report.labels import duration
+from fescan.report.markdown import md_escape, render_markdown
 from fescan.report.text import format_time, table
 
 if TYPE_CHECKING:  # pragma: no cover
     from fescan.comparison.compare import CompareResult
 
-__all__ = ["hop_problems", "verdict", "render_compare_text", "write_compare_report", "md_escape"]
-
-_MD_SPECIAL = re.compile(r"([\\`*_\[\]|#~])")  # inline Markdown; < > & are HTML-escaped first
-
-
-def md_escape(text: object) -> str:
-    """Escape a string for Markdown (HTML-escaped first, then Markdown punctuation).
-
-    Examples
-    --------
-    >>> md_escape("A|B <x>")
-    'A\\\\|B &lt;x&gt;'
-    """
-    return _MD_SPECIAL.sub(r"\\\1", html.escape(str(text), quote=False))
+__all__ = ["hop_problems", "verdict", "render_compare_text", "compare_document", "write_compare_report",
+           "md_escape"]
 
 
 # ----------------------------------------------------------------------------- rows shared by all renderers
 
 
-def _fmt(x: float | None, spec: str) -> str:
+def _fmt(x: float | None, spec: str, dash: str = "-") -> str:
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
-        return "-"
+        return dash
     return format(float(format(x, spec)) + 0.0, spec)  # no "-0.00"
 
 
@@ -64,22 +69,24 @@ def _match_rows(result: CompareResult) -> list[list[str]]:
     return rows
 
 
-def _hop_rows(result: CompareResult) -> list[list[str]]:
+def _hop_rows(result: CompareResult, time=format_time, dash: str = "-") -> list[list[str]]:
+    """Rows of the hop table; ``time`` and ``dash`` are the output kind's time formatter and blank."""
     rows = []
     for h in result.hops:
         r, m = h.reference, h.model
 
         def pair(a, b, spec):
-            return f"{_fmt(a, spec)} → {_fmt(b, spec)}"
+            return f"{_fmt(a, spec, dash)} → {_fmt(b, spec, dash)}"
 
         rows.append([str(h.step), f"{_label(result.reference, h.reference_donor)} > "
                      f"{_label(result.reference, h.reference_acceptor)}", h.status,
-                     pair(r.edge, m.edge if m else None, ".2f"), _fmt(h.delta("edge"), "+.2f"),
+                     pair(r.edge, m.edge if m else None, ".2f"), _fmt(h.delta("edge"), "+.2f", dash),
                      pair(r.dg, m.dg if m else None, "+.3f"),
                      pair(r.log10_k_forward, m.log10_k_forward if m else None, ".2f"),
-                     _fmt(h.delta("log10_k_forward"), "+.2f"),
-                     f"{format_time(r.hop_time)} → {format_time(m.hop_time) if m else '-'}"]
-                    + ([f"{_fmt(h.rho_reference, '.2f')} → {_fmt(h.rho_model, '.2f')}"] if _has_rho(result) else []))
+                     _fmt(h.delta("log10_k_forward"), "+.2f", dash),
+                     f"{time(r.hop_time)} → {time(m.hop_time) if m else dash}"]
+                    + ([f"{_fmt(h.rho_reference, '.2f', dash)} → {_fmt(h.rho_model, '.2f', dash)}"]
+                       if _has_rho(result) else []))
     return rows
 
 
@@ -107,12 +114,11 @@ def _superposition_text(result: CompareResult) -> str:
     return f"superposition: {s.method} ({s.n_pairs} pairs{rms})" + (f"; chains model→reference {chains}" if chains else "")
 
 
-def _interval_table(result: CompareResult) -> tuple[str, list[str], list[list[str]], str] | None:
+def _interval_table(result: CompareResult, format_time=format_time) -> tuple[str, list[str], list[list[str]], str] | None:
     """Title, headers, rows and summary line of the model's wire with 95% intervals."""
     u = result.uncertainty
-    if u is None or not u.hops:
+    if u is None or not getattr(u, "hops", None):
         return None
-    from fescan.report.text import format_time
 
     rows = []
     for h in u.hops:
@@ -156,27 +162,6 @@ def render_compare_text(result: CompareResult) -> str:
 
 
 # ----------------------------------------------------------------------------- files
-
-
-def _html_table(headers: list[str], rows: list[list[str]]) -> str:
-    head = "".join(f"<th>{html.escape(h)}</th>" for h in headers)
-    body = "".join("<tr>" + "".join(f"<td>{html.escape(str(c))}</td>" for c in r) + "</tr>" for r in rows)
-    return f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
-
-
-def _html_intervals(result: CompareResult) -> str:
-    t = _interval_table(result)
-    if t is None:
-        return ""
-    title, headers, rows, summary = t
-    return (f"<h2>{html.escape(title)}</h2>" + _html_table(headers, rows)
-            + (f"<p>{html.escape(summary)}</p>" if summary else ""))
-
-
-def _md_table(headers: list[str], rows: list[list[str]]) -> str:
-    out = ["| " + " | ".join(md_escape(h) for h in headers) + " |", "|" + "---|" * len(headers)]
-    out += ["| " + " | ".join(md_escape(c) for c in r) + " |" for r in rows]
-    return "\n".join(out)
 
 
 def _diagram(result: CompareResult, base: Path) -> list[Path]:
@@ -229,9 +214,71 @@ def _simple_panels(axes: list[Any], results: tuple[Any, Any], titles: tuple[str,
         ax.set_axis_off()
 
 
-_CSS = ("body{font-family:sans-serif;max-width:72em;margin:1em auto;color:#222}"
-        "table{border-collapse:collapse;margin:.5em 0}td,th{border:1px solid #bbb;padding:2px 6px;font-size:90%}"
-        "th{background:#eee}.caution{color:#633;font-size:90%}")
+def _mapping_rows(result: CompareResult) -> list[list[str]]:
+    return [[c["model_chain"], c["reference_chain"], c["model_residues"], c["reference_residues"], str(c["aligned"]),
+             f"{c['identity']:.0%}", f"{c['offset']:+d}"] for c in result.superposition.chains]
+
+
+_MAPPING_HEADERS = ["model chain", "reference chain", "model residues", "reference residues", "aligned",
+                    "identical", "numbering offset"]
+
+
+def compare_document(result: CompareResult, svg_text: str = "", png_name: str = "compare_wires.png") -> Document:
+    """The comparison as a :class:`~fescan.report.content.Document` (verdict first, details after).
+
+    Parameters
+    ----------
+    result : CompareResult
+    svg_text : str, optional
+        The side-by-side diagram (inlined into HTML).
+    png_name : str, optional
+        File name of the PNG beside the Markdown page.
+
+    Returns
+    -------
+    Document
+    """
+    v = verdict(result)
+    mid, rid = result.model.info.entry_id, result.reference.info.entry_id
+    doc = Document(f"Model {mid} against reference {rid}")
+    s = result.superposition
+    doc.add(Heading(2, "Verdict", "verdict"), Paragraph(Run(v["summary"], strong=True)))
+    if v["problems"]:
+        doc.add(BulletList([Run(p["sentence"], strong=True) for p in v["problems"]]))
+    if v["notes"]:
+        doc.add(BulletList(list(v["notes"])))
+    doc.add(Facts([
+        ("Model", Run(result.model.path, code=True)), ("Reference", Run(result.reference.path, code=True)),
+        ("Superposition", f"{s.method}, {s.n_pairs} pairs" + (f", RMSD {s.rmsd:.2f} Å" if s.rmsd is not None else "")),
+    ] + ([("Superposition note", s.note)] if s.note else [])))
+    doc.add(Heading(2, "Residue mapping", "mapping"))
+    if s.chains:
+        doc.add(Table(_MAPPING_HEADERS, _mapping_rows(result), frozenset({4, 5, 6}),
+                      "Protein chains paired by sequence alignment (gemmi align_string_sequences); reference "
+                      "number = model number + offset. Cofactors and ligands are renamed through this mapping."))
+    else:
+        doc.add(Paragraph("No protein chains could be aligned: cofactors were matched by position only."))
+    if svg_text:
+        doc.add(Heading(2, "Both wires", "wires"),
+                Figure(svg_text, png_name, "Both wires side by side",
+                       "Reference (left) and model superposed on it (right), drawn in one view plane."))
+    doc.add(Heading(2, "Cofactors", "cofactors"), Table(_MATCH_HEADERS, _match_rows(result), frozenset({3})))
+    for name, words in _details(result):
+        doc.add(Paragraph(Run(name, strong=True)), BulletList(list(words)))
+    if result.hops:
+        rows = _hop_rows(result, time=duration, dash="\u2013")
+        doc.add(Heading(2, "Reference wire, hop by hop", "hops"),
+                Table(_hop_headers(result), rows, frozenset({0, 4, 7}),
+                      "Model estimates; a hop is unchanged when R (within the tolerance), ΔG, λ and the ligation "
+                      "of both partners are the same"))
+    t = _interval_table(result, duration)
+    if t is not None:
+        title, headers, rows, summary = t
+        doc.add(Heading(2, "Model wire with intervals", "intervals"), Table(headers, rows, caption=title))
+        if summary:
+            doc.add(Paragraph(summary))
+    doc.add(Notice("Estimates, not measurements.", CAUTION))
+    return doc
 
 
 def write_compare_report(result: CompareResult, out_dir: str | Path) -> dict[str, Path]:
@@ -251,44 +298,9 @@ def write_compare_report(result: CompareResult, out_dir: str | Path) -> dict[str
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     svg, png = _diagram(result, out / "compare_wires")
-    v = verdict(result)
-    e = html.escape
-    svg_text = svg.read_text(encoding="utf-8")
-    svg_text = svg_text[svg_text.find("<svg"):]
-    parts = [
-        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">",
-        f"<title>fescan comparison: {e(result.model.info.entry_id)} vs {e(result.reference.info.entry_id)}</title>",
-        f"<style>{_CSS}</style></head><body>",
-        f"<h1>Model {e(result.model.info.entry_id)} against reference {e(result.reference.info.entry_id)}</h1>",
-        f"<p>model: {e(result.model.path)}<br>reference: {e(result.reference.path)}<br>"
-        f"{e(_superposition_text(result))}</p>",
-        f"<h2>Verdict</h2><p>{e(v['summary'])}</p><ul>"
-        + "".join(f"<li><b>{e(p['sentence'])}</b></li>" for p in v["problems"])
-        + "".join(f"<li>{e(n)}</li>" for n in v["notes"]) + "</ul>",
-        "<h2>Both wires</h2>", f"<div>{svg_text}</div>",
-        "<h2>Cofactors</h2>", _html_table(_MATCH_HEADERS, _match_rows(result)),
-        "".join(f"<p>{e(name)}</p><ul>" + "".join(f"<li>{e(w)}</li>" for w in words) + "</ul>"
-                for name, words in _details(result)),
-        "<h2>Reference wire, hop by hop</h2>", _html_table(_hop_headers(result), _hop_rows(result)),
-        _html_intervals(result),
-        f"<p class=\"caution\">{e(CAUTION)}</p></body></html>",
-    ]
-    h = out / "compare.html"
-    h.write_text("\n".join(parts) + "\n", encoding="utf-8")
-    md = [f"# Model {md_escape(result.model.info.entry_id)} against reference "
-          f"{md_escape(result.reference.info.entry_id)}", "",
-          f"- model: {md_escape(result.model.path)}", f"- reference: {md_escape(result.reference.path)}",
-          f"- {md_escape(_superposition_text(result))}", "", "## Verdict", "", md_escape(v["summary"]), ""]
-    md += [f"- **{md_escape(p['sentence'])}**" for p in v["problems"]] + [f"- {md_escape(n)}" for n in v["notes"]]
-    md += ["", "## Both wires", "", f"![both wires]({svg.name})", "", "## Cofactors", "",
-           _md_table(_MATCH_HEADERS, _match_rows(result)), ""]
-    for name, words in _details(result):
-        md += [md_escape(name), ""] + [f"- {md_escape(w)}" for w in words] + [""]
-    md += ["## Reference wire, hop by hop", "", _md_table(_hop_headers(result), _hop_rows(result)), ""]
-    t = _interval_table(result)
-    if t is not None:
-        md += ["## " + md_escape(t[0]), "", _md_table(t[1], t[2]), ""] + ([md_escape(t[3]), ""] if t[3] else [])
-    md += [f"*{md_escape(CAUTION)}*", ""]
-    m = out / "compare.md"
-    m.write_text("\n".join(md), encoding="utf-8")
+    doc = compare_document(result, svg.read_text(encoding="utf-8"), png.name)
+    footer = [f"Written by fescan {__version__}. ", CAUTION]
+    h, m = out / "compare.html", out / "compare.md"
+    h.write_text(render_html(doc, footer=footer), encoding="utf-8")
+    m.write_text(render_markdown(doc, footer=footer), encoding="utf-8")
     return {"html": h, "markdown": m, "svg": svg, "png": png}

@@ -36,7 +36,7 @@ from matplotlib.transforms import Affine2D
 from fescan.report import style
 from fescan.report.placement import Box, Placement, Segment, leader, place_labels
 from fescan.report.projection import Projection
-from fescan.report.scene import Scene, build_scene, default_projection
+from fescan.report.scene import SCALE_TOLERANCE, Scene, build_scene, panel_groups
 
 if TYPE_CHECKING:  # pragma: no cover
     from matplotlib.axes import Axes
@@ -45,7 +45,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["RC", "figure_context", "new_figure", "save_figure", "draw_wire", "draw_scene", "relay_figure",
            "relay_diagram", "legend_handles", "DiagramInfo", "distance_by_class_figure", "rate_distance_figure",
-           "counts_figure"]
+           "counts_figure", "bottleneck_figure", "ligation_by_resolution_figure", "ambiguity_ratio", "link_ambiguity",
+           "AMBIGUOUS_RATIO", "MAX_PANELS"]
 
 #: rcParams of every fescan figure (see :func:`figure_context`).
 RC: dict[str, object] = {
@@ -64,6 +65,10 @@ _LEADER_FROM_PT = 0.5 * style.GLYPH_PT + 9.0
 _DIRECTIONS = (90.0, 270.0, 0.0, 180.0, 45.0, 135.0, 315.0, 225.0, 67.5, 112.5, 292.5, 247.5, 22.5, 157.5,
                337.5, 202.5)
 _SEGMENT_WEIGHT = {"path": 12.0, "gap": 12.0, "near": 6.0, "pair": 2.0}
+#: Opacity of cofactors off the wire.
+_FAINT = 0.4
+#: Colour of labels of cofactors off the wire.
+_FAINT_INK = "#6b6b6b"
 
 
 @contextlib.contextmanager
@@ -110,10 +115,11 @@ def _marker(shape: str) -> tuple[MarkerStyle | str, float]:
     return MarkerStyle(MplPath(v, codes)), float(np.max(np.abs(v))) * style.GLYPH_PT
 
 
-def _glyph_lines(g: style.Glyph, x: list[float], y: list[float], gid: str | None = None) -> list[Line2D]:
+def _glyph_lines(g: style.Glyph, x: list[float], y: list[float], gid: str | None = None,
+                 faint: bool = False) -> list[Line2D]:
     m, ms = _marker(g.shape)
     out = [Line2D(x, y, linestyle="none", marker=m, markersize=ms, markerfacecolor=g.face,
-                  markeredgecolor=style.INK, markeredgewidth=0.6, zorder=6, gid=gid)]
+                  markeredgecolor=style.INK, markeredgewidth=0.6, zorder=6, gid=gid, alpha=_FAINT if faint else 1.0)]
     mark_gid = gid.replace("cofactor-", "mark-", 1) if gid else None
     if g.mark == "dot":
         out.append(Line2D(x, y, linestyle="none", marker="o", markersize=2.6, markerfacecolor="white",
@@ -147,13 +153,15 @@ def legend_handles(scenes: Sequence[Scene]) -> tuple[list, list[str]]:
     """
     glyphs: dict[str, style.Glyph] = {}
     kinds: set[str] = set()
+    texts: dict[str, str] = {}
     for sc in scenes:
         for n in sc.nodes:
             glyphs.setdefault(n.glyph.legend, n.glyph)
         kinds |= sc.kinds()
+        texts.update(sc.legend_text)
     order = sorted(glyphs, key=lambda t: (style.legend_rank(t), t))
     handles: list = [tuple(_glyph_lines(glyphs[t], [], [])) for t in order]
-    labels = list(order)
+    labels = [texts.get(t, t) for t in order]
     lines = [
         ("path", Line2D([], [], **_line_kw(style.PATH_HOP)), "relay path (fastest)"),
         ("bottleneck", (Line2D([], [], **_line_kw(style.BOTTLENECK_HALO)), Line2D([], [], **_line_kw(style.PATH_HOP))),
@@ -163,6 +171,7 @@ def legend_handles(scenes: Sequence[Scene]) -> tuple[list, list[str]]:
         ("near", Line2D([], [], **_line_kw(style.NEAR_GAP)), "nearest partner, over limit"),
         ("symmetry", Line2D([], [], **_line_kw(style.PAIR, dotted=True)), "via a symmetry mate"),
         ("ends", _ring([], []), "entry / exit"),
+        ("faint", tuple(_glyph_lines(style.Glyph("disc", "#bbbbbb"), [], [], faint=True)), "off the wire"),
     ]
     for key, h, text in lines:
         if key in kinds:
@@ -194,12 +203,21 @@ class DiagramInfo:
         Glyph boxes (display pixels), by cofactor uid.
     extent : (xmin, xmax, ymin, ymax) or None
         Region of the view plane (Å) fitted into the axes.
+    leaders : set of str
+        SVG ids of the labels joined to their glyph by a leader line.
+    scale_bar : bool
+        Whether a scale bar was drawn (only when :attr:`Scene.to_scale`).
+    panels : list of DiagramInfo
+        Every panel of a :func:`relay_figure` (empty for a single :func:`draw_wire`).
     """
 
     scene: Scene
     label_boxes: dict[str, Box] = field(default_factory=dict)
     glyph_boxes: dict[str, Box] = field(default_factory=dict)
     extent: tuple[float, float, float, float] | None = None
+    leaders: set[str] = field(default_factory=set)
+    scale_bar: bool = False
+    panels: list[DiagramInfo] = field(default_factory=list)
 
     @property
     def projection(self) -> Projection:
@@ -286,7 +304,7 @@ def draw_scene(ax: Axes, scene: Scene, *, title: str | None = None, legend: bool
         segments.append(Segment(px[lk.first], px[lk.second], _SEGMENT_WEIGHT[lk.kind], width))
     r0 = (0.5 * style.GLYPH_PT + 1.0) * k
     for n in scene.nodes:
-        for art in _glyph_lines(n.glyph, [n.xy[0]], [n.xy[1]], n.gid):
+        for art in _glyph_lines(n.glyph, [n.xy[0]], [n.xy[1]], n.gid, faint=n.faint):
             ax.add_line(art)
         if n.role:
             ax.add_line(_ring([n.xy[0]], [n.xy[1]], f"{n.role}-{style.svg_id(n.uid)}"))
@@ -294,7 +312,7 @@ def draw_scene(ax: Axes, scene: Scene, *, title: str | None = None, legend: bool
         x, y = px[n.uid]
         info.glyph_boxes[n.uid] = Box(x - r, y - r, x + r, y + r)
     fixed = list(info.glyph_boxes.values()) + marks
-    info.label_boxes = _place_texts(ax, scene, px, segments, fixed)
+    info.label_boxes, info.leaders, info.scale_bar = _place_texts(ax, scene, px, segments, fixed)
     if legend:
         h, lab = legend_handles([scene])
         ax.legend(h, lab, loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=2, **_legend_kw())
@@ -355,21 +373,28 @@ def _draw_scale_bar(ax: Axes, length: float, box: Box) -> None:
                 va="bottom", fontsize=style.FONT_PT, color=style.INK, gid="scale-bar-label")
 
 
-def _place_texts(ax: Axes, scene: Scene, px: dict, segments: list[Segment], fixed: list[Box]) -> dict[str, Box]:
-    """Create every label, measure it, place them all, then move each into place."""
+def _place_texts(ax: Axes, scene: Scene, px: dict, segments: list[Segment],
+                 fixed: list[Box]) -> tuple[dict[str, Box], set[str], bool]:
+    """Create every label, measure it, place them all, then move each into place.
+
+    A cofactor label gets a leader line when it lies far from its glyph or when another
+    glyph is about as near to it as its own (so no label can be read as a neighbour's).
+    The scale bar is placed only when the scene is drawn to scale.
+    """
     renderer = ax.figure.canvas.get_renderer()
     k = ax.figure.dpi / _PT
     texts, items = {}, []
 
-    def text(s: str, gid: str, bold: bool = False):
-        t = ax.text(0, 0, s, ha="center", va="center", fontsize=style.FONT_PT, color=style.INK, linespacing=1.15,
+    def text(s: str, gid: str, bold: bool = False, faint: bool = False):
+        t = ax.text(0, 0, s, ha="center", va="center", fontsize=style.FONT_PT, color=_FAINT_INK if faint else style.INK,
+                    linespacing=1.15,
                     fontweight="bold" if bold else "normal", parse_math=False, gid=gid, zorder=8,
                     bbox={"boxstyle": "square,pad=0.1", "facecolor": "white", "edgecolor": "none", "alpha": 0.85})
         bb = t.get_window_extent(renderer)
         return t, bb.width + 2 * k, bb.height + 1 * k
 
     for n_index, n in enumerate(scene.nodes):
-        t, w, h = text(n.label, n.label_gid)
+        t, w, h = text(n.label, n.label_gid, faint=n.faint)
         ax_, ay_ = px[n.uid]
         cands, pens = [], []
         for ring, (rad, pen) in enumerate(((1.0, 0.0), (1.9, 60.0), (2.9, 150.0), (4.2, 300.0))):
@@ -400,61 +425,185 @@ def _place_texts(ax: Axes, scene: Scene, px: dict, segments: list[Segment], fixe
                     pens.append(pen + 3.0 * rank + (0.5 if side < 0 else 0.0))
         texts[lk.label_gid] = (t, None)
         items.append(Placement(lk.label_gid, w, h, cands, pens, own_segments=frozenset({s_index})))
-    length, bar = _scale_bar_item(ax)
-    items.append(bar)
+    length = 0.0
+    if scene.to_scale:
+        length, bar = _scale_bar_item(ax)
+        items.append(bar)
     bb = ax.get_window_extent()
     boxes = place_labels(items, fixed=fixed, segments=segments, frame=Box(bb.x0, bb.y0, bb.x1, bb.y1))
     inv = ax.transData.inverted()
+    glyph_xy = {n.label_gid: np.asarray(px[n.uid]) for n in scene.nodes}
+    link_xy = {lk.label_gid: (np.asarray(px[lk.first]), np.asarray(px[lk.second]))
+               for lk in scene.links if lk.label is not None}
+    leaders: set[str] = set()
     for key, box in boxes.items():
         if key == "scale-bar":
             _draw_scale_bar(ax, length, box)
             continue
         t, anchor = texts[key]
         t.set_position(tuple(inv.transform(((box.x0 + box.x1) / 2, (box.y0 + box.y1) / 2))))
-        seg = leader(anchor, box, _LEADER_FROM_PT * k) if anchor is not None else None
+        if anchor is None:
+            own = link_xy.get(key)
+            if own is not None and link_ambiguity(box, key, link_xy) > AMBIGUOUS_RATIO:
+                p, q = own
+                a = _nearest_on_segment(p, q, box)
+                near = np.array([min(max(a[0], box.x0), box.x1), min(max(a[1], box.y0), box.y1)])
+                if float(np.hypot(*(near - a))) > 1.0:
+                    leaders.add(key)
+                    (x0, y0), (x1, y1) = inv.transform(a), inv.transform(near)
+                    ax.plot([x0, x1], [y0, y1], color="#555555", linewidth=0.5, zorder=7, linestyle=(0, (1.0, 1.0)),
+                            gid=key.replace("-label", "-leader"))
+            continue
+        seg = leader(anchor, box, _LEADER_FROM_PT * k)
+        if seg is None and _ambiguous(box, key, glyph_xy):
+            seg = leader(anchor, box, 0.0)
+            if seg is not None:  # start outside the glyph
+                a = np.asarray(anchor)
+                d = seg[1] - a
+                dist = float(np.hypot(*d)) or 1.0
+                seg = (a + d * min(0.5 * _LEADER_FROM_PT * k / dist, 0.9), seg[1])
         if seg is not None:
+            leaders.add(key)
             (x0, y0), (x1, y1) = inv.transform(seg[0]), inv.transform(seg[1])
             ax.plot([x0, x1], [y0, y1], color="#555555", linewidth=0.5, zorder=7,
                     gid=key.replace("label-", "leader-", 1))
-    return boxes
+    return boxes, leaders, "scale-bar" in boxes
+
+
+def _box_distance(box: Box, xy: np.ndarray) -> float:
+    dx = max(box.x0 - xy[0], 0.0, xy[0] - box.x1)
+    dy = max(box.y0 - xy[1], 0.0, xy[1] - box.y1)
+    return float(math.hypot(dx, dy))
+
+
+def ambiguity_ratio(box: Box, own: str, glyph_xy: dict[str, np.ndarray]) -> float:
+    """Distance of a label box to its own glyph over the distance to the nearest other glyph.
+
+    Below :data:`AMBIGUOUS_RATIO` the label reads as its own glyph's without a leader.
+    """
+    mine = _box_distance(box, glyph_xy[own])
+    others = [_box_distance(box, xy) for k, xy in glyph_xy.items() if k != own]
+    if not others:
+        return 0.0
+    return mine / max(min(others), 1e-9)
+
+
+def _nearest_on_segment(p: np.ndarray, q: np.ndarray, box: Box) -> np.ndarray:
+    """Point of segment p-q nearest to the centre of a box."""
+    c = np.array([(box.x0 + box.x1) / 2, (box.y0 + box.y1) / 2])
+    d = q - p
+    t = float(np.clip((c - p) @ d / max(float(d @ d), 1e-12), 0.0, 1.0))
+    return p + t * d
+
+
+def _segment_distance(box: Box, p: np.ndarray, q: np.ndarray) -> float:
+    return _box_distance(box, _nearest_on_segment(p, q, box))
+
+
+def link_ambiguity(box: Box, own: str, link_xy: dict[str, tuple[np.ndarray, np.ndarray]]) -> float:
+    """Distance of a line label to its own line over the distance to the nearest other labelled line."""
+    mine = _segment_distance(box, *link_xy[own])
+    others = [_segment_distance(box, *pq) for k, pq in link_xy.items() if k != own]
+    if not others:
+        return 0.0
+    return mine / max(min(others), 1e-9)
+
+
+#: A label nearer than this fraction of the distance to any other glyph needs no leader.
+AMBIGUOUS_RATIO = 0.6
+
+
+def _ambiguous(box: Box, own: str, glyph_xy: dict[str, np.ndarray]) -> bool:
+    return ambiguity_ratio(box, own, glyph_xy) > AMBIGUOUS_RATIO
+
+
+def _panel_title(result: ScanResult, scene: Scene, k: int, n_panels: int) -> str:
+    entry = result.info.entry_id
+    keys = {n.uid: n.label.split("\n")[0] for n in scene.nodes}
+    chains = sorted({uid.split(":")[1].split("/")[0] for uid in keys if uid.count(":") >= 2})
+    where = f"chain{'s' * (len(chains) > 1)} {', '.join(chains)}" if chains else ""
+    if k == 0 and result.wire.path:
+        head = f"{entry}: the wire"
+    elif n_panels == 1:
+        return entry
+    else:
+        head = f"{entry}: group {k + 1}"
+    return f"{head} ({len(scene.nodes)} cofactor{'s' * (len(scene.nodes) != 1)}{', ' + where if where else ''})"
+
+
+def _panel_height(scene: Scene, width_in: float) -> float:
+    """Height (in) of one panel's drawing area: room for its spread and its labels."""
+    xy = np.array(list(scene.positions().values())).reshape(-1, 2)
+    span = np.ptp(xy, axis=0) if len(xy) > 1 else np.ones(2)
+    ax_w = width_in - 0.1
+    s = (ax_w * _PT - 2 * _MARGIN_PT[0]) / max(span[0], 1e-6)
+    # room for the labels: about 0.21 in² per cofactor label and 0.10 in² per line label,
+    # filling no more than 30 % of the drawing
+    n_line_labels = sum(1 for lk in scene.links if lk.label)
+    need = (0.21 * len(scene.nodes) + 0.10 * n_line_labels) / 0.3 / ax_w
+    small = 0.35 * width_in if len(scene.nodes) <= 2 else 0.6 * width_in
+    return min(max((span[1] * s + 2 * _MARGIN_PT[1]) / _PT, small, need), 1.25 * width_in)
+
+
+#: Most panels one relay figure draws (the rest are named in its note).
+MAX_PANELS = 8
 
 
 def relay_figure(result: ScanResult, *, width_in: float = style.COLUMN_WIDTH_IN,
                  title: str | None = None) -> tuple[Figure, DiagramInfo]:
     """The relay diagram of one result as a figure with legend and note (see :func:`relay_diagram`).
 
+    One panel per group of cofactors (:func:`fescan.report.scene.panel_groups`): the
+    wire's group first, with the cofactors off the wire drawn faint, then each other
+    group (other copies, other chains), so every cofactor appears once.
+
     Returns
     -------
     fig : matplotlib.figure.Figure
     info : DiagramInfo
-        What was drawn, with the final label boxes.
+        What the first panel drew; ``info.panels`` holds every panel's.
     """
     with figure_context("fescan-relay"):
-        proj = default_projection(result)
-        scene = build_scene(result, proj)
-        xy = np.array(list(scene.positions().values())).reshape(-1, 2)
-        span = np.ptp(xy, axis=0) if len(xy) > 1 else np.ones(2)
+        groups = panel_groups(result)
+        left_out = groups[MAX_PANELS:]
+        groups = groups[:MAX_PANELS] or [[]]
+        scenes = [build_scene(result, members=g) for g in groups]
+        titles = [_panel_title(result, sc, k, len(scenes)) for k, sc in enumerate(scenes)]
+        if title is not None:
+            titles[0] = title
         ax_w = width_in - 0.1
-        s = (ax_w * _PT - 2 * _MARGIN_PT[0]) / max(span[0], 1e-6)
-        # room for the labels: about 0.21 in² per cofactor label and 0.10 in² per line label,
-        # filling no more than 30 % of the drawing
-        n_line_labels = sum(1 for lk in scene.links if lk.label)
-        need = (0.21 * len(scene.nodes) + 0.10 * n_line_labels) / 0.3 / ax_w
-        ax_h = min(max((span[1] * s + 2 * _MARGIN_PT[1]) / _PT, 0.6 * width_in, need), 1.25 * width_in)
-        handles, labels = legend_handles([scene])
-        note = textwrap.fill(scene.note, 66)
+        heights = [_panel_height(sc, width_in) for sc in scenes]
+        handles, labels = legend_handles(scenes)
+        note_text = scenes[0].note
+        if all(sc.to_scale for sc in scenes):
+            note_text += (f" Layout: the 3-D arrangement laid flat; wire hops drawn to scale within "
+                          f"±{SCALE_TOLERANCE:.0%} (centre to centre).")
+        else:
+            note_text += (" Not to scale: no flat layout keeps every hop's length here (within "
+                          f"±{SCALE_TOLERANCE:.0%}), so no scale bar; read distances from the labels.")
+        if left_out:
+            n_left = sum(len(g) for g in left_out)
+            note_text += f" {len(left_out)} further groups ({n_left} cofactors) not drawn."
+        note = textwrap.fill(note_text, 66)
         leg_h = 0.08 + math.ceil(len(labels) / 2) * 0.165 if labels else 0.0
         note_h = 0.06 + 0.125 * (note.count("\n") + 1)
         title_h = 0.2
-        height = title_h + ax_h + leg_h + note_h
+        height = sum(heights) + title_h * len(scenes) + leg_h + note_h
         fig = new_figure(width_in, height)
         bottom = (leg_h + note_h) / height
-        ax = fig.add_axes((0.05 / width_in, bottom, ax_w / width_in, ax_h / height))
-        info = draw_scene(ax, scene, title=title if title is not None else result.info.entry_id)
+        top = 1.0
+        infos = []
+        for sc, h, t in zip(scenes, heights, titles):
+            y0 = top - (title_h + h) / height
+            ax = fig.add_axes((0.05 / width_in, y0, ax_w / width_in, h / height))
+            infos.append(draw_scene(ax, sc, title=t))
+            top = y0
         if labels:
             fig.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, bottom), ncol=2, **_legend_kw())
         fig.text(0.06 / width_in, 0.04 / height, note, ha="left", va="bottom", fontsize=style.FONT_PT,
                  color="#333333", parse_math=False, gid="note")
+    info = infos[0]
+    info.panels = infos
     return fig, info
 
 
@@ -629,4 +778,71 @@ def counts_figure(class_counts: Sequence[tuple[str, style.Glyph, int]],
         else:
             bottom.legend(loc="lower right", **{**_legend_kw(), "handlelength": 1.2})
         bottom.set_xlabel("count", fontsize=style.FONT_PT)
+    return fig
+
+
+def bottleneck_figure(distances: np.ndarray, *, gap_limit: float, n_without: int = 0) -> Figure:
+    """Histogram of the edge-to-edge distance of every wire's slowest hop (1 Å bins).
+
+    Parameters
+    ----------
+    distances : ndarray
+        Bottleneck edge-to-edge distances (Å), one per wire.
+    gap_limit : float
+        Gap limit (Å), marked.
+    n_without : int, optional
+        Structures without a wire (said in the axis label).
+    """
+    with figure_context("fescan-survey-bottleneck"):
+        fig = new_figure(style.COLUMN_WIDTH_IN, 2.2)
+        ax = fig.add_axes((0.15, 0.27, 0.8, 0.62))
+        _plain_axes(ax)
+        d = np.asarray(distances, dtype=float)
+        d = d[np.isfinite(d)]
+        top = max(float(np.ceil(d.max())) + 1 if len(d) else 0.0, gap_limit + 2.0)
+        bins = np.arange(0.0, top + 1.0, 1.0)
+        below, above = d[d <= gap_limit], d[d > gap_limit]
+        ax.hist([below, above], bins=bins, stacked=True, color=["#8c8c8c", "white"], edgecolor=style.INK,
+                linewidth=0.5, hatch=None, gid="bottlenecks")
+        for patch in ax.patches[len(bins) - 1:]:
+            patch.set_hatch("////")
+        ax.axvline(gap_limit, color=style.INK, linewidth=0.8, linestyle=(0, (3.0, 2.0)), gid="gap-limit")
+        ax.text(gap_limit, 1.0, f" {gap_limit:g} Å limit", transform=ax.get_xaxis_transform(), ha="left", va="top",
+                fontsize=style.FONT_PT)
+        ax.set_xlim(0, top + 1.0)
+        ax.yaxis.get_major_locator().set_params(integer=True)
+        ax.set_ylabel("wires", fontsize=style.FONT_PT)
+        extra = f"; {n_without} structures without a wire" if n_without else ""
+        ax.set_xlabel(f"edge-to-edge distance of the slowest hop (Å), {len(d)} wires{extra}\n"
+                      "hatched: over the gap limit", fontsize=style.FONT_PT, linespacing=1.3)
+    return fig
+
+
+def ligation_by_resolution_figure(rows: Sequence[tuple[str, int, int]]) -> Figure:
+    """Share of Fe-S clusters with a ligation or geometry warning, by resolution bin.
+
+    Parameters
+    ----------
+    rows : sequence of (bin label, clusters with a warning, clusters)
+    """
+    with figure_context("fescan-survey-ligation"):
+        n = max(len(rows), 1)
+        fig = new_figure(style.COLUMN_WIDTH_IN, 0.9 + 0.22 * n)
+        h = fig.get_figheight()
+        ax = fig.add_axes((0.30, 0.5 / h, 0.58, 0.22 * n / h))
+        _plain_axes(ax)
+        y = np.arange(len(rows))
+        total = np.array([t for _, _, t in rows], dtype=float)
+        bad = np.array([b for _, b, _ in rows], dtype=float)
+        share = np.divide(bad, total, out=np.zeros_like(bad), where=total > 0)
+        ax.barh(y, share, color="#6e6e6e", edgecolor=style.INK, linewidth=0.5, height=0.7, gid="warned-share")
+        for yy, (_, b, t), v in zip(y, rows, share):
+            ax.text(v, yy, f" {b} of {t}", va="center", ha="left", fontsize=style.FONT_PT)
+        ax.set_yticks(y, [lab for lab, _, _ in rows], fontsize=style.FONT_PT)
+        ax.set_xlim(0, 1.0)
+        ax.invert_yaxis()
+        ax.set_xlabel("share of Fe-S clusters with a warning", fontsize=style.FONT_PT)
+        ax.set_ylabel("resolution", fontsize=style.FONT_PT)
+        if not rows:
+            ax.text(0.5, 0.5, "no Fe-S clusters", transform=ax.transAxes, ha="center", fontsize=style.FONT_PT)
     return fig

@@ -1,7 +1,8 @@
 """Render a :class:`~fescan.report.content.Document` as one self-contained HTML page.
 
 The page has inline CSS and inline SVG figures, no scripts and no network
-references. Every text of the document goes through :func:`html.escape`;
+references. Every table sits in its own horizontally scrolling box, so a wide
+table never widens the page. Every text of the document goes through :func:`html.escape`;
 only figure SVG drawn by fescan is inserted as markup.
 """
 
@@ -30,7 +31,11 @@ __all__ = ["CSS", "esc", "render_html", "inline_svg"]
 CSS = """
 :root { --ink: #1f1f1f; --muted: #5a5a5a; --rule: #d9d4cc; --band: #f6f3ee; --accent: #a0522d; }
 body { font-family: "DejaVu Sans", "Segoe UI", Helvetica, Arial, sans-serif; color: var(--ink);
-       max-width: 60rem; margin: 2rem auto; padding: 0 1.2rem; line-height: 1.45; font-size: 15px; }
+       max-width: 80rem; margin: 2rem auto; padding: 0 1.2rem; line-height: 1.45; font-size: 15px; }
+main { max-width: 100%; }
+div.scroll { overflow-x: auto; max-width: 100%; margin: .5rem 0 1.2rem; }
+div.scroll > table { margin: 0; }
+p, li, figcaption { overflow-wrap: anywhere; }
 h1 { font-size: 1.55rem; margin: 0 0 .2rem; border-bottom: 3px solid var(--accent); padding-bottom: .3rem; }
 h2 { font-size: 1.2rem; margin: 2.2rem 0 .6rem; color: var(--accent); }
 h3 { font-size: 1.02rem; margin: 1.4rem 0 .4rem; }
@@ -90,7 +95,7 @@ def _inline(value: Inline) -> str:
 
 
 def _table(t: Table) -> str:
-    out = ["<table>"]
+    out = ['<div class="scroll"><table>']
     if t.caption:
         out.append(f"<caption>{esc(t.caption)}</caption>")
     cls = [' class="num"' if k in t.numeric else "" for k in range(len(t.headers))]
@@ -99,7 +104,7 @@ def _table(t: Table) -> str:
     for row in t.rows:
         out.append("<tr>" + "".join(f"<td{cls[k] if k < len(cls) else ''}>{_inline(v)}</td>"
                                     for k, v in enumerate(row)) + "</tr>")
-    out.append("</tbody></table>")
+    out.append("</tbody></table></div>")
     return "\n".join(out)
 
 

@@ -12,7 +12,8 @@ from fescan.core.records import Cofactor
 from fescan.transfer.graph import Hop
 from fescan.transfer.potentials import Potential
 
-__all__ = ["MINUS", "number", "signed", "volts", "short_time", "cofactor_label", "hop_label", "is_user_value"]
+__all__ = ["MINUS", "number", "signed", "volts", "duration", "short_time", "cofactor_label", "hop_label",
+           "is_user_value"]
 
 #: The typographic minus sign used in figures and reports.
 MINUS = "\u2212"
@@ -54,6 +55,29 @@ def signed(value: float, digits: int = 2) -> str:
 def volts(value: float, digits: int = 2) -> str:
     """A potential in V: ``'−0.40 V'``."""
     return f"{signed(value, digits)} V"
+
+
+def duration(seconds: float | None, digits: int = 3) -> str:
+    """A time with ``digits`` significant digits and a unit, for HTML and Markdown documents.
+
+    ``'–'`` when undefined (None, NaN, infinite). Figures use :func:`short_time`
+    (two digits); the terminal uses :func:`fescan.report.text.format_time`.
+
+    Examples
+    --------
+    >>> duration(3.214e-6)
+    '3.21 µs'
+    >>> duration(0.41)
+    '410 ms'
+    >>> duration(None)
+    '–'
+    """
+    if seconds is None or not math.isfinite(seconds):
+        return "\u2013"
+    for unit, f in (("s", 1.0), ("ms", 1e-3), ("µs", 1e-6), ("ns", 1e-9), ("ps", 1e-12)):
+        if seconds >= f:
+            return f"{float(f'{seconds / f:.{digits}g}'):g} {unit}"
+    return f"{float(f'{seconds / 1e-15:.{digits}g}'):g} fs"
 
 
 def short_time(seconds: float | None) -> str:

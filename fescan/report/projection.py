@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Projection", "principal_projection"]
+__all__ = ["Projection", "principal_projection", "stress_layout"]
 
 
 @dataclass(frozen=True)
@@ -108,3 +108,79 @@ def principal_projection(
         a2 = vecs[1] - a1 * float(vecs[1] @ a1)
         a2 = _toward_largest(a2 / np.linalg.norm(a2))
     return Projection(origin, np.vstack([a1, a2]))
+
+
+def stress_layout(
+    centres: Sequence[Sequence[float]] | np.ndarray,
+    start: np.ndarray,
+    *,
+    weights: dict[tuple[int, int], float] | None = None,
+    iterations: int = 300,
+) -> np.ndarray:
+    """A flat layout whose distances follow the 3-D ones, most of all along the wire.
+
+    Weighted stress majorisation (SMACOF; de Leeuw 1977, in *Recent Developments in
+    Statistics*, 133-146; Gansner, Koren & North 2004, *Graph Drawing*, LNCS 3383:239):
+    minimises Σ w_ij (|x_i − x_j| − d_ij)² with d_ij the 3-D distance of the centres and
+    w_ij = d_ij⁻² (every pair) times the factor given in ``weights`` (the wire's hops get a
+    large one, so a chain of hops, which can always be drawn flat at its true lengths,
+    is). Started from ``start`` (the principal-component view), so the picture stays
+    the molecule seen from one side, only unfolded where a projection would shorten a hop.
+
+    Parameters
+    ----------
+    centres : array_like, shape=(n, 3)
+        Cofactor centres (Å).
+    start : ndarray, shape=(n, 2)
+        Starting positions (Å), e.g. :meth:`Projection.apply` of the centres.
+    weights : dict of (int, int) to float, optional
+        Extra weight of some pairs (``i < j``).
+    iterations : int, optional
+        Guttman transforms applied at most.
+
+    Returns
+    -------
+    ndarray, shape=(n, 2)
+        Positions (Å), centred like ``start``.
+
+    Examples
+    --------
+    >>> pts = np.array([[0, 0, 0], [10, 0, 0], [10, 0, 10]], dtype=float)
+    >>> xy = stress_layout(pts, np.array([[0, 0], [10, 0], [10, 0.1]]), weights={(0, 1): 50, (1, 2): 50})
+    >>> [round(float(np.linalg.norm(xy[i] - xy[j])), 2) for i, j in ((0, 1), (1, 2))]
+    [10.0, 10.0]
+    """
+    p = np.asarray(centres, dtype=float).reshape(-1, 3)
+    x = np.asarray(start, dtype=float).reshape(-1, 2).copy()
+    n = len(p)
+    if n < 3:
+        return x
+    d = np.linalg.norm(p[:, None, :] - p[None, :, :], axis=2)
+    with np.errstate(divide="ignore"):
+        w = np.where(d > 1e-6, 1.0 / np.maximum(d, 1e-6) ** 2, 0.0)
+    for (i, j), f in (weights or {}).items():
+        w[i, j] *= f
+        w[j, i] *= f
+    np.fill_diagonal(w, 0.0)
+    v = -w.copy()
+    np.fill_diagonal(v, w.sum(axis=1))
+    v_pinv = np.linalg.pinv(v)
+    centre = x.mean(axis=0)
+
+    def stress(z: np.ndarray) -> float:
+        dz = np.linalg.norm(z[:, None, :] - z[None, :, :], axis=2)
+        return float((w * (dz - d) ** 2).sum())
+
+    last = stress(x)
+    for _ in range(iterations):
+        dz = np.linalg.norm(x[:, None, :] - x[None, :, :], axis=2)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            b = np.where(dz > 1e-9, -w * d / dz, 0.0)
+        np.fill_diagonal(b, 0.0)
+        np.fill_diagonal(b, -b.sum(axis=1))
+        x = v_pinv @ (b @ x)
+        s = stress(x)
+        if last - s < 1e-7 * max(last, 1e-12):
+            break
+        last = s
+    return x - x.mean(axis=0) + centre

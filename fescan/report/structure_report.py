@@ -13,11 +13,11 @@ from __future__ import annotations
 
 import logging
 import math
-from collections import Counter
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from fescan.analysis.scan import CAUTION
+from fescan.cofactors.ligation import ligand_counts
 from fescan.core.errors import ConfigError
 from fescan.core.version import __version__
 from fescan.report.content import (
@@ -26,6 +26,7 @@ from fescan.report.content import (
     Facts,
     Figure,
     Heading,
+    Inline,
     Notice,
     Paragraph,
     Run,
@@ -33,9 +34,18 @@ from fescan.report.content import (
 )
 from fescan.report.diagrams import relay_diagram
 from fescan.report.html import render_html
-from fescan.report.labels import number, signed, volts
+from fescan.report.labels import duration, number, signed, volts
 from fescan.report.markdown import render_markdown
-from fescan.report.text import format_time
+from fescan.report.references import (
+    BOND_WINDOWS,
+    COORDINATE_ERROR,
+    CORE_GEOMETRY,
+    KINETIC_MODEL,
+    RATE_LAW,
+    RATE_LAW_1992,
+    STRESS_LAYOUT,
+    References,
+)
 
 if TYPE_CHECKING:  # pragma: no cover
     from fescan.analysis.scan import ScanResult
@@ -62,7 +72,7 @@ def _structure_facts(res: ScanResult) -> Facts:
     model = res.cofactors[0].model if res.cofactors else o.model
     cell = ("–" if i.cell is None else
             "a = {:.2f}, b = {:.2f}, c = {:.2f} Å; α = {:.1f}, β = {:.1f}, γ = {:.1f}°".format(*i.cell))
-    return Facts([
+    items = [
         ("File", Run(res.path, code=True)),
         ("Entry", i.entry_id or "–"),
         ("Title", i.title or "not given in the file"),
@@ -72,12 +82,14 @@ def _structure_facts(res: ScanResult) -> Facts:
         ("Format", f"{i.file_format}{', gzip' if i.compressed else ''}; {i.n_atoms} atoms read, "
                    f"alternative locations: {i.altloc_policy}"),
         ("Crystal cell", cell + (f"; space group {i.spacegroup}" if i.spacegroup else "")),
-    ])
+    ]
+    items += [("File note", n) for n in i.notes]
+    items += [("Note", n) for n in getattr(res, "notes", None) or []]
+    return Facts(items)
 
 
 def _ligand_summary(c) -> str:
-    cnt = Counter(lig.kind for lig in c.ligands)
-    return ", ".join(f"{n}× {k}" for k, n in sorted(cnt.items())) or "–"
+    return ", ".join(f"{n}× {k}" for k, n in ligand_counts(c.ligands)) or "–"
 
 
 def _checks(c) -> str:
@@ -88,41 +100,167 @@ def _checks(c) -> str:
     return ", ".join(parts) or "ok"
 
 
-def _cofactor_table(res: ScanResult) -> Table:
+def _role(c) -> str:
+    role = getattr(c, "role", "") or "–"
+    sub = getattr(c, "subclass", "")
+    return f"{role} ({sub})" if sub else role
+
+
+def _cofactor_table(res: ScanResult, refs: References) -> Table:
     rows = []
     for c in res.cofactors:
-        pot = res.potentials[c.uid]
-        rows.append([Run(c.key, strong=True), c.cls, c.ccd_code or "–", c.detected_by, str(len(c.atoms)),
-                     _ligand_summary(c), c.motif or "–", volts(pot.e_v, 3),
-                     "user file" if pot.origin != "default" else "default", _checks(c)])
-    return Table(["Cofactor", "Class", "Code", "Found by", "Atoms", "Ligands", "Motif", "E used", "E from",
-                  "Checks"], rows, frozenset({4, 7}))
+        pot = res.potentials.get(c.uid)
+        e = "–" if pot is None else volts(pot.e_v, 3) + (f" {refs.cite(pot.source)}" if pot.origin == "default"
+                                                         else " (user file)")
+        rows.append([Run(c.key, strong=True), c.cls, _role(c), c.ccd_code or "–", c.detected_by, str(len(c.atoms)),
+                     _ligand_summary(c), c.motif or "–", e, _checks(c)])
+    return Table(["Cofactor", "Class", "Role (sub-class)", "Code", "Found by", "Atoms", "Ligands (count)", "Motif",
+                  "E used", "Checks"], rows, frozenset({5}),
+                 "Ligands are counted once per ligating atom (a Cys bridging two metals counts once).")
 
 
 def _details(res: ScanResult) -> list:
-    out: list = []
+    rows, findings = [], []
     for c in res.cofactors:
-        if not c.ligands and not c.flags:
-            continue
-        out.append(Heading(3, c.label))
-        out.append(Paragraph("Residues: " + ", ".join(c.residues)))
         if c.ligands:
-            out.append(Table(["Metal", "Residue", "Atom", "Kind", "Distance (Å)"],
-                             [[lig.metal, f"{lig.atom.resname} {lig.atom.residue}", lig.atom.name, lig.kind,
-                               f"{lig.distance:.2f}"] for lig in c.ligands], frozenset({4})))
-        if c.flags:
-            out.append(BulletList([[Run(f.severity + ":", strong=True), f" {f.message} ", Run(f"({f.code})", code=True)]
-                                   for f in c.flags]))
+            rows.append([Run(c.key, strong=True), c.cls, "; ".join(
+                f"{lig.metal}–{lig.atom.resname} {lig.atom.residue} {lig.atom.name} {lig.distance:.2f}"
+                for lig in c.ligands)])
+        for f in c.flags:
+            findings.append([Run(f"{c.label}, {f.severity}:", strong=True), f" {f.message} ",
+                             Run(f"({f.code})", code=True)])
+        reason = getattr(c, "role_reason", "")
+        if reason:
+            findings.append([Run(f"{c.label}, role:", strong=True), f" {_role(c)}: {reason}"])
+        for st in getattr(c, "states", ()) or ():
+            findings.append([Run(f"{c.label}, state:", strong=True), f" {st}"])
+    out: list = []
+    if rows:
+        out.append(Table(["Cofactor", "Class", "Ligand bonds: metal–residue atom, distance (Å)"], rows,
+                         caption="Every metal–ligand distance within the donor's cut-off (S 3.0 Å, N/O 2.6 Å)"))
+    if findings:
+        out.append(BulletList(findings))
     return out or [Paragraph("No ligand bonds and no findings to list.")]
 
 
-def _wire_blocks(res: ScanResult, svg: str) -> list:
+def _steady_state(res: ScanResult) -> dict | None:
+    """The steady-state model of the wire when the scan computed one (else None)."""
+    ss = getattr(res.wire, "steady_state", None)
+    if ss is None:
+        try:
+            ss = res.wire.to_dict().get("steady_state")
+        except Exception:  # noqa: BLE001 - a report never fails on an optional section
+            ss = None
+    if ss is not None and not isinstance(ss, dict):
+        ss = ss.to_dict() if hasattr(ss, "to_dict") else None
+    return ss or None
+
+
+def _time_interval(res: ScanResult) -> tuple[float, float, str] | None:
+    """95 % interval of the summed hop time and what it covers, when it can be computed."""
+    if not res.wire.hops:
+        return None
+    try:
+        from fescan.transfer.uncertainty import wire_uncertainty
+
+        u = wire_uncertainty(res)
+    except Exception as exc:  # noqa: BLE001 - the interval is optional; the report says it is missing
+        log.info("no interval for %s: %s", res.path, exc)
+        return None
+    iv = getattr(u, "summed_hop_time_95", None)
+    if iv and all(x is not None and math.isfinite(x) for x in iv):
+        basis = u.basis() if callable(getattr(u, "basis", None)) else "coordinate and potential spread only"
+        return float(iv[0]), float(iv[1]), str(basis)
+    return None
+
+
+def _with_interval(value: float | None, iv: tuple[float, float, str] | None) -> str:
+    text = duration(value)
+    if iv is None or value is None or not math.isfinite(value):
+        return text
+    return f"{text} (95 %: {duration(iv[0])} to {duration(iv[1])}; {iv[2]})"
+
+
+def _not_analysed_words(res: ScanResult) -> list[str]:
+    from fescan.cofactors.registry import ccd_table
+
+    tab = ccd_table()
+    return [f"{n} × {tab[code].cls if code in tab else code} ({code})" for code, n in res.not_analysed.items()]
+
+
+def _off_wire(res: ScanResult) -> list[dict]:
+    return list(getattr(res, "off_wire", []) or [])
+
+
+def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, float] | None) -> list:
     w, o = res.wire, res.options
     names = {c.uid: c.label for c in res.cofactors}
-    caption = ("Cofactors drawn where they sit, seen along the direction in which the cofactor centres spread "
-               "least (principal components). Heavy line: fastest path from entry (ring) to exit (ring); "
-               "dashed with a break mark: a hop longer than the gap limit; grey: other pairs within the limit. "
-               "Hop labels give the edge-to-edge distance and the estimated hop time.")
+    items: list[tuple[str, Inline]] = []
+    i = res.info
+    items.append(("Structure", f"{i.entry_id}: {i.method or 'method not given'}, "
+                               f"{f'{i.resolution:.2f} Å' if i.resolution else 'resolution not given'}; "
+                               f"{len(res.cofactors)} redox cofactors found"))
+    if w.path:
+        items.append(("Wire", f"{names[w.entry]} → {names[w.exit]}: {len(w.path)} cofactors, {len(w.hops)} "
+                              f"hop{'s' * (len(w.hops) != 1)}"))
+        items.append(("Direction", w.how_chosen or "–"))
+        items.append(("Transfer time (sum of hops)", [_with_interval(w.summed_hop_time, interval), " ",
+                                                      refs.cite(RATE_LAW)]))
+        items.append(("Mean first-passage time", duration(w.mean_first_passage_time)))
+        ss = _steady_state(res)
+        if ss and ss.get("flux_per_s") is not None:
+            items.append(("Steady-state flux", f"{number(ss['flux_per_s'], 3)} electrons s⁻¹ (model estimate) "
+                                               f"{refs.cite(KINETIC_MODEL)}"))
+        b = w.bottleneck
+        if b is not None:
+            items.append(("Bottleneck", f"{names[b.donor]} → {names[b.acceptor]}: {b.edge:.2f} Å edge to edge, "
+                                        f"ΔG {signed(b.dg, 3)} eV, hop time {duration(b.hop_time)}"))
+    else:
+        items.append(("Wire", "none: " + ("; ".join(w.notes) or w.how_chosen or "fewer than two cofactors")))
+    problems: list[str] = []
+    warned = [c for c in res.cofactors if any(f.severity == "warning" for f in c.flags)]
+    if warned:
+        n = sum(1 for c in warned for f in c.flags if f.severity == "warning")
+        problems.append(f"{n} ligation or geometry warning{'s' * (n != 1)} on {len(warned)} cofactor"
+                        f"{'s' * (len(warned) != 1)}: " + "; ".join(
+                            f"{c.label}: {next(f.message for f in c.flags if f.severity == 'warning')}"
+                            for c in warned[:4]) + (" …" if len(warned) > 4 else ""))
+    for h in w.gaps:
+        problems.append(f"{names[h.donor]} → {names[h.acceptor]}: {h.edge:.2f} Å"
+                        + (f", over the {o.gap_limit:g} Å gap limit" if h.gap else "")
+                        + (f", slower than {o.rate_threshold:g} s⁻¹" if h.slow else ""))
+    if res.not_analysed:
+        problems.append("present but not analysed (the wire ignores them): " + ", ".join(_not_analysed_words(res)))
+    off = _off_wire(res)
+    if off and not any("kept off the wire" in n for n in w.notes):
+        problems.append(f"{len(off)} kept off the wire: " + ", ".join(f"{x.get('label', x.get('id'))} "
+                                                                    f"({x.get('role', '')})" for x in off))
+    if w.groups:
+        problems.append(f"{len(w.groups)} other group{'s' * (len(w.groups) != 1)} of cofactors not joined to the wire "
+                        "(drawn in their own panels)")
+    if w.isolated:
+        problems.append(f"{len(w.isolated)} isolated cofactor{'s' * (len(w.isolated) != 1)} "
+                        f"(no partner within {o.gap_limit:g} Å)")
+    problems += list(w.notes) if w.path else []
+    problems += [str(n) for n in getattr(res, "notes", None) or []]
+    out: list = [Heading(2, "Summary", "summary"), Facts(items)]
+    out.append(Heading(3, "Problems and notes"))
+    out.append(BulletList(problems) if problems else Paragraph("None: every cluster passes the checks and every hop "
+                                                               "lies within the gap limit."))
+    out.append(Notice("Estimates, not measurements.", [CAUTION, " ", refs.cite(RATE_LAW)]))
+    return out
+
+
+def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
+    w, o = res.wire, res.options
+    names = {c.uid: c.label for c in res.cofactors}
+    caption = ["One panel per group of cofactors (the wire's group first; other copies or chains after it). "
+               "The 3-D arrangement is laid flat by stress majorisation from the principal-component view, which "
+               "keeps the wire's hops at their true centre-to-centre length; a scale bar is drawn only when every "
+               "hop is within 10 %. Heavy line: the path from entry (ring) to exit (ring); grey: other pairs within "
+               "the limit; dashed with a break mark: a hop over the gap limit; faint: cofactors off the wire. "
+               "Hop labels give the edge-to-edge distance and the estimated hop time; values shared by a whole "
+               "class are in the legend. ", refs.cite(STRESS_LAYOUT)]
     out: list = [Heading(2, "Electron relay", "relay"),
                  Figure(svg, "wire.png", f"Relay diagram of {res.info.entry_id}", caption)]
     if not w.path:
@@ -133,9 +271,9 @@ def _wire_blocks(res: ScanResult, svg: str) -> list:
                          + (" (over the gap limit)" if h.gap else "") + (" (slower than the threshold)" if h.slow else "")
                          for h in w.gaps) or f"none (every hop ≤ {o.gap_limit:g} Å and faster than {o.rate_threshold:g} s⁻¹)"
         out.append(Facts([
-            ("Entry", names[w.entry]), ("Exit", names[w.exit]), ("Chosen", w.how_chosen),
+            ("Entry", names[w.entry]), ("Exit", names[w.exit]), ("Direction chosen", w.how_chosen),
             ("Path", " → ".join(names[u] for u in w.path)),
-            ("Slowest hop", f"{names[b.donor]} → {names[b.acceptor]}, {b.edge:.2f} Å, {format_time(b.hop_time)}"),
+            ("Slowest hop", f"{names[b.donor]} → {names[b.acceptor]}, {b.edge:.2f} Å, {duration(b.hop_time)}"),
             ("Gaps and slow hops", gaps),
         ]))
         rows = []
@@ -145,24 +283,88 @@ def _wire_blocks(res: ScanResult, svg: str) -> list:
             rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
                          signed(h.dg, 3), f"{h.reorg:.2f}", f"{getattr(h, 'packing_density', o.packing_density):.2f}",
                          number(h.log10_k_forward), number(h.log10_k_back),
-                         format_time(h.hop_time), ", ".join(notes)])
+                         duration(h.hop_time), ", ".join(notes)])
         out.append(Table(["Hop", "Donor", "Acceptor", "Edge (Å)", "Centre (Å)", "ΔG (eV)", "λ (eV)", "ρ", "log10 k",
                           "log10 k back", "Hop time", "Notes"], rows, frozenset({0, 3, 4, 5, 6, 7, 8, 9, 10}),
                          "Hops of the fastest path (rates in s⁻¹, estimates)"))
         out.append(Heading(3, "Transfer time"))
-        out.append(Facts([("Sum of hop times", format_time(w.summed_hop_time)),
-                          ("Mean first-passage time", format_time(w.mean_first_passage_time))]))
+        out.append(Facts([("Sum of hop times", _with_interval(w.summed_hop_time, interval)),
+                          ("Mean first-passage time", duration(w.mean_first_passage_time))]))
         out.append(Paragraph(TIMES_EXPLAINED + _compare_times(w.summed_hop_time, w.mean_first_passage_time)))
+        out += _steady_state_blocks(res, refs)
     extra = []
     if w.branches:
         extra.append(("Side branches", "; ".join(f"{names[x['cofactor']]} (next to {names[x['attached_to']]}, "
                                                  f"{x['edge_distance']:.2f} Å)" for x in w.branches)))
     if w.isolated:
         extra.append((f"Isolated (no partner within {o.gap_limit:g} Å)", ", ".join(names[u] for u in w.isolated)))
+    for grp in w.groups:
+        extra.append(("Other connected group", " + ".join(names[u] for u in grp)))
+    for cp in getattr(w, "copies", None) or []:
+        text = " → ".join(names.get(u, u) for u in cp.get("path", [])) or "no path"
+        if cp.get("mean_first_passage_time_s") is not None:
+            text += f" (mean first passage {duration(cp['mean_first_passage_time_s'])})"
+        extra.append(("Other copy", text))
     for n in w.notes if w.path else []:
         extra.append(("Note", n))
     if extra:
         out.append(Facts(extra))
+    return out
+
+
+def _num(v: Any, digits: int = 3) -> str:
+    return number(v, digits) if isinstance(v, (int, float)) else ("–" if v is None else str(v))
+
+
+def _steady_state_blocks(res: ScanResult, refs: References) -> list:
+    """The steady state between the reservoirs, as the kinetic model gives it (absent: nothing)."""
+    ss = _steady_state(res)
+    if not ss:
+        return []
+    names = {c.uid: c.label for c in res.cofactors}
+    out: list = [Heading(3, "Steady state (model estimate)")]
+    facts = []
+    if ss.get("flux_per_s") is not None:
+        facts.append(("Electron flux", f"{_num(ss['flux_per_s'])} electrons s⁻¹ {refs.cite(KINETIC_MODEL)}"))
+    for key, label in (("source", "Source reservoir"), ("sink", "Sink reservoir")):
+        r = ss.get(key)
+        if isinstance(r, dict):
+            facts.append((label, f"{r.get('pool', '')} at {volts(r['e_v'], 3) if r.get('e_v') is not None else '–'}"
+                          + (f" {refs.cite(r['source'])}" if r.get("source") else "")))
+    if ss.get("transit_time_s") is not None:
+        facts.append(("Transit time", f"{duration(ss['transit_time_s'])} (electrons on the path / flux)"))
+    for key in ("method", "note"):
+        if ss.get(key):
+            facts.append((key.capitalize(), str(ss[key])))
+    if facts:
+        out.append(Facts(facts))
+    occ, sens = ss.get("occupancy") or {}, ss.get("sensitivity") or {}
+    sites = ss.get("sites") or list(res.wire.path)
+    if isinstance(occ, list):
+        occ = dict(zip(sites, occ))
+    if isinstance(sens, list):
+        sens = dict(zip(sites, sens))
+    uids = [u for u in res.wire.path if u in occ or u in sens]
+    if uids:
+        out.append(Table(["Cofactor", "Reduced fraction", "d log10 flux / dE (per V)"],
+                         [[names.get(u, u), _num(occ.get(u)), _num(sens.get(u), 2)] for u in uids],
+                         frozenset({1, 2}), "Occupancy of each site and the sensitivity of the flux to its potential"))
+    ctl = ss.get("control") or []
+    rows = []
+    if isinstance(ctl, dict):
+        rows = [[str(k), _num(v)] for k, v in ctl.items()]
+    else:
+        steps = ss.get("steps") or []
+        for k, c in enumerate(ctl):
+            if isinstance(c, dict):
+                rows.append([f"{names.get(c.get('donor'), c.get('donor'))} → "
+                             f"{names.get(c.get('acceptor'), c.get('acceptor'))}", _num(c.get("coefficient"))])
+            elif k < len(steps):
+                a, b = steps[k][:2]
+                rows.append([f"{names.get(a, a)} → {names.get(b, b)}", _num(c)])
+    if rows:
+        out.append(Table(["Step", "Flux control coefficient"], rows, frozenset({1}),
+                         "Share of the control of the flux held by each step (the coefficients sum to 1)"))
     return out
 
 
@@ -178,16 +380,40 @@ def _compare_times(summed: float | None, mfpt: float | None) -> str:
     return f" Here the mean first-passage time is {ratio:.2g} of the sum (parallel routes help)."
 
 
-def _pairs_table(res: ScanResult) -> Table:
+def _outside_blocks(res: ScanResult) -> list:
+    """Groups present in the file that the wire does not use, said as the terminal says them."""
+    items = []
+    if res.not_analysed:
+        items.append(("Not analysed (redox-active groups fescan does not model)", ", ".join(_not_analysed_words(res))))
+    for x in _off_wire(res):
+        items.append((f"Off the wire: {x.get('label', x.get('id'))}", f"{x.get('role', '')}: {x.get('reason', '')}"))
+    if not items:
+        return []
+    return [Heading(2, "Not analysed and off the wire", "outside"), Facts(items),
+            Paragraph("These groups are in the file but take no part in the wire: a chlorophyll or pheophytin "
+                      "chain, for instance, may carry electrons that the wire above does not show.")]
+
+
+def _pairs_table(res: ScanResult) -> list:
+    o = res.options
     rows = []
-    for r in res.pair_records():
+    recs = res.pair_records()
+    for r in recs:
+        if r["edge_distance"] > o.gap_limit:
+            continue
         a, b = res.cofactor(r["first"]), res.cofactor(r["second"])
         rows.append([a.label, b.label, f"{r['edge_distance']:.2f}", f"{r['centre_distance']:.2f}",
                      signed(r["dg_ev"], 3), number(r["log10_k_forward"]), number(r["log10_k_back"]),
-                     "gap" if r["gap"] else "", r["symmetry"] or ""])
-    return Table(["First", "Second", "Edge (Å)", "Centre (Å)", "ΔG (eV)", "log10 k", "log10 k back", "", "Symmetry"],
-                 rows, frozenset({2, 3, 4, 5, 6}),
-                 f"Every pair within {res.options.cutoff:g} Å edge to edge (ΔG and k from first to second)")
+                     r["symmetry"] or ""])
+    more = len(recs) - len(rows)
+    out: list = [Heading(2, "Cofactor pairs", "pairs")]
+    if rows:
+        out.append(Table(["First", "Second", "Edge (Å)", "Centre (Å)", "ΔG (eV)", "log10 k", "log10 k back",
+                          "Symmetry"], rows, frozenset({2, 3, 4, 5, 6}),
+                         f"Pairs within the {o.gap_limit:g} Å gap limit, edge to edge (ΔG and k from first to second)"))
+    out.append(Paragraph(f"{more} further pair{'s' * (more != 1)} between {o.gap_limit:g} and {o.cutoff:g} Å are in "
+                         "the JSON and table outputs." if more else f"No other pair within {o.cutoff:g} Å."))
+    return out
 
 
 def _packing_text(o) -> str:
@@ -197,15 +423,20 @@ def _packing_text(o) -> str:
     return f"{o.packing_density:g} for every hop"
 
 
-def _parameter_blocks(res: ScanResult) -> list:
+def _parameter_blocks(res: ScanResult, refs: References) -> list:
     o = res.options
+    law = refs.cite(RATE_LAW, RATE_LAW_1992)
     facts = Facts([
+        ("Rate law", f"log10 k = 13 − (1.2 − 0.8ρ)(R − 3.6) − 3.1(ΔG + λ)²/λ, R edge to edge (Å); uphill hops by "
+                     f"detailed balance at T {law}"),
         ("Reorganisation energy λ", f"{o.reorg:g} eV (per hop unless a user file gives values)"),
         ("Packing density ρ", _packing_text(o)),
-        ("Gap limit", f"{o.gap_limit:g} Å edge to edge"),
+        ("Gap limit", f"{o.gap_limit:g} Å edge to edge {refs.cite(RATE_LAW)}"),
         ("Pair cutoff", f"{o.cutoff:g} Å edge to edge"),
         ("Temperature", f"{o.temperature:g} K"),
         ("Turnover threshold", f"{o.rate_threshold:g} s⁻¹"),
+        ("Bond windows", f"reference windows {refs.cite(BOND_WINDOWS, CORE_GEOMETRY)} widened by 1.645 × √2 × "
+                         f"σ₁ for the coordinate error of the file {refs.cite(COORDINATE_ERROR)}"),
         ("Symmetry mates", "included" if o.symmetry else "not included (asymmetric unit only)"),
         ("Model and alternative locations", f"model {o.model}, altloc policy {o.altloc}"),
         ("Entry and exit", f"{o.entry or 'default'} → {o.exit or 'default'}"),
@@ -213,17 +444,26 @@ def _parameter_blocks(res: ScanResult) -> list:
     ])
     rows = []
     for c in res.cofactors:
-        p = res.potentials[c.uid]
-        rows.append([c.label, volts(p.e_v, 3), f"{volts(p.low_v, 3)} to {volts(p.high_v, 3)}", p.couple or "–",
-                     p.origin, p.status or "–", p.source])
-    pots = Table(["Cofactor", "E used", "Typical range", "Couple", "Origin", "Status", "Source"], rows,
+        p = res.potentials.get(c.uid)
+        if p is None:
+            continue
+        src = refs.cite(p.source) if p.origin == "default" else p.origin
+        step = getattr(p, "step", "")
+        couple = (p.couple or "–") + (f"; works at {step}" if step and step != "1e" else "")
+        rows.append([c.label, volts(p.e_v, 3), f"{volts(p.low_v, 3)} to {volts(p.high_v, 3)}", couple,
+                     p.status or "–", src])
+    pots = Table(["Cofactor", "E used", "Typical range", "Couple", "Status", "Source"], rows,
                  frozenset({1}), "Midpoint potentials (V vs SHE). Status FOUND: read in a source; "
-                 "MEMORY: given from memory, to be checked.")
+                 "MEMORY: given from memory, to be checked. Sources are listed under References.")
     return [Heading(2, "Parameters", "parameters"), facts, pots]
 
 
 def structure_document(res: ScanResult, svg: str) -> Document:
     """The report of one result as a :class:`~fescan.report.content.Document`.
+
+    A one-screen summary comes first (wire, transfer time with its interval,
+    bottleneck, problems), the details after it, and the sources of every default
+    once, numbered, at the end.
 
     Parameters
     ----------
@@ -235,16 +475,21 @@ def structure_document(res: ScanResult, svg: str) -> Document:
     -------
     Document
     """
+    refs = References()
+    interval = _time_interval(res)
     doc = Document(f"Electron relay report: {res.info.entry_id}")
-    doc.add(_structure_facts(res), Notice("Estimates, not measurements.", CAUTION))
-    doc.add(*_wire_blocks(res, svg))
+    doc.add(*_summary_blocks(res, refs, interval))
+    doc.add(*_wire_blocks(res, svg, refs, interval))
+    doc.add(*_outside_blocks(res))
     doc.add(Heading(2, "Cofactors", "cofactors"))
-    doc.add(_cofactor_table(res) if res.cofactors else Paragraph("No redox cofactors found."))
+    doc.add(_cofactor_table(res, refs) if res.cofactors else Paragraph("No redox cofactors found."))
     if res.cofactors:
         doc.add(Heading(2, "Ligands and checks", "checks"), *_details(res))
     if res.pairs:
-        doc.add(Heading(2, "Cofactor pairs", "pairs"), _pairs_table(res))
-    doc.add(*_parameter_blocks(res))
+        doc.add(*_pairs_table(res))
+    doc.add(*_parameter_blocks(res, refs))
+    doc.add(Heading(2, "Structure file", "file"), _structure_facts(res))
+    doc.add(*refs.blocks())
     return doc
 
 

@@ -10,6 +10,8 @@
     figures/nearest_neighbour.svg|.png   nearest-neighbour distance by class
     figures/rate_distance.svg|.png       log10 k against distance, Moser-Dutton curves
     figures/counts.svg|.png              cofactors per class, findings per flag
+    figures/bottlenecks.svg|.png         distance of every wire's slowest hop
+    figures/ligation_by_resolution.svg|.png   Fe-S clusters with a warning, by resolution
 """
 
 from __future__ import annotations
@@ -31,17 +33,19 @@ from fescan.core.version import __version__
 from fescan.report import style
 from fescan.report.content import Document, Facts, Figure, Heading, Notice, Paragraph, Run, Table
 from fescan.report.diagrams import (
+    bottleneck_figure,
     counts_figure,
     distance_by_class_figure,
+    ligation_by_resolution_figure,
     rate_distance_figure,
     save_figure,
 )
 from fescan.report.html import render_html
-from fescan.report.labels import number
-from fescan.report.text import format_time
+from fescan.report.labels import duration, number
 from fescan.transfer.rate_law import log10_hop_rate
 
-__all__ = ["read_survey_tables", "survey_parameters", "nearest_neighbours", "write_survey_report", "CURVE_DG_EV"]
+__all__ = ["read_survey_tables", "survey_parameters", "nearest_neighbours", "ligation_by_resolution", "write_survey_report",
+           "CURVE_DG_EV", "RESOLUTION_BINS"]
 
 log = logging.getLogger(__name__)
 
@@ -155,6 +159,47 @@ def _figures(t: dict[str, pd.DataFrame], opts: ScanOptions, fig_dir: Path) -> li
           for code, g in sorted(f.groupby("code"), key=lambda kv: (-len(kv[1]), kv[0]))]
     fig = counts_figure(cc, fc)
     out.append(("counts", save_figure(fig, fig_dir / "counts", salt="fescan-survey-counts")))
+
+    w = t["wires"]
+    has = w["n_hops"].fillna(0) > 0
+    fig = bottleneck_figure(w.loc[has, "bottleneck_edge_distance"].to_numpy(float), gap_limit=opts.gap_limit,
+                            n_without=int((~has).sum()))
+    out.append(("bottlenecks", save_figure(fig, fig_dir / "bottlenecks", salt="fescan-survey-bottleneck")))
+    fig = ligation_by_resolution_figure(ligation_by_resolution(t))
+    out.append(("ligation", save_figure(fig, fig_dir / "ligation_by_resolution", salt="fescan-survey-ligation")))
+    return out
+
+
+#: Resolution bins (Å) of the ligation figure: upper edges.
+RESOLUTION_BINS = (1.5, 2.0, 2.5, 3.0, 3.5)
+
+
+def ligation_by_resolution(t: dict[str, pd.DataFrame]) -> list[tuple[str, int, int]]:
+    """Fe-S clusters with at least one warning, per resolution bin.
+
+    Returns
+    -------
+    list of (label, clusters with a warning, clusters)
+        Bins ``≤ 1.5 Å``, ``1.5–2.0 Å``... ``> 3.5 Å`` and ``not given`` (NMR, EM without
+        resolution, models), only those holding a cluster.
+    """
+    c = t["cofactors"]
+    c = c[c["category"] == "iron-sulfur"]
+    if not len(c):
+        return []
+    res = t["structures"].drop_duplicates("file", keep="last").set_index("file")["resolution"]
+    r = c["file"].map(res).astype(float)
+    warned = c["n_warnings"].fillna(0).astype(int) > 0
+    edges = (0.0, *RESOLUTION_BINS, math.inf)
+    out = []
+    for lo, hi in zip(edges, edges[1:]):
+        inside = (r > lo) & (r <= hi)
+        if inside.any():
+            label = f"≤ {hi:g} Å" if lo == 0 else f"> {lo:g} Å" if math.isinf(hi) else f"{lo:g}–{hi:g} Å"
+            out.append((label, int((inside & warned).sum()), int(inside.sum())))
+    none = r.isna()
+    if none.any():
+        out.append(("not given", int((none & warned).sum()), int(none.sum())))
     return out
 
 
@@ -163,10 +208,20 @@ _CAPTIONS = {
                           "Edge-to-edge distance from every cofactor to its nearest partner, one row per class "
                           "(count in brackets). Dashed: the gap limit. Cofactors with no partner within the pair "
                           "cutoff are counted at the right."),
-    "rate_distance": ("Hop rate against distance",
-                      "log10 of the estimated rate of every pair in both directions (grey) and of the hops on "
-                      "relay paths (black), with Moser-Dutton curves for several driving forces; the top curve "
-                      "(ΔG = −λ) is the ceiling. Dashed: the gap limit; grey line: the turnover threshold."),
+    "rate_distance": ("The Moser-Dutton law, with this survey's hops placed on it",
+                      "Curves: the rate law (Page et al. 1999, Nature 402:47) for several driving forces; the top "
+                      "curve (ΔG = −λ) is its ceiling. Points: every pair in both directions (grey) and the hops on "
+                      "relay paths (black), each placed at its edge-to-edge distance with the rate the same law "
+                      "gives it. The points are computed from the law, so they lie within the curves by "
+                      "construction: the figure shows where the hops fall on the law, not a test of it. Dashed: the "
+                      "gap limit; grey line: the turnover threshold."),
+    "bottlenecks": ("Bottleneck distances",
+                    "Edge-to-edge distance of the slowest hop of every wire (1 Å bins). Hatched: bottlenecks over "
+                    "the gap limit (dashed), where the wire is broken or needs a cofactor fescan does not model."),
+    "ligation": ("Fe-S clusters with ligation problems, by resolution",
+                 "Share of iron-sulfur clusters with at least one ligation or geometry warning, per resolution "
+                 "bin (counts beside the bars). Bond windows widen with the coordinate error of each file, so "
+                 "a warning at low resolution means the bond lies outside what the data allow."),
     "counts": ("Cofactors and findings", "Cofactors per class, and findings of the ligation and geometry checks "
                "per flag code (filled: warnings, hatched: notes)."),
 }
@@ -224,8 +279,8 @@ def _structure_rows(t: dict[str, pd.DataFrame], survey_dir: Path, out_dir: Path)
         rows.append([first, val(srow, "entry_id"), val(srow, "title"), val(srow, "method"),
                      val(srow, "resolution", lambda x: f"{x:.2f}"), str(int(ncof.get(f, 0))),
                      val(wrow, "n_hops", lambda x: str(int(x))), val(wrow, "max_edge_distance", lambda x: number(x, 1)),
-                     val(wrow, "n_gaps", lambda x: str(int(x))), val(wrow, "summed_hop_time_s", format_time),
-                     val(wrow, "mean_first_passage_time_s", format_time), status])
+                     val(wrow, "n_gaps", lambda x: str(int(x))), val(wrow, "summed_hop_time_s", duration),
+                     val(wrow, "mean_first_passage_time_s", duration), status])
     return rows
 
 

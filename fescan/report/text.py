@@ -7,6 +7,7 @@ import re
 from collections import Counter
 
 from fescan.analysis.scan import CAUTION, ScanResult
+from fescan.cofactors.ligation import ligand_counts
 from fescan.transfer.distances import EDGE_CONVENTION
 
 __all__ = ["render_text", "format_time", "signed", "table", "strip_controls"]
@@ -72,8 +73,7 @@ def table(headers: list[str], rows: list[list[str]]) -> str:
 def _ligand_summary(c) -> str:
     if not c.ligands:
         return "-"
-    cnt = Counter(lig.kind for lig in c.ligands)
-    return ", ".join(f"{n}x {k}" if n > 1 else k for k, n in sorted(cnt.items()))
+    return ", ".join(f"{n}x {k}" if n > 1 else k for k, n in ligand_counts(c.ligands))
 
 
 def render_text(res: ScanResult, *, details: bool = True) -> str:
