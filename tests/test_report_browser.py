@@ -45,7 +45,8 @@ def test_structure_report_fits_1400_px_with_every_section(reports, key):
     assert [s for s in STRUCTURE_SECTIONS if s not in m["sections"]] == []
     assert m["sections"][0] == "summary"  # the one-screen summary comes first
     if key == "2FUG":
-        assert m["scrollHeight"] < 0.75 * OLD_2FUG_HEIGHT, m["scrollHeight"]
+        # shorter than before although steady-state, copies and notes sections were added
+        assert m["scrollHeight"] < 0.85 * OLD_2FUG_HEIGHT, m["scrollHeight"]
 
 
 def _text(html_path) -> str:
@@ -62,7 +63,7 @@ def test_2axt_report_says_what_is_not_analysed(reports):
     assert f"{res.not_analysed['PHO']} × " in text and "(PHO)" in text
     summary = html.read_text(encoding="utf-8").split('id="relay"')[0]
     assert "(CLA)" in summary  # said in the summary, not only in the details
-    assert res.wire.how_chosen in text
+    assert "photosystem II" in text and "QA" in text and "QB" in text  # the direction and why
 
 
 def test_sources_are_listed_once_and_cited_by_number(reports):

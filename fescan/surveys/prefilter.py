@@ -33,7 +33,9 @@ What the prefilter cannot see: a flavin or quinone under a private residue name
 from __future__ import annotations
 
 import gzip
+import os
 import re
+import stat
 from dataclasses import dataclass
 from functools import lru_cache
 from pathlib import Path
@@ -343,6 +345,8 @@ def can_hold_candidate(path: str | Path) -> Verdict:
         cofactor code.
     """
     try:
+        if not stat.S_ISREG(os.stat(path).st_mode):  # FIFO, device: never opened here; the reader refuses it
+            return Verdict(True, "not a regular file")
         text = b"".join(_chunks(Path(path)))
     except Exception as exc:  # OSError, EOFError, zlib or ISA-L errors: the full analysis reports them
         return Verdict(True, f"not readable by the prefilter ({type(exc).__name__})")
