@@ -162,6 +162,7 @@ def _analyse(path: str, options: dict[str, Any], report_dir: str | None,
         return _no_candidate(path, time.perf_counter() - t0)
     try:
         res = scan(path, **options)
+        res.path = label  # rows and reports name the file as the user gave it
         rows = result_rows(res)
     except MemoryError:
         raise  # the worker reports it (and is replaced)
