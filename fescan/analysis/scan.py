@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Any
 
+import gemmi
 import networkx as nx
 import numpy as np
 
@@ -177,16 +178,11 @@ class ScanResult:
         })
 
 
-def _deposited_coordinate_error(path: str) -> float | None:
+def _deposited_coordinate_error(stats: Any) -> float | None:
     """The overall coordinate error (Å) the file's header states, or ``None`` (widens the bond windows)."""
-    try:
-        from fescan.structure.refinement import read_refinement_stats
-    except ImportError:  # before the refinement-statistics reader: the header patterns of the uncertainty module
-        from fescan.transfer.uncertainty import _header_text, deposited_coordinate_error
-
-        return deposited_coordinate_error(_header_text(path, 2_000_000))
-    st = read_refinement_stats(path)
-    for v in (st.dpi_rfree, st.dpi_r, st.ml_error, st.luzzati_free, st.luzzati):
+    if stats is None:
+        return None
+    for v in (stats.dpi_rfree, stats.dpi_r, stats.ml_error, stats.luzzati_free, stats.luzzati):
         if v is not None and v > 0:
             return float(v)
     return None
@@ -225,7 +221,7 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
     cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution,
-                               coordinate_error=_deposited_coordinate_error(str(path)))
+                               coordinate_error=_deposited_coordinate_error(loaded.refinement))
     user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
     every_param = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
     roles = {c.key: every_param[c.uid].role for c in cofactors if every_param[c.uid].role}
@@ -289,7 +285,7 @@ def _file_notes(path, loaded, cofactors: list[Cofactor]) -> list[str]:
     """Cofactors the header names but the coordinates lack; other models holding cofactors."""
     notes: list[str] = []
     try:
-        notes += missing_cofactor_notes(path, loaded.model)
+        notes += missing_cofactor_notes(path, loaded.model, loaded.header_codes)
         if not cofactors and loaded.info.n_models > 1:
             others = {k: v for k, v in models_with_cofactors(path).items() if k != loaded.model_number}
             if others:
@@ -320,6 +316,7 @@ def _assembly_chains(st: Any) -> list[set[str]]:
 
 def _landmarks(model: Any) -> dict[str, np.ndarray]:
     """Atoms the context rules use (:mod:`fescan.transfer.context`): Trp side chains."""
-    pts = [(a.pos.x, a.pos.y, a.pos.z) for ch in model for res in ch if res.name == "TRP"
+    trp = gemmi.Selection("(TRP)").copy_model_selection(model)  # compiled: no loop over the whole model
+    pts = [(a.pos.x, a.pos.y, a.pos.z) for ch in trp for res in ch
            for a in res if a.name not in ("N", "CA", "C", "O", "CB")]
     return {"trp_side_chain": np.asarray(pts, dtype=float).reshape(-1, 3)}

@@ -27,11 +27,11 @@ def run(a: argparse.Namespace) -> int:
     """Run ``fescan scan``."""
     from fescan.analysis.scan import scan
     from fescan.report.text import render_text
-    from fescan.surveys.store import neutralise_csv
 
     res = scan(a.file, **wire_options(a))
     if a.csv:
         from fescan.analysis.tables import result_tables
+        from fescan.surveys.store import neutralise_csv  # pandas: loaded only for --csv
 
         out = Path(a.csv)
         try:

@@ -206,6 +206,7 @@ class ModelIndex:
         self._standard = std[inverse].reshape(-1)
         self.is_candidate = ~(std | skipped)[inverse].reshape(-1)
         self._rep_tree: cKDTree | None = None
+        self._pairs: list[tuple[str, gemmi.Residue]] | None = None
         self.hidden: frozenset[int] = frozenset()
 
     def hide(self, res_ids) -> None:
@@ -216,10 +217,22 @@ class ModelIndex:
 
     @property
     def residues(self) -> list[tuple[str, gemmi.Residue]]:
-        """``(chain name, gemmi residue)`` by residue index (built on first use)."""
-        if getattr(self, "_residues", None) is None:
-            self._residues = [res for ch in self._model for res in ch if len(res)]
-        return [(self._chain_names[int(self._chain_of[i])], r) for i, r in enumerate(self._residues)]
+        """``(chain name, gemmi residue)`` by residue index (built once, on first use)."""
+        if getattr(self, "_pairs", None) is None:
+            if getattr(self, "_residues", None) is None:
+                self._residues = [res for ch in self._model for res in ch if len(res)]
+            self._pairs = [(self._chain_names[int(self._chain_of[i])], r) for i, r in enumerate(self._residues)]
+        return self._pairs
+
+    def amino_acids_per_chain(self) -> dict[str, int]:
+        """Number of amino-acid residues (gemmi's table of components) in each chain."""
+        if not len(self._res_names):
+            return {}
+        names, inverse = np.unique(self._res_names.astype(str), return_inverse=True)
+        amino = np.asarray([(info := gemmi.find_tabulated_residue(n)) is not None and info.is_amino_acid()
+                            for n in names], dtype=bool)
+        counts = np.bincount(self._chain_of[amino[inverse.reshape(-1)]], minlength=len(self._chain_names))
+        return {self._chain_names[k]: int(n) for k, n in enumerate(counts) if n}
 
     @property
     def n_residues(self) -> int:

@@ -92,11 +92,13 @@ class _Builder(OrganicMixin):
         self.table = ccd_table()
         skip = frozenset(k for k, v in self.table.items() if v.category == "not analysed")
         self.index = ModelIndex(model, skip=skip)
-        self.states = find_alternative_states(self.index.residues, np.flatnonzero(self.index.is_candidate))
-        self.index.hide(st.res_id for group in self.states.values() for st in group[1:])
+        cand = self.index.candidates()
+        self.states = find_alternative_states(cand)
+        hidden = [st.res_id for group in self.states.values() for st in group[1:]]
+        self.index.hide(hidden)
         self.model_number = model_number
         self.margin = bond_margin(resolution, coordinate_error)
-        self.cand = self.index.candidates()
+        self.cand = cand.subset(np.flatnonzero(~np.isin(cand.res_id, hidden))) if hidden else cand
         self.by_res = _rows_by_residue(self.cand)
         self.cofactors: list[tuple[int, Cofactor]] = []
         self.pterin_codes = frozenset(k for k, v in self.table.items() if v.category == "pterin")
@@ -200,12 +202,7 @@ class _Builder(OrganicMixin):
     def chain_residues(self) -> dict[str, int]:
         """Amino-acid residues per chain of the model (counted once)."""
         if self._chain_len is None:
-            out: dict[str, int] = defaultdict(int)
-            for cname, res in self.index.residues:
-                info = gemmi.find_tabulated_residue(res.name)
-                if info is not None and info.is_amino_acid():
-                    out[cname] += 1
-            self._chain_len = dict(out)
+            self._chain_len = self.index.amino_acids_per_chain()
         return self._chain_len
 
     def _ligand_rows(self, ligands) -> list[int]:
@@ -351,7 +348,12 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    cofs = [with_states(cof, b.states, b.index.residues) for _, cof in b.cofactors]
+    kept = {}
+    if b.states:
+        c = b.cand
+        for r in np.flatnonzero(np.isin(c.res_id, list(b.states))):
+            kept.setdefault(int(c.res_id[r]), f"{c.chain[r]}/{int(c.seqnum[r])}{str(c.icode[r]).strip()} {c.resname[r]}")
+    cofs = [with_states(cof, b.states, kept) for _, cof in b.cofactors]
     return assign_roles(unique_keys(cofs))
 
 

@@ -12,7 +12,6 @@ instead of silently reporting fewer cofactors.
 from __future__ import annotations
 
 import gzip
-import re
 from collections import Counter
 from pathlib import Path
 
@@ -20,10 +19,10 @@ import gemmi
 
 from fescan.cofactors.metal_sites import METALS
 from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
+from fescan.structure.header_codes import codes_from_block, codes_from_pdb_header
 
 __all__ = ["cofactor_codes", "header_counts", "missing_cofactor_notes", "models_with_cofactors"]
 
-_FORMUL = re.compile(r"^FORMUL\s+\d+\s+(\S+)\s+(\*?)(\d+)?\(")
 
 
 def cofactor_codes() -> frozenset[str]:
@@ -54,6 +53,9 @@ def _is_cif(path: str | Path) -> bool:
 def header_counts(path: str | Path) -> dict[str, int | None]:
     """Hetero-group codes named in the header, with their count when the header gives one.
 
+    Reads the file; a scan takes the same counts from the reading instead
+    (:attr:`fescan.structure.reading.LoadedStructure.header_codes`).
+
     Parameters
     ----------
     path : str or Path
@@ -65,52 +67,22 @@ def header_counts(path: str | Path) -> dict[str, int | None]:
         Code → number of residues the header lists (``None``: named without a count).
     """
     if _is_cif(path):
-        return _cif_counts(path)
-    het: Counter = Counter()
-    formul: dict[str, int | None] = {}
-    named: set[str] = set()
+        try:
+            block = gemmi.cif.read(str(path)).sole_block()
+        except (RuntimeError, ValueError):
+            return {}
+        return codes_from_block(block)
+    lines = []
     with _open_text(path) as fh:
         for line in fh:
-            rec = line[:6]
-            if rec in ("ATOM  ", "HETATM", "MODEL "):
+            if line[:6] in ("ATOM  ", "HETATM", "MODEL "):
                 break
-            if rec == "HET   ":
-                het[line[7:10].strip()] += 1
-            elif rec == "FORMUL":
-                m = _FORMUL.match(line)
-                if m:
-                    formul[m.group(1)] = int(m.group(3)) if m.group(3) else None
-                else:
-                    parts = line[12:].split()
-                    if parts:
-                        formul.setdefault(parts[0], 1)
-            elif rec == "HETNAM":
-                code = line[11:14].strip()
-                if code:
-                    named.add(code)
-    out: dict[str, int | None] = dict.fromkeys(named)
-    out.update(formul)
-    out.update(het)
-    return out
+            lines.append(line)
+    return codes_from_pdb_header("".join(lines))
 
 
-def _cif_counts(path: str | Path) -> dict[str, int | None]:
-    try:
-        block = gemmi.cif.read(str(path)).sole_block()
-    except (RuntimeError, ValueError):
-        return {}
-    out: dict[str, int | None] = {}
-    for tag in ("_chem_comp.id", "_pdbx_entity_nonpoly.comp_id"):
-        for v in block.find_values(tag):
-            out[gemmi.cif.as_string(v)] = None
-    scheme = [gemmi.cif.as_string(v) for v in block.find_values("_pdbx_nonpoly_scheme.mon_id")]
-    if scheme:
-        for code, n in Counter(scheme).items():
-            out[code] = n
-    return out
-
-
-def missing_cofactor_notes(path: str | Path, model: gemmi.Model) -> list[str]:
+def missing_cofactor_notes(path: str | Path, model: gemmi.Model,
+                           counts: dict[str, int | None] | None = None) -> list[str]:
     """Notes for cofactor codes the header lists more often than the model holds them.
 
     Parameters
@@ -119,6 +91,8 @@ def missing_cofactor_notes(path: str | Path, model: gemmi.Model) -> list[str]:
         The file read (its header is parsed again).
     model : gemmi.Model
         The chosen model.
+    counts : dict of str to int or None, optional
+        The header's codes as the reader found them; read from ``path`` when absent.
 
     Returns
     -------
@@ -126,7 +100,7 @@ def missing_cofactor_notes(path: str | Path, model: gemmi.Model) -> list[str]:
         For example ``["the header lists SF4 ×2; the coordinates hold none"]``.
     """
     wanted = cofactor_codes()
-    listed = {k: v for k, v in header_counts(path).items() if k in wanted}
+    listed = {k: v for k, v in (header_counts(path) if counts is None else counts).items() if k in wanted}
     if not listed:
         return []
     held = Counter(res.name for ch in model for res in ch if res.name in listed)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections import defaultdict
+from collections.abc import Mapping
 from dataclasses import replace
 
 import gemmi
@@ -13,7 +14,7 @@ from fescan.core.records import Cofactor, Flag
 __all__ = ["with_states", "unique_keys", "count_not_analysed"]
 
 
-def with_states(cof: Cofactor, states: dict, residues: list) -> Cofactor:
+def with_states(cof: Cofactor, states: dict, keys: Mapping[int, str]) -> Cofactor:
     """Name the alternative states merged into this cofactor (see :mod:`fescan.cofactors.states`).
 
     Parameters
@@ -21,8 +22,9 @@ def with_states(cof: Cofactor, states: dict, residues: list) -> Cofactor:
     cof : Cofactor
     states : dict of int to list of AlternativeState
         From :func:`fescan.cofactors.states.find_alternative_states`.
-    residues : list of (str, gemmi.Residue)
-        The model index's residues (to name the kept residue).
+    keys : mapping of int to str
+        Residue index of each kept residue → its name as in
+        :attr:`fescan.core.records.Cofactor.residues` (``"A/501 CLF"``).
 
     Returns
     -------
@@ -34,8 +36,7 @@ def with_states(cof: Cofactor, states: dict, residues: list) -> Cofactor:
     labels = set(cof.residues)
     names: list[str] = []
     for kept, group in states.items():
-        cname, res = residues[kept]
-        if f"{cname}/{res.seqid.num}{res.seqid.icode.strip()} {res.name}" in labels:
+        if keys.get(kept) in labels:
             names += [st.label for st in group]
     if not names:
         return cof

@@ -45,14 +45,16 @@ def bond_graph(xyz: np.ndarray, element: np.ndarray) -> nx.Graph:
     g.add_nodes_from(idx)
     if len(idx) < 2:
         return g
-    sub = np.asarray(xyz, dtype=float)[idx]
+    rows = np.asarray(idx, dtype=np.intp)
+    sub = np.asarray(xyz, dtype=float)[rows]
     pairs = cKDTree(sub).query_pairs(_MAX_BOND, output_type="ndarray")
-    for a, b in pairs:
-        i, j = idx[a], idx[b]
-        d = float(np.linalg.norm(sub[a] - sub[b]))
-        heavy = element[i] in ("S", "P", "SE") or element[j] in ("S", "P", "SE")
-        if d < (1.9 if heavy else 1.75) and d > 0.9:
-            g.add_edge(i, j)
+    if not len(pairs):
+        return g
+    a, b = pairs[:, 0], pairs[:, 1]
+    d = np.linalg.norm(sub[a] - sub[b], axis=1)
+    heavy = np.isin(np.asarray(element, dtype=object)[rows], ("S", "P", "SE"))
+    ok = (d < np.where(heavy[a] | heavy[b], 1.9, 1.75)) & (d > 0.9)
+    g.add_edges_from(zip(rows[a[ok]].tolist(), rows[b[ok]].tolist()))
     return g
 
 
@@ -66,7 +68,17 @@ def small_rings(g: nx.Graph, sizes: tuple[int, ...] = (5, 6)) -> list[frozenset[
     max_size = max(sizes)
     rings: set[frozenset[int]] = set()
     adj = {n: set(g.neighbors(n)) for n in g.nodes}
-    for u, v in g.edges:
+    # rings lie in the 2-core: strip chain ends (tails of lipids, side groups) first
+    ends = [n for n, nb in adj.items() if len(nb) <= 1]
+    while ends:
+        n = ends.pop()
+        for m in adj.pop(n, ()):
+            nb = adj[m]
+            nb.discard(n)
+            if len(nb) == 1:
+                ends.append(m)
+    edges = [(u, v) for u, nb in adj.items() for v in nb if u < v]
+    for u, v in edges:
         parent = {u: None}
         frontier = [u]
         found = None

@@ -51,25 +51,17 @@ class AlternativeState:
 _METALS = frozenset({"FE", "NI", "MO", "V", "W", "CU", "MN", "CO", "ZN"})
 
 
-def _residue_arrays(residues, rid: int) -> tuple[np.ndarray, float, str, tuple]:
-    cname, res = residues[rid]
-    xyz = np.asarray([a.pos.tolist() for a in res], dtype=float).reshape(-1, 3)
-    occ = float(np.mean([a.occ for a in res])) if len(res) else 1.0
-    label = f"{res.name} {cname}/{res.seqid.num}{res.seqid.icode.strip()}"
-    metals = frozenset(a.element.name.upper() for a in res) & _METALS
-    kind = (metals,) if metals else (metals, res.name)  # metal-free twins must share their code
-    return xyz, occ, label, kind
-
-
-def find_alternative_states(residues, candidate_ids) -> dict[int, list[AlternativeState]]:
+def find_alternative_states(atoms, candidate_ids=None) -> dict[int, list[AlternativeState]]:
     """Group overlapping partial-occupancy residues into alternative states.
 
     Parameters
     ----------
-    residues : list of (str, gemmi.Residue)
-        :attr:`fescan.cofactors.atoms.ModelIndex.residues`.
-    candidate_ids : iterable of int
-        Indices of the non-standard residues to examine.
+    atoms : fescan.cofactors.atoms.AtomArrays
+        The atoms of the non-standard residues to examine (for example
+        :meth:`fescan.cofactors.atoms.ModelIndex.candidates`); rows of one residue
+        share ``res_id``.
+    candidate_ids : iterable of int, optional
+        Only these residues (``res_id`` values) are examined; all by default.
 
     Returns
     -------
@@ -77,17 +69,36 @@ def find_alternative_states(residues, candidate_ids) -> dict[int, list[Alternati
         Kept residue → every state of the group (the kept one first); a residue
         with no twin is absent.
     """
-    ids = [int(r) for r in candidate_ids]
-    data = {}
-    for rid in ids:
-        xyz, occ, label, kind = _residue_arrays(residues, rid)
-        if len(xyz) and occ <= _OCC_PARTIAL:
-            data[rid] = (xyz, occ, label, kind)
-    if len(data) < 2:
+    if not len(atoms):
         return {}
-    keys = list(data)
-    centres = np.asarray([data[k][0].mean(axis=0) for k in keys])
-    extent = max(float(np.max(np.linalg.norm(data[k][0] - centres[n], axis=1))) for n, k in enumerate(keys))
+    res_id = np.asarray(atoms.res_id, dtype=np.intp)
+    order = np.argsort(res_id, kind="stable")
+    ids, first, counts = np.unique(res_id[order], return_index=True, return_counts=True)
+    occ = np.add.reduceat(np.asarray(atoms.occ, dtype=float)[order], first) / counts
+    keep = occ <= _OCC_PARTIAL
+    if candidate_ids is not None:
+        keep &= np.isin(ids, np.fromiter((int(r) for r in candidate_ids), dtype=np.intp))
+    if int(keep.sum()) < 2:
+        return {}
+    sel = np.flatnonzero(keep)
+    starts, sizes = first[sel], counts[sel]
+    rows_all = order[np.concatenate([np.arange(a, a + n) for a, n in zip(starts.tolist(), sizes.tolist())])]
+    xyz_all = np.asarray(atoms.xyz, dtype=float)[rows_all]
+    offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]])
+    centres = np.add.reduceat(xyz_all, offsets, axis=0) / sizes[:, None]
+    spread = np.linalg.norm(xyz_all - np.repeat(centres, sizes, axis=0), axis=1)
+    extent = float(spread.max())
+    metal_row = np.isin(np.asarray(atoms.element, dtype=object)[rows_all], tuple(_METALS))
+    keys = [int(ids[k]) for k in sel]
+    data = {}
+    for n, key in enumerate(keys):
+        lo, hi = int(offsets[n]), int(offsets[n] + sizes[n])
+        r0 = int(rows_all[lo])
+        name = str(atoms.resname[r0])
+        label = f"{name} {atoms.chain[r0]}/{int(atoms.seqnum[r0])}{str(atoms.icode[r0]).strip()}"
+        metals = frozenset(str(e) for e in atoms.element[rows_all[lo:hi][metal_row[lo:hi]]])
+        kind = (metals,) if metals else (metals, name)  # metal-free twins must share their code
+        data[key] = (xyz_all[lo:hi], float(occ[sel[n]]), label, kind)
     tree = cKDTree(centres)
     parent = {k: k for k in keys}
 
@@ -97,7 +108,15 @@ def find_alternative_states(residues, candidate_ids) -> dict[int, list[Alternati
             k = parent[k]
         return k
 
-    for a, b in sorted(tree.query_pairs(r=2 * extent + OVERLAP_MAX)):
+    reach = np.maximum.reduceat(spread, offsets)  # each residue's own extent around its centre
+    pairs = tree.query_pairs(r=2 * extent + OVERLAP_MAX, output_type="ndarray")
+    if len(pairs):
+        pa, pb = pairs[:, 0], pairs[:, 1]
+        occ_sel = occ[sel]
+        near = np.linalg.norm(centres[pa] - centres[pb], axis=1) <= reach[pa] + reach[pb] + OVERLAP_MAX
+        summed = occ_sel[pa] + occ_sel[pb]
+        pairs = pairs[near & (summed >= _OCC_SUM[0]) & (summed <= _OCC_SUM[1])]
+    for a, b in sorted(map(tuple, pairs.tolist())):
         ka, kb = keys[a], keys[b]
         xa, oa, _, kind_a = data[ka]
         xb, ob, _, kind_b = data[kb]

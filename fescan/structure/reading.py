@@ -61,7 +61,7 @@ import logging
 import math
 import os
 import re
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -79,15 +79,20 @@ from fescan.structure.altlocs import (
     model_numbers,
     remove_empty_residues,
 )
-from fescan.structure.pdb_lines import check_pdb_records
+from fescan.structure.header_codes import codes_from_block, codes_from_pdb_header
+from fescan.structure.pdb_lines import screen_pdb_records
 from fescan.structure.rawtext import is_binary, normalise_text, read_text
+from fescan.structure.refinement import (
+    RefinementStats,
+    refinement_stats_from_block,
+    refinement_stats_from_text,
+)
 from fescan.structure.sanity import (
     check_cell,
     check_extent,
     check_metal_aggregates,
     check_residue_sizes,
     occupancy_notes,
-    pdb_occupancy_suspect,
 )
 
 __all__ = [
@@ -203,6 +208,11 @@ class LoadedStructure:
         when the file's model numbers are missing, repeated or not positive).
     info : StructureInfo
         Summary of the entry.
+    header_codes : dict of str to int or None
+        Hetero-group codes the file's header names, with their count when it
+        gives one (:mod:`fescan.structure.header_codes`).
+    refinement : RefinementStats or None
+        Refinement statistics of the header (:mod:`fescan.structure.refinement`).
     """
 
     path: str
@@ -210,6 +220,8 @@ class LoadedStructure:
     model: gemmi.Model
     model_number: int
     info: StructureInfo
+    header_codes: dict[str, int | None] = field(default_factory=dict)
+    refinement: RefinementStats | None = None
 
 
 def detect_format(data: str | bytes) -> str:
@@ -306,9 +318,9 @@ def read_structure(
     data, compressed = read_text(name)
     data, text_notes = normalise_text(data)
     file_format = _check_text(name, data)
-    st, block = _parse(name, data, file_format)
+    st, block, occupancy_suspect = _parse(name, data, file_format)
     notes = _file_notes(file_format, data) + text_notes
-    occupancy_suspect = file_format == "pdb" and pdb_occupancy_suspect(data)
+    header_codes, refinement = _header_facts(file_format, data, block)
     del data
 
     n_models = len(st)
@@ -369,8 +381,25 @@ def read_structure(
         info.n_atoms,
     )
     return LoadedStructure(
-        path=name, structure=st, model=chosen, model_number=numbers[index], info=info
+        path=name, structure=st, model=chosen, model_number=numbers[index], info=info,
+        header_codes=header_codes, refinement=refinement,
     )
+
+
+_FIRST_COORDINATE = re.compile(rb"^(?:ATOM  |HETATM|MODEL )", re.MULTILINE)
+
+
+def _header_facts(
+    file_format: str, data: bytes, block: gemmi.cif.Block | None
+) -> tuple[dict[str, int | None], RefinementStats]:
+    """Header codes and refinement statistics from what the reader holds (the file is not read again)."""
+    if block is not None:
+        stats = (refinement_stats_from_block(block) if file_format == "mmcif"
+                 else RefinementStats(file_format=file_format, notes=("refinement statistics are not read from mmJSON",)))
+        return codes_from_block(block), stats
+    m = _FIRST_COORDINATE.search(data)
+    head = (data[: m.start()] if m else data).decode("latin-1")
+    return codes_from_pdb_header(head), refinement_stats_from_text(head)
 
 
 # --- reading and recognising the bytes -------------------------------------------------
@@ -406,12 +435,13 @@ def _check_text(name: str, data: bytes) -> str:
 
 def _parse(
     name: str, data: bytes, file_format: str
-) -> tuple[gemmi.Structure, gemmi.cif.Block | None]:
-    """Parse with gemmi; return the structure and, for mmCIF/mmJSON, the block."""
+) -> tuple[gemmi.Structure, gemmi.cif.Block | None, bool]:
+    """Parse with gemmi; return the structure, the block (mmCIF/mmJSON) and whether a PDB occupancy is outside [0, 1]."""
     if data.startswith(_UTF8_BOM):
         data = data[len(_UTF8_BOM) :]
+    occupancy_suspect = False
     if file_format == "pdb":
-        check_pdb_records(name, data)
+        occupancy_suspect = screen_pdb_records(name, data)
         try:
             st = gemmi.read_pdb_string(data)
         except Exception as exc:  # gemmi raises RuntimeError/ValueError with its own text
@@ -440,7 +470,7 @@ def _parse(
                 f"{name}: malformed {label} file ({_gemmi_text(exc)})"
             ) from exc
     st.merge_chain_parts()  # as gemmi.read_structure does
-    return st, block
+    return st, block, occupancy_suspect
 
 
 def _gemmi_text(exc: BaseException) -> str:

@@ -24,7 +24,7 @@ from typing import Any
 
 import gemmi
 
-__all__ = ["RefinementStats", "read_refinement_stats", "refinement_stats_from_text"]
+__all__ = ["RefinementStats", "read_refinement_stats", "refinement_stats_from_block", "refinement_stats_from_text"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -206,6 +206,20 @@ def _from_cif(text: str) -> RefinementStats:
         block = gemmi.cif.read_string(head).sole_block()
     except (RuntimeError, ValueError) as exc:
         return RefinementStats(file_format="mmcif", notes=(f"mmCIF header not readable: {exc}",))
+    return refinement_stats_from_block(block)
+
+
+def refinement_stats_from_block(block: gemmi.cif.Block) -> RefinementStats:
+    """Refinement statistics from a parsed mmCIF block (the reader's, so the file is not read again).
+
+    Parameters
+    ----------
+    block : gemmi.cif.Block
+
+    Returns
+    -------
+    RefinementStats
+    """
     ref = _row(block, "_refine.")
     vals = {k: _cif_first(ref, tags) for k, tags in _CIF_REFINE.items()}
     reflns = _row(block, "_reflns.")

@@ -154,8 +154,9 @@ def check_metal_aggregates(name: str, model: gemmi.Model) -> None:
     from scipy.sparse.csgraph import connected_components
     from scipy.spatial import cKDTree
 
-    where = [(ch.name, res, atom) for ch in metals for res in ch for atom in res]
-    xyz = np.array([[a.pos.x, a.pos.y, a.pos.z] for _, _, a in where])
+    holder = gemmi.Structure()
+    holder.add_model(metals)
+    xyz = np.array(gemmi.FlatStructure(holder).pos, dtype=float).reshape(-1, 3)  # compiled: no atom loop
     pairs = cKDTree(xyz).query_pairs(METAL_CONTACT, output_type="ndarray")
     if len(pairs) < MAX_METAL_AGGREGATE:
         return
@@ -165,7 +166,9 @@ def check_metal_aggregates(name: str, model: gemmi.Model) -> None:
     big = int(np.argmax(sizes))
     if sizes[big] <= MAX_METAL_AGGREGATE:
         return
-    ch, res, atom = where[int(np.flatnonzero(labels == big)[0])]
+    first = int(np.flatnonzero(labels == big)[0])
+    ch, res, atom = next((c.name, r, a) for k, (c, r, a) in enumerate(
+        (c, r, a) for c in metals for r in c for a in r) if k == first)
     raise StructureFileError(
         f"{name}: {int(sizes[big])} metal atoms chained by contacts of {METAL_CONTACT:g} Å or less (from {atom.name} "
         f"of {res.name} {ch}/{res.seqid}): a metal lattice, not a cofactor (at most {MAX_METAL_AGGREGATE}); refused")

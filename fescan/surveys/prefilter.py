@@ -230,29 +230,34 @@ def _cif_loop_values(text: bytes) -> dict[str, set[str]] | None:
         return None  # a second _atom_site loop (several blocks)
     stop = _LOOP_END.search(text, pos - 1)
     body = np.frombuffer(text[pos:stop.start() + 1 if stop else len(text)] + b"\n", dtype=np.uint8)
-    ws = body <= 32
-    prev_ws = np.concatenate(([True], ws[:-1]))
-    starts = np.flatnonzero(~ws & prev_ws)
-    ends = np.flatnonzero(ws & ~prev_ws)
+    n_cols = len(names)
+    blank = np.concatenate(([True], body <= 32))
+    edges = np.flatnonzero(blank[1:] != blank[:-1])  # token starts and ends, alternating (body ends blank)
+    starts, ends = edges[0::2], edges[1::2]
     if len(starts) == 0:
         return {k: set() for k in _WANTED}
-    line_of = np.cumsum(body == 10, dtype=np.int32)[starts]
-    counts = np.bincount(line_of)
-    if not np.all((counts == 0) | (counts == len(names))):
+    if len(starts) % n_cols:
         return None
-    index = np.arange(len(starts)) - (np.cumsum(counts) - counts)[line_of]
+    # every row of n_cols tokens on a line of its own: then each line holds 0 or n_cols tokens
+    newlines = np.flatnonzero(body == 10)
+    first_line = np.searchsorted(newlines, starts[::n_cols])
+    last_line = np.searchsorted(newlines, ends[n_cols - 1::n_cols] - 1)
+    if not (np.array_equal(first_line, last_line) and np.all(np.diff(first_line) > 0)):
+        return None
     padded = np.concatenate((body, np.zeros(8, np.uint8)))
     out = {}
     for col in _WANTED:
         if col not in names:
             out[col] = set()
             continue
-        pick = index == names.index(col)
-        s0, width = starts[pick], (ends[pick] - starts[pick])[:, None]
+        k = names.index(col)
+        s0 = starts[k::n_cols]
+        width = (ends[k::n_cols] - s0)[:, None]
         raw = padded[s0[:, None] + np.arange(8)]
         raw[np.arange(8)[None, :] >= width] = 0
         long = width[:, 0] > 8
-        vals = {v.decode("ascii", "replace").strip("'\"") for v in np.unique(raw.view("S8").ravel())}
+        distinct = np.unique(raw.view(np.uint64).ravel()).astype(np.uint64).view("S8")  # same bytes, sorted fast
+        vals = {v.decode("ascii", "replace").strip("'\"") for v in distinct}
         if long.any():
             vals.add("<long>")
         out[col] = vals
