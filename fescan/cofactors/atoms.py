@@ -12,8 +12,8 @@ from functools import lru_cache
 
 import gemmi
 import numpy as np
-from scipy.spatial import cKDTree
 
+from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import AtomRef
 
 __all__ = ["STANDARD_RESIDUES", "WATER_NAMES", "AtomArrays", "ModelIndex", "index_model"]
@@ -205,7 +205,7 @@ class ModelIndex:
         skipped = np.asarray([n in skip for n in names], dtype=bool)
         self._standard = std[inverse].reshape(-1)
         self.is_candidate = ~(std | skipped)[inverse].reshape(-1)
-        self._rep_tree: cKDTree | None = None
+        self._rep_tree: NeighbourTree | None = None
         self._pairs: list[tuple[str, gemmi.Residue]] | None = None
         self.hidden: frozenset[int] = frozenset()
 
@@ -232,7 +232,11 @@ class ModelIndex:
         amino = np.asarray([(info := gemmi.find_tabulated_residue(n)) is not None and info.is_amino_acid()
                             for n in names], dtype=bool)
         counts = np.bincount(self._chain_of[amino[inverse.reshape(-1)]], minlength=len(self._chain_names))
-        return {self._chain_names[k]: int(n) for k, n in enumerate(counts) if n}
+        out: dict[str, int] = {}
+        for k, n in enumerate(counts.tolist()):  # two chains may share a name: count them together
+            if n:
+                out[self._chain_names[k]] = out.get(self._chain_names[k], 0) + n
+        return out
 
     @property
     def n_residues(self) -> int:
@@ -321,7 +325,7 @@ class ModelIndex:
         if len(points) == 0 or len(self.rep_xyz) == 0:
             return np.zeros(0, dtype=int)
         if self._rep_tree is None:
-            self._rep_tree = cKDTree(self.rep_xyz)
+            self._rep_tree = NeighbourTree(self.rep_xyz)
         hits = self._rep_tree.query_ball_point(np.asarray(points, dtype=float).reshape(-1, 3), r=radius)
         ids = {i for h in hits for i in h} - self.hidden
         return np.asarray(sorted(ids), dtype=int)

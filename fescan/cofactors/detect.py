@@ -26,7 +26,6 @@ from dataclasses import replace
 
 import gemmi
 import numpy as np
-from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays, ModelIndex
 from fescan.cofactors.inventory import count_not_analysed, unique_keys, with_states
@@ -50,6 +49,7 @@ from fescan.cofactors.registry import METAL_ION_CODES, ccd_table
 from fescan.cofactors.roles import assign_roles
 from fescan.cofactors.states import find_alternative_states
 from fescan.cofactors.subclasses import fes_pocket
+from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import Cofactor, Flag
 
 __all__ = ["find_cofactors", "count_not_analysed", "LOW_RESOLUTION_LIMIT"]
@@ -104,10 +104,10 @@ class _Builder(OrganicMixin):
         self.pterin_codes = frozenset(k for k, v in self.table.items() if v.category == "pterin")
         self.pterin_res: set[int] = set()
         self._chain_len: dict[str, int] | None = None
-        self._cand_tree = cKDTree(self.cand.xyz) if len(self.cand) else None
+        self._cand_tree = NeighbourTree(self.cand.xyz) if len(self.cand) else None
         self.env: AtomArrays | None = None
         self._env_key: dict[tuple[int, int], int] = {}
-        self._env_tree: cKDTree | None = None
+        self._env_tree: NeighbourTree | None = None
 
     def prepare_environment(self, points: np.ndarray, own: set[int] | None = None) -> None:
         """Extract, once, every residue near the given points (metal and heme Fe atoms).
@@ -126,14 +126,14 @@ class _Builder(OrganicMixin):
             ids.update(int(r) for r in own)
         ids -= self.index.hidden
         if len(self.cand):
-            tree = cKDTree(self.cand.xyz)
+            tree = NeighbourTree(self.cand.xyz)
             for hit in tree.query_ball_point(np.asarray(points, dtype=float), r=_ENV_ATOM_RADIUS):
                 ids.update(int(self.cand.res_id[j]) for j in hit)
         self.env = self.index.extract(np.asarray(sorted(ids), dtype=int))
         if self.env is not None and len(self.env):
             self._env_key = dict(zip(zip(self.env.res_id.tolist(), self.env.ordinal.tolist()),
                                      range(len(self.env))))
-            self._env_tree = cKDTree(self.env.xyz)
+            self._env_tree = NeighbourTree(self.env.xyz)
 
     # -- helpers ---------------------------------------------------------
     def _record(self, atoms: AtomArrays, atom_rows, redox_rows, name_row: int, **fields) -> Cofactor:

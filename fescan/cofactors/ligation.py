@@ -26,10 +26,10 @@ from dataclasses import dataclass
 
 import gemmi
 import numpy as np
-from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import WATER_NAMES, AtomArrays
 from fescan.cofactors.registry import bond_range
+from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import Flag, Ligand
 
 __all__ = [
@@ -108,7 +108,7 @@ def find_ligands(
     metal_rows: Iterable[int],
     core_rows: set[int],
     own_res_ids: set[int],
-    tree: cKDTree | None = None,
+    tree: NeighbourTree | None = None,
 ) -> tuple[list[tuple[int, Ligand]], list[tuple[int, int, float]]]:
     """Find the ligands of each metal atom and the clashes with the core.
 
@@ -122,8 +122,8 @@ def find_ligands(
         Rows of the site's core (metals and bridges): never ligands.
     own_res_ids : set of int
         Residue ids of the cofactor itself (their C atoms may ligate, e.g. CO/CN).
-    tree : scipy.spatial.cKDTree, optional
-        KD-tree over ``env.xyz`` (built when not given).
+    tree : fescan.core.neighbours.NeighbourTree, optional
+        Neighbour search over ``env.xyz`` (built when not given).
 
     Returns
     -------
@@ -131,7 +131,7 @@ def find_ligands(
     clashes : list of (core row, other row, distance)
     """
     if tree is None:
-        tree = cKDTree(env.xyz)
+        tree = NeighbourTree(env.xyz)
     ligands: list[tuple[int, Ligand]] = []
     ligand_rows: set[int] = set()
     for m in metal_rows:

@@ -14,9 +14,9 @@ from dataclasses import dataclass
 
 import networkx as nx
 import numpy as np
-from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays
+from fescan.core.neighbours import NeighbourTree
 
 __all__ = [
     "METALS",
@@ -56,7 +56,7 @@ class MetalSite:
     bonds: list[tuple[int, int]]
 
 
-def _inorganic_mask(atoms: AtomArrays, tree: cKDTree, near_metal: np.ndarray) -> np.ndarray:
+def _inorganic_mask(atoms: AtomArrays, tree: NeighbourTree, near_metal: np.ndarray) -> np.ndarray:
     """True for S/Se/C/N atoms near a metal with no organic neighbour within bonding distance.
 
     Only atoms within bridging distance of a metal (``near_metal``) are examined:
@@ -103,7 +103,7 @@ def find_metal_sites(
     seeds = np.flatnonzero(is_metal)
     if len(seeds) == 0:
         return []
-    tree = cKDTree(atoms.xyz)
+    tree = NeighbourTree(atoms.xyz)
     near = sorted({j for h in tree.query_ball_point(atoms.xyz[seeds], r=METAL_BRIDGE_MAX) for j in h})
     inorganic = _inorganic_mask(atoms, tree, np.asarray(near, dtype=int))
     g = nx.Graph()

@@ -15,10 +15,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays
 from fescan.cofactors.rings import pterin_atoms
+from fescan.core.neighbours import NeighbourTree
 
 __all__ = ["DITHIOLENE_MAX", "PTERIN_METALS", "BoundPterin", "bound_pterins"]
 
@@ -56,7 +56,7 @@ def bound_pterins(
     by_res: dict[int, np.ndarray],
     metal_rows: list[int],
     pterin_codes: frozenset[str],
-    tree: cKDTree | None = None,
+    tree: NeighbourTree | None = None,
 ) -> list[BoundPterin]:
     """Pterin residues whose S atoms lie within bonding distance of the given Mo/W atoms.
 
@@ -70,8 +70,8 @@ def bound_pterins(
         Rows of the site's Mo/W atoms in ``cand``.
     pterin_codes : frozenset of str
         CCD codes the packaged table files as pterins.
-    tree : cKDTree, optional
-        KD-tree over ``cand.xyz``.
+    tree : NeighbourTree, optional
+        Neighbour search over ``cand.xyz``.
 
     Returns
     -------
@@ -80,7 +80,7 @@ def bound_pterins(
     """
     if not metal_rows or len(cand) == 0:
         return []
-    tree = tree if tree is not None else cKDTree(cand.xyz)
+    tree = tree if tree is not None else NeighbourTree(cand.xyz)
     s_by_res: dict[int, set[int]] = {}
     for m in metal_rows:
         for j in tree.query_ball_point(cand.xyz[m], r=DITHIOLENE_MAX):

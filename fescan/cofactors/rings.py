@@ -8,7 +8,8 @@ from __future__ import annotations
 
 import networkx as nx
 import numpy as np
-from scipy.spatial import cKDTree
+
+from fescan.core.neighbours import NeighbourTree
 
 __all__ = [
     "bond_graph",
@@ -47,7 +48,7 @@ def bond_graph(xyz: np.ndarray, element: np.ndarray) -> nx.Graph:
         return g
     rows = np.asarray(idx, dtype=np.intp)
     sub = np.asarray(xyz, dtype=float)[rows]
-    pairs = cKDTree(sub).query_pairs(_MAX_BOND, output_type="ndarray")
+    pairs = NeighbourTree(sub).query_pairs(_MAX_BOND, output_type="ndarray")
     if not len(pairs):
         return g
     a, b = pairs[:, 0], pairs[:, 1]

@@ -18,7 +18,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import cKDTree
+
+from fescan.core.neighbours import NeighbourTree
 
 __all__ = ["OVERLAP_MAX", "AlternativeState", "find_alternative_states"]
 
@@ -99,7 +100,7 @@ def find_alternative_states(atoms, candidate_ids=None) -> dict[int, list[Alterna
         metals = frozenset(str(e) for e in atoms.element[rows_all[lo:hi][metal_row[lo:hi]]])
         kind = (metals,) if metals else (metals, name)  # metal-free twins must share their code
         data[key] = (xyz_all[lo:hi], float(occ[sel[n]]), label, kind)
-    tree = cKDTree(centres)
+    tree = NeighbourTree(centres)
     parent = {k: k for k in keys}
 
     def find(k: int) -> int:
@@ -123,7 +124,7 @@ def find_alternative_states(atoms, candidate_ids=None) -> dict[int, list[Alterna
         if kind_a != kind_b or not _OCC_SUM[0] <= oa + ob <= _OCC_SUM[1]:
             continue
         small, big = (xa, xb) if len(xa) <= len(xb) else (xb, xa)
-        d, _ = cKDTree(big).query(small, k=1)
+        d, _ = NeighbourTree(big).query(small, k=1)
         if np.mean(d <= OVERLAP_MAX) >= _OVERLAP_FRACTION:
             parent[find(kb)] = find(ka)
     groups: dict[int, list[int]] = {}

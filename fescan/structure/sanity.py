@@ -143,7 +143,7 @@ def check_metal_aggregates(name: str, model: gemmi.Model) -> None:
 
     Cheap for real entries: the metal atoms are copied out by gemmi (C++), and only
     when there are more than MAX_METAL_AGGREGATE of them are their contacts looked at
-    (a k-d tree, then connected components).
+    (a neighbour grid, then connected components).
     """
     metals = _METALS.copy_model_selection(model)
     n = metals.count_atom_sites()
@@ -152,12 +152,13 @@ def check_metal_aggregates(name: str, model: gemmi.Model) -> None:
     import numpy as np
     from scipy.sparse import coo_matrix
     from scipy.sparse.csgraph import connected_components
-    from scipy.spatial import cKDTree
+
+    from fescan.core.neighbours import NeighbourTree
 
     holder = gemmi.Structure()
     holder.add_model(metals)
     xyz = np.array(gemmi.FlatStructure(holder).pos, dtype=float).reshape(-1, 3)  # compiled: no atom loop
-    pairs = cKDTree(xyz).query_pairs(METAL_CONTACT, output_type="ndarray")
+    pairs = NeighbourTree(xyz).query_pairs(METAL_CONTACT, output_type="ndarray")
     if len(pairs) < MAX_METAL_AGGREGATE:
         return
     graph = coo_matrix((np.ones(len(pairs), dtype=np.int8), (pairs[:, 0], pairs[:, 1])), shape=(n, n))

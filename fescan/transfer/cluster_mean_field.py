@@ -17,7 +17,6 @@ mean-field; the start is the independent-site solution
 from __future__ import annotations
 
 import numpy as np
-from scipy import optimize
 
 from fescan.core.errors import ConfigError
 from fescan.transfer.occupancy import (
@@ -184,6 +183,8 @@ def solve_cluster_mean_field(net: KineticNetwork, start: list[np.ndarray], block
             x = g
     # slow modes left: a Newton-type solve of G(x) - x = 0 (MINPACK hybrid, finite-difference
     # Jacobian) from the last iterate
+    from scipy import optimize  # the fallback solver: loaded only when the sweep does not settle
+
     sol = optimize.root(lambda z: _log_ratios(_sweep(net, blocks, _from_log_ratios(z, caps))[0]) - z,
                         x, method="hybr", options={"xtol": 1e-13})
     dist, joint = _sweep(net, blocks, _from_log_ratios(sol.x, caps))

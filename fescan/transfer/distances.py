@@ -1,7 +1,7 @@
-"""Distances between cofactors: edge-to-edge and centre-to-centre, with a KD-tree.
+"""Distances between cofactors: edge-to-edge and centre-to-centre, with a neighbour grid.
 
 Edge-to-edge is the smallest distance between the redox-active atom sets of two
-cofactors; centre-to-centre joins their centroids. A KD-tree (scipy's cKDTree)
+cofactors; centre-to-centre joins their centroids. A neighbour grid (:class:`fescan.core.neighbours.NeighbourTree`)
 over the cofactor centres finds the pairs that can come within the cutoff, and
 only those pairs' small redox-atom sets are compared: never all atoms x all atoms. gemmi's neighbour grid is
 not used here: its grid spans the unit cell or bounding box, which can take
@@ -18,8 +18,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.spatial import cKDTree
 
+from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import Cofactor
 
 __all__ = ["EDGE_ATOMS", "EDGE_CONVENTION", "Pair", "edge_atoms", "redox_coordinates", "edge_distance",
@@ -110,7 +110,7 @@ def edge_distance(a: np.ndarray, b: np.ndarray) -> float:
     >>> edge_distance(np.zeros((1, 3)), np.array([[3.0, 4.0, 0.0], [9.0, 0, 0]]))
     5.0
     """
-    d, _ = cKDTree(np.asarray(b, dtype=float)).query(np.asarray(a, dtype=float), k=1)
+    d, _ = NeighbourTree(np.asarray(b, dtype=float)).query(np.asarray(a, dtype=float), k=1)
     return float(np.min(d))
 
 
@@ -131,7 +131,7 @@ def _closest(coords: list[np.ndarray], cutoff: float):
         return {}
     centres = np.array([c.mean(axis=0) for c in coords])
     radii = np.array([np.max(np.linalg.norm(c - m, axis=1)) for c, m in zip(coords, centres)])
-    reach = cKDTree(centres).query_pairs(cutoff + 2 * float(radii.max()), output_type="ndarray")
+    reach = NeighbourTree(centres).query_pairs(cutoff + 2 * float(radii.max()), output_type="ndarray")
     out = {}
     for i, j in sorted(map(tuple, reach)):
         i, j = (int(i), int(j)) if i < j else (int(j), int(i))
@@ -211,7 +211,7 @@ def _add_symmetry_pairs(pairs, coords, offsets, names, cutoff, cell, ops) -> Non
     fracs = [to_frac(c) for c in coords]
     centres = [c.mean(axis=0) for c in coords]
     radii = [float(np.max(np.linalg.norm(c - m, axis=1))) for c, m in zip(coords, centres)]
-    trees = [cKDTree(c) for c in coords]
+    trees = [NeighbourTree(c) for c in coords]
     cen_frac = [f.mean(axis=0) for f in fracs]
     n = len(coords)
     for op in ops:

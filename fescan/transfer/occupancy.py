@@ -28,13 +28,9 @@ Mean-field (independent-site) approximation
 
 from __future__ import annotations
 
-import warnings
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from fescan.core.errors import ConfigError
 
@@ -210,21 +206,27 @@ def _stationary(net: KineticNetwork, space: StateSpace, reference: int):
         np.add.at(mt, (space.src, space.src), -space.rate)
         a = mt[keep][:, keep]
         rhs = -mt[keep, reference]
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", scipy.linalg.LinAlgWarning)
-            lu_piv = scipy.linalg.lu_factor(a, check_finite=False)
-        if not np.all(np.isfinite(lu_piv[0])) or np.any(np.diag(lu_piv[0]) == 0.0):
+        if not np.all(np.isfinite(a)):
             raise ConfigError("the kinetic network is not connected (singular master equation)")
+        at = np.ascontiguousarray(a.T)
 
         def solve(b: np.ndarray, trans: str = "N") -> np.ndarray:
-            return scipy.linalg.lu_solve(lu_piv, b, trans=0 if trans == "N" else 1)
+            # LU with partial pivoting (numpy's LAPACK gesv), as a dense block is small
+            try:
+                return np.linalg.solve(a if trans == "N" else at, b)
+            except np.linalg.LinAlgError:
+                raise ConfigError("the kinetic network is not connected (singular master equation)") from None
     else:
+        import scipy.sparse as sp  # large networks only: loaded on use
+
         gen = sp.csr_matrix((space.rate, (space.src, space.dst)), shape=(n, n))
         out = np.asarray(gen.sum(axis=1)).ravel()
         mts = (gen - sp.diags(out)).T.tocsc()
         a = mts[keep][:, keep].tocsc()
         rhs = -np.asarray(mts[keep][:, [reference]].todense()).ravel()
         try:
+            import scipy.sparse.linalg as spla  # large networks only: loaded on use
+
             lu = spla.splu(a)
         except RuntimeError as exc:  # singular: some states cannot reach the others
             raise ConfigError(f"the kinetic network is not connected (singular master equation: {exc})") from None

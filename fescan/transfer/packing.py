@@ -47,10 +47,10 @@ from typing import Any
 
 import gemmi
 import numpy as np
-from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import WATER_NAMES, index_model
 from fescan.core.errors import ConfigError
+from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import Cofactor
 from fescan.transfer.distances import Pair, redox_coordinates
 from fescan.transfer.rate_law import DEFAULT_PACKING_DENSITY
@@ -200,7 +200,7 @@ def _inside_any(points: np.ndarray, xyz: np.ndarray, radius: np.ndarray) -> np.n
         return inside
     for r in np.unique(radius):
         sel = xyz[radius == r]
-        d, _ = cKDTree(sel).query(points, k=1, distance_upper_bound=float(r))
+        d, _ = NeighbourTree(sel).query(points, k=1, distance_upper_bound=float(r))
         inside |= d <= r
     return inside
 
@@ -257,7 +257,7 @@ def packing_between(
     _check(radius, spacing)
     dx = np.asarray(donor_xyz, dtype=float).reshape(-1, 3)
     ax = np.asarray(acceptor_xyz, dtype=float).reshape(-1, 3)
-    d, k = cKDTree(ax).query(dx, k=1)
+    d, k = NeighbourTree(ax).query(dx, k=1)
     i = int(np.argmin(d))
     a, b = dx[i], ax[int(k[i])]
     length = float(d[i])
@@ -303,12 +303,12 @@ def pair_packing(
     """
     dx, dr = _redox(donor)
     ax, ar = _redox(acceptor)
-    d, k = cKDTree(ax).query(dx, k=1)
+    d, k = NeighbourTree(ax).query(dx, k=1)
     i = int(np.argmin(d))
     xyz, rad, water = medium.near(dx[i], ax[int(k[i])], float(kwargs.get("radius", 3.0)) + _MAX_RADIUS)
     keep = np.ones(len(xyz), dtype=bool) if include_water else ~water
     if len(xyz):
-        dd, _ = cKDTree(np.concatenate([dx, ax])).query(xyz, k=1)
+        dd, _ = NeighbourTree(np.concatenate([dx, ax])).query(xyz, k=1)
         keep &= dd > _SAME_ATOM
     return packing_between(xyz[keep], rad[keep], dx, dr, ax, ar, **kwargs)
 

@@ -25,15 +25,18 @@ References
 from __future__ import annotations
 
 import math
+import sys
 from collections import deque
 from collections.abc import Callable, Iterable
+from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from fescan.core.constants import DEFAULT_TEMPERATURE_K, FARADAY_C_PER_MOL, kt_ln10_ev
 from fescan.core.errors import ConfigError
+
+if TYPE_CHECKING:
+    import scipy.sparse as sp
 
 __all__ = [
     "CONTACT_DISTANCE",
@@ -410,9 +413,17 @@ def _state_set(value: int | Iterable[int], n: int, name: str) -> list[int]:
     return out
 
 
+def _is_sparse(x: object) -> bool:
+    """A scipy sparse matrix or array (scipy is never loaded just to ask)."""
+    mod = sys.modules.get("scipy.sparse")
+    return mod is not None and bool(mod.issparse(x))
+
+
 def _offdiagonal_rates(rates: object) -> sp.csr_matrix | np.ndarray:
     """Return the off-diagonal rate matrix (diagonal set to 0), checked, sparse or dense."""
-    if sp.issparse(rates):
+    if _is_sparse(rates):
+        import scipy.sparse as sp
+
         mat = sp.coo_matrix(rates, dtype=float)
         if mat.ndim != 2 or mat.shape[0] != mat.shape[1]:
             raise ConfigError(f"rates must be a square matrix; got shape {mat.shape}")
@@ -450,6 +461,12 @@ def _reach(
                 seen.add(j)
                 queue.append(j)
     return seen
+
+
+def _dense_graph(w: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """CSR-style (indptr, indices) of the non-zero entries of a dense matrix."""
+    rows, cols = np.nonzero(w)
+    return np.searchsorted(rows, np.arange(w.shape[0] + 1)), cols
 
 
 def mean_first_passage_time(
@@ -502,7 +519,7 @@ def mean_first_passage_time(
     >>> mean_first_passage_time([[0.0, 1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 0.0]], 0, 2)
     inf
     """
-    use_sparse = sp.issparse(rates)
+    use_sparse = _is_sparse(rates)
     w = _offdiagonal_rates(rates)
     n = w.shape[0]
     if n == 0:
@@ -515,25 +532,39 @@ def mean_first_passage_time(
     if s in absorb:
         return 0.0
 
-    csr = w if sp.issparse(w) else sp.csr_matrix(w)
-    csr.eliminate_zeros()
-    transient = _reach(csr.indptr, csr.indices, [s], absorb) - absorb
-    back = csr.T.tocsr()
-    can_exit = _reach(back.indptr, back.indices, absorb, set())
+    if not use_sparse and n > _SPARSE_THRESHOLD:
+        import scipy.sparse as sp
+
+        w = sp.csr_matrix(w)
+        use_sparse = True
+    if use_sparse:
+        csr = w
+        csr.eliminate_zeros()
+        back = csr.T.tocsr()
+        forward_graph = (csr.indptr, csr.indices)
+        backward_graph = (back.indptr, back.indices)
+    else:  # a small dense matrix: the same graphs and solve in numpy
+        forward_graph = _dense_graph(w)
+        backward_graph = _dense_graph(w.T)
+    transient = _reach(*forward_graph, [s], absorb) - absorb
+    can_exit = _reach(*backward_graph, absorb, set())
     if not transient <= can_exit:
         return math.inf
 
     idx = np.fromiter(sorted(transient), dtype=np.intp)
     pos = int(np.searchsorted(idx, s))
-    sub = csr[idx][:, idx]
-    exit_rate = np.asarray(csr[idx].sum(axis=1)).ravel()  # all hops out, incl. to absorbing
-    scale = sp.diags(1.0 / exit_rate)
-    a = (sp.identity(idx.size, format="csr") - scale @ sub).tocsc()
-    b = 1.0 / exit_rate
-    if use_sparse or n > _SPARSE_THRESHOLD:
-        tau = spla.spsolve(a, b)
+    if use_sparse:
+        import scipy.sparse as sp
+        import scipy.sparse.linalg as spla  # large networks only: loaded on use
+
+        sub = csr[idx][:, idx]
+        exit_rate = np.asarray(csr[idx].sum(axis=1)).ravel()  # all hops out, incl. to absorbing
+        a = (sp.identity(idx.size, format="csr") - sp.diags(1.0 / exit_rate) @ sub).tocsc()
+        tau = spla.spsolve(a, 1.0 / exit_rate)
     else:
-        tau = np.linalg.solve(a.toarray(), b)
+        sub = w[np.ix_(idx, idx)]
+        exit_rate = w[idx].sum(axis=1)  # all hops out, incl. to absorbing
+        tau = np.linalg.solve(np.eye(idx.size) - sub / exit_rate[:, None], 1.0 / exit_rate)
     return float(np.atleast_1d(tau)[pos])
 
 

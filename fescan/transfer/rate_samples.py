@@ -25,8 +25,8 @@ from typing import Any
 
 import networkx as nx
 import numpy as np
-from scipy.spatial import cKDTree
 
+from fescan.core.neighbours import NeighbourTree
 from fescan.transfer.coordinate_error import CoordinateError
 from fescan.transfer.rate_law import log10_hop_rate
 
@@ -221,7 +221,7 @@ def summed_path_time_of(sample: RateSample) -> float:
 
 
 def _closest(da: np.ndarray, aa: np.ndarray) -> tuple[int, int]:
-    d, k = cKDTree(aa).query(da, k=1)
+    d, k = NeighbourTree(aa).query(da, k=1)
     i = int(np.argmin(d))
     return i, int(k[i])
 
