@@ -60,7 +60,8 @@ def test_same_tables_in_the_same_row_order(fresh):
             continue
         a = pd.read_parquet(ROOT / "reports" / f"{name}.parquet")
         b = pd.read_parquet(fresh / f"{name}.parquet")
-        pd.testing.assert_frame_equal(a, b, check_exact=False, rtol=1e-9, obj=name)
+        # 1e-6: an ill-conditioned first-passage time (the gap demo, 176 s) moves by ~1e-8 with the BLAS
+        pd.testing.assert_frame_equal(a, b, check_exact=False, rtol=1e-6, obj=name)
 
 
 def _split_numbers(text: str) -> tuple[list[str], list[float]]:

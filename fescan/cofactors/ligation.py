@@ -134,8 +134,10 @@ def find_ligands(
         tree = NeighbourTree(env.xyz)
     ligands: list[tuple[int, Ligand]] = []
     ligand_rows: set[int] = set()
-    for m in metal_rows:
-        for j in tree.query_ball_point(env.xyz[m], r=3.0):
+    metals = [int(m) for m in metal_rows]
+    near_metal = tree.query_ball_point(env.xyz[metals].reshape(-1, 3), r=3.0) if metals else []
+    for m, hits in zip(metals, near_metal):  # one batched search for every metal of the site
+        for j in hits:
             if j in core_rows:
                 continue
             e = env.element[j]
@@ -153,8 +155,10 @@ def find_ligands(
             ligand_rows.add(j)
     ligands.sort(key=lambda t: (t[1].metal, t[1].distance))
     clashes = []
-    for c in sorted(core_rows):
-        for j in tree.query_ball_point(env.xyz[c], r=CLASH_MAX):
+    core = sorted(int(c) for c in core_rows)
+    near_core = tree.query_ball_point(env.xyz[core].reshape(-1, 3), r=CLASH_MAX) if core else []
+    for c, hits in zip(core, near_core):
+        for j in hits:
             if j in core_rows or j in ligand_rows or int(env.res_id[j]) in own_res_ids:
                 continue
             clashes.append((c, j, float(np.linalg.norm(env.xyz[c] - env.xyz[j]))))

@@ -82,8 +82,9 @@ def bound_pterins(
         return []
     tree = tree if tree is not None else NeighbourTree(cand.xyz)
     s_by_res: dict[int, set[int]] = {}
-    for m in metal_rows:
-        for j in tree.query_ball_point(cand.xyz[m], r=DITHIOLENE_MAX):
+    metals = [int(m) for m in metal_rows]
+    for m, hits in zip(metals, tree.query_ball_point(cand.xyz[metals].reshape(-1, 3), r=DITHIOLENE_MAX)):
+        for j in hits:
             if cand.element[j] == "S" and np.linalg.norm(cand.xyz[j] - cand.xyz[m]) <= DITHIOLENE_MAX:
                 s_by_res.setdefault(int(cand.res_id[j]), set()).add(int(j))
     out = []

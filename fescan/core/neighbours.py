@@ -20,6 +20,7 @@ import numpy as np
 __all__ = ["NeighbourTree"]
 
 _BRUTE_CELLS = 4_000_000  # query x point distances computed at once by the unbounded nearest search
+_BRUTE_PAIRS = 200_000  # below this many query x point pairs, no grid is built
 _OFFSETS = np.array([(i, j, k) for i in (-1, 0, 1) for j in (-1, 0, 1) for k in (-1, 0, 1)], dtype=np.int64)
 
 
@@ -92,6 +93,10 @@ class NeighbourTree:
         if not self.n or not len(points) or not r >= 0:
             empty = np.zeros(0, dtype=np.intp)
             return empty, empty, np.zeros(0)
+        if len(points) * self.n <= _BRUTE_PAIRS:  # few points: every distance at once beats the grid
+            dist = np.sqrt(((points[:, None, :] - self.data[None, :, :]) ** 2).sum(axis=2))
+            q, p = np.nonzero(dist <= r)  # by query, then point
+            return q, p, dist[q, p]
         q, p = self._grid(r).candidates(points)
         d = np.sqrt(((points[q] - self.data[p]) ** 2).sum(axis=1))
         keep = d <= r
