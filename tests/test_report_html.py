@@ -111,7 +111,7 @@ def test_report_of_a_real_entry_says_what_it_must(tmp_path):
                  "Gap limit", "Temperature", "Symmetry mates", "not included (asymmetric unit only)", "FOUND",
                  "MEMORY", "default"):
         assert text in html, text
-    # the two transfer times are both printed, with the wire's meaning (fescan/wire.py docstring)
+    # the two transfer times are both printed, with the wire's meaning (fescan/transfer/paths.py docstring)
     assert "first-passage" in wire_module.__doc__ and "back" in html and "forward" in html
     assert '<svg' in html and "<?xml" not in html and "<!DOCTYPE svg" not in html  # SVG inlined cleanly
 

@@ -622,9 +622,9 @@ def compare(
     distance_tolerance : float, optional
         Hops whose R differs by less (Å), with equal ΔG, count as unchanged (default 0.05).
     measure_packing : bool, optional
-        Also measure ρ of every hop in both structures (:mod:`fescan.packing`).
+        Also measure ρ of every hop in both structures (:mod:`fescan.transfer.packing`).
     **options
-        :class:`fescan.options.ScanOptions` fields for both scans; ``entry`` and
+        :class:`fescan.core.options.ScanOptions` fields for both scans; ``entry`` and
         ``exit`` name cofactors of the *reference*.
 
     Returns
@@ -633,7 +633,7 @@ def compare(
 
     Raises
     ------
-    fescan.errors.FescanError
+    fescan.core.errors.FescanError
         A file is unreadable (the message names it), an option is invalid, or a
         reference endpoint does not exist.
     """

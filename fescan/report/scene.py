@@ -1,6 +1,6 @@
 """What a relay diagram shows, decided without drawing: nodes, links, labels and ids.
 
-:func:`build_scene` turns a :class:`~fescan.scan.ScanResult` into a
+:func:`build_scene` turns a :class:`~fescan.analysis.scan.ScanResult` into a
 :class:`Scene` of plain records: every cofactor as a node at its projected
 position with its glyph and label, and every line as a link (relay-path hop,
 gap, other pair within the gap limit, nearest partner of an isolated cofactor)

@@ -57,7 +57,7 @@ log = logging.getLogger(__name__)
 #: File names written by :func:`write_report`, in the order returned.
 REPORT_FILES = ("report.html", "report.md", "wire.svg", "wire.png")
 
-#: What the two transfer times mean (model estimates, see fescan.wire).
+#: What the two transfer times mean (model estimates, see fescan.transfer.paths).
 TIMES_EXPLAINED = (
     "Two transfer times are given, both model estimates. The sum of hop times adds 1/k of each forward "
     "hop along the fastest path: an electron that never steps back. The mean first-passage time is the "
@@ -510,7 +510,7 @@ def write_report(result: ScanResult, out_dir: str | Path) -> list[Path]:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         The folder cannot be created or written.
     """
     out = Path(out_dir)

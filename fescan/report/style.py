@@ -163,7 +163,7 @@ def glyph_for(category: str, cls: str) -> Glyph:
     Parameters
     ----------
     category : str
-        Cofactor category (:data:`fescan.model.CATEGORIES`).
+        Cofactor category (:data:`fescan.core.records.CATEGORIES`).
     cls : str
         Cofactor class (``"[4Fe-4S]"``, ``"FMN"``...).
 

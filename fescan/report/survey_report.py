@@ -2,7 +2,7 @@
 
 :func:`write_survey_report` reads the merged survey tables of a folder
 (``<name>.parquet`` or ``<name>.csv`` for the tables of
-:data:`fescan.tables.SCHEMAS`), draws three figures and writes
+:data:`fescan.analysis.tables.SCHEMAS`), draws three figures and writes
 ``index.html``, which links the per-structure reports found under
 ``structures/<stem>/report.html`` and lists the failures::
 
@@ -58,7 +58,7 @@ def read_survey_tables(survey_dir: str | os.PathLike[str]) -> dict[str, pd.DataF
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         The folder does not exist, holds no survey table, or a table cannot be read
         or lacks declared columns (the message names the file).
     """
@@ -301,7 +301,7 @@ def write_survey_report(survey_dir: str | os.PathLike[str], out_dir: str | os.Pa
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         No survey tables in the folder, an unreadable table, or an output folder
         that cannot be written.
     """

@@ -156,7 +156,7 @@ def log10_hop_rate(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If an input is NaN or not a number, a distance is negative, λ ≤ 0 or not
         finite, ρ lies outside [0, 1], the temperature is not positive, or the input
         shapes do not broadcast.
@@ -262,7 +262,7 @@ def hop_rates(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         As for :func:`log10_hop_rate`.
 
     Examples
@@ -296,7 +296,7 @@ def hop_reorganisation(reorg_donor: float, reorg_acceptor: float) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If either value is not a finite number > 0.
 
     Examples
@@ -336,7 +336,7 @@ def dg_from_potentials(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If a potential is NaN or not a number.
 
     Examples
@@ -368,7 +368,7 @@ def reaction_gibbs_kj(n_electrons: int, delta_e_volts: float) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If ``n_electrons`` is not a positive integer or ΔE is not a finite number.
 
     Examples
@@ -491,7 +491,7 @@ def mean_first_passage_time(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If the matrix is not square, holds negative, NaN or infinite rates, or a state
         index is out of range.
 
@@ -554,7 +554,7 @@ def summed_hop_time(rates_forward: Iterable[float] | np.ndarray) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If a rate is negative, NaN or not a number.
 
     Examples
