@@ -692,10 +692,12 @@ def compare(
              len(matches), len(missing), len(extra))
     result = CompareResult(mod, ref, fit, matches, missing, extra, hops, settings)
     if mod.wire.hops:
+        from fescan.transfer.intervals import MONTE_CARLO_SAMPLES
         from fescan.transfer.uncertainty import wire_uncertainty
 
-        # Monte Carlo (seeded): the linear form misjudges hops near ΔG = 0 (uncertainty.py)
-        result.uncertainty = wire_uncertainty(mod, method="monte-carlo", n_samples=4000, seed=0)
+        # Monte Carlo (seeded): the linear form misjudges hops near ΔG = 0 (uncertainty.py);
+        # the same number of samples as the scan's report, so both print the same intervals
+        result.uncertainty = wire_uncertainty(mod, method="monte-carlo", n_samples=MONTE_CARLO_SAMPLES, seed=0)
     return result
 
 
