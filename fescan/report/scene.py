@@ -87,13 +87,13 @@ class Link:
     label : str or None
         Text beside the line.
     bold : bool
-        Label in bold (gaps and the slowest hop).
+        Label in bold (gaps and the bottleneck).
     arrow : float or None
         Fraction of the way from ``first`` to ``second`` where a direction arrow sits.
     break_gid : str or None
         SVG id of the break mark of a gap.
     halo : bool
-        Underlay marking the slowest hop.
+        Underlay marking the bottleneck (``Wire.bottleneck``).
     dotted : bool
         Pair to a crystal-symmetry mate (drawn to the copy in the file).
     """
@@ -154,7 +154,7 @@ class Scene:
 
     def kinds(self) -> set[str]:
         """Kinds of links present, plus ``"ends"`` (entry/exit marked), ``"bottleneck"``
-        (a slowest hop marked) and ``"symmetry"`` (a pair to a crystal-symmetry mate)."""
+        (the bottleneck marked) and ``"symmetry"`` (a pair to a crystal-symmetry mate)."""
         out = {lk.kind for lk in self.links if not (lk.kind == "pair" and lk.dotted)}
         if any(n.role for n in self.nodes):
             out.add("ends")
