@@ -48,49 +48,13 @@ from fescan.surveys.run import find_structure_files  # noqa: E402
 
 DEFAULT_SHARED = Path(os.environ.get("FESCAN_SHARED_STRUCTURES") or REPO.parent / "shared" / "structures")
 ARCHIVE_ENTRIES = 220_000
+#: The child survey imports fescan (the repository) and memory_sampler (this folder).
+CHILD_PATH = os.pathsep.join([str(REPO), str(Path(__file__).resolve().parent)])
 
 _CHILD = r"""
-import json, os, sys, threading, time
+import json, sys, time
 
-
-def status(pid, key):
-    try:
-        with open(f"/proc/{pid}/status") as fh:
-            for line in fh:
-                if line.startswith(key):
-                    return int(line.split()[1])  # kB
-    except OSError:
-        pass
-    return 0
-
-
-def descendants(root):
-    kids = {}
-    for d in os.listdir("/proc"):
-        if d.isdigit():
-            try:
-                with open(f"/proc/{d}/stat") as fh:
-                    kids.setdefault(int(fh.read().rsplit(")", 1)[1].split()[1]), []).append(int(d))
-            except (OSError, IndexError, ValueError):
-                pass
-    out, todo = [], [root]
-    while todo:
-        for k in kids.get(todo.pop(), []):
-            out.append(k)
-            todo.append(k)
-    return out
-
-
-def sample(peaks, stop):
-    me = os.getpid()
-    while not stop.is_set():
-        procs = descendants(me)
-        total = status(me, "VmRSS") + sum(status(p, "VmRSS") for p in procs)
-        peaks["total"] = max(peaks["total"], total)
-        for p in procs:
-            peaks["worker"] = max(peaks["worker"], status(p, "VmHWM"))
-        stop.wait(0.1)
-
+from memory_sampler import PeakMemory
 
 if __name__ == "__main__":
     from fescan.surveys.run import read_file_list, survey
@@ -105,19 +69,14 @@ if __name__ == "__main__":
         cluster = LocalCluster(n_workers=args["workers"], threads_per_worker=1, processes=True,
                                host="127.0.0.1", dashboard_address=None)
         kwargs = {"engine": "dask", "scheduler": cluster.scheduler_address}
-    peaks, stop = {"total": 0, "worker": 0}, threading.Event()
-    if os.path.isdir("/proc/self"):
-        threading.Thread(target=sample, args=(peaks, stop), daemon=True).start()
-    t = time.perf_counter()
-    s = survey(inputs, args["out"], workers=args["workers"], quiet=True, **kwargs)
-    wall = time.perf_counter() - t
-    stop.set()
+    with PeakMemory(interval=0.1) as mem:
+        t = time.perf_counter()
+        s = survey(inputs, args["out"], workers=args["workers"], quiet=True, **kwargs)
+        wall = time.perf_counter() - t
     if cluster is not None:
         cluster.close()
     print(json.dumps({"wall": wall, "files": s.n_ok + s.n_failed + s.n_no_candidate, "ok": s.n_ok,
-                      "failed": s.n_failed, "skipped": s.n_no_candidate,
-                      "parent_kib": status(os.getpid(), "VmHWM"), "worker_kib": peaks["worker"],
-                      "total_kib": peaks["total"]}))
+                      "failed": s.n_failed, "skipped": s.n_no_candidate, **mem.as_dict()}))
 """
 
 
@@ -173,7 +132,7 @@ def run(listing: Path, out: Path, workers: int, engine: str = "processes") -> di
     shutil.rmtree(out, ignore_errors=True)
     arg = json.dumps({"list": str(listing), "out": str(out), "workers": workers, "engine": engine})
     done = subprocess.run([sys.executable, "-c", _CHILD, arg], capture_output=True, text=True, cwd=REPO,
-                          env={**os.environ, "PYTHONPATH": str(REPO)})
+                          env={**os.environ, "PYTHONPATH": CHILD_PATH})
     if done.returncode != 0:
         raise SystemExit(f"bench_archive: the survey failed:\n{done.stderr[-3000:]}")
     return json.loads(done.stdout.strip().splitlines()[-1])

@@ -49,6 +49,8 @@ import fescan  # noqa: E402
 from fescan.surveys.run import find_structure_files  # noqa: E402
 
 DEFAULT_SHARED = Path(os.environ.get("FESCAN_SHARED_STRUCTURES") or REPO.parent / "shared" / "structures")
+#: The child survey imports fescan (the repository) and memory_sampler (this folder).
+CHILD_PATH = os.pathsep.join([str(REPO), str(Path(__file__).resolve().parent)])
 
 #: (name, source entry file, copies): synthetic structures built for timing only.
 SYNTHETIC = (("syn_2fug_x3", "2FUG.pdb", 3), ("syn_1kf6_x6", "1KF6.pdb", 6), ("syn_2axt_x4", "2AXT.pdb.gz", 4))
@@ -122,63 +124,19 @@ def per_file(files: list[Path], repeats: int) -> list[dict]:
 
 
 _CHILD = r"""
-import json, os, resource, sys, threading, time
+import json, sys, time
+
+from memory_sampler import PeakMemory
+
 from fescan.surveys.run import survey
-
-
-def status(pid, key):
-    try:
-        with open(f"/proc/{pid}/status") as fh:
-            for line in fh:
-                if line.startswith(key):
-                    return int(line.split()[1])  # kB
-    except OSError:
-        pass
-    return 0
-
-
-def descendants(root):
-    kids = {}
-    for d in os.listdir("/proc"):
-        if d.isdigit():
-            try:
-                with open(f"/proc/{d}/stat") as fh:
-                    kids.setdefault(int(fh.read().rsplit(")", 1)[1].split()[1]), []).append(int(d))
-            except (OSError, IndexError, ValueError):
-                pass
-    out, todo = [], [root]
-    while todo:
-        for k in kids.get(todo.pop(), []):
-            out.append(k)
-            todo.append(k)
-    return out
-
-
-def sample(peaks, stop):
-    # peak resident memory of every worker (VmHWM) and of parent + workers together (sum of VmRSS)
-    me = os.getpid()
-    while not stop.is_set():
-        procs = descendants(me)
-        total = status(me, "VmRSS") + sum(status(p, "VmRSS") for p in procs)
-        peaks["total"] = max(peaks["total"], total)
-        for p in procs:
-            peaks["worker"] = max(peaks["worker"], status(p, "VmHWM"))
-        stop.wait(0.05)
-
 
 if __name__ == "__main__":
     args = json.loads(sys.argv[1])
-    peaks, stop = {"total": 0, "worker": 0}, threading.Event()
-    if os.path.isdir("/proc/self"):
-        threading.Thread(target=sample, args=(peaks, stop), daemon=True).start()
-    t = time.perf_counter()
-    s = survey(args["inputs"], args["out"], workers=args["workers"], quiet=True)
-    wall = time.perf_counter() - t
-    stop.set()
-    # VmHWM, not ru_maxrss: ru_maxrss survives exec and would count the benchmark process itself
-    parent = status(os.getpid(), "VmHWM") or resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    print(json.dumps({"wall": wall, "files": s.n_ok + s.n_failed, "failed": s.n_failed,
-                      "parent_kib": parent, "worker_kib": peaks["worker"], "total_kib": peaks["total"]}))
+    with PeakMemory(interval=0.05) as mem:
+        t = time.perf_counter()
+        s = survey(args["inputs"], args["out"], workers=args["workers"], quiet=True)
+        wall = time.perf_counter() - t
+    print(json.dumps({"wall": wall, "files": s.n_ok + s.n_failed, "failed": s.n_failed, **mem.as_dict()}))
 """
 
 
@@ -189,7 +147,7 @@ def run_survey(inputs: list[str], out: Path, workers: int, repeats: int = 1) -> 
         shutil.rmtree(out, ignore_errors=True)
         arg = json.dumps({"inputs": inputs, "out": str(out), "workers": workers})
         done = subprocess.run([sys.executable, "-c", _CHILD, arg], capture_output=True, text=True, cwd=REPO,
-                              env={**os.environ, "PYTHONPATH": str(REPO)}, check=True)
+                              env={**os.environ, "PYTHONPATH": CHILD_PATH}, check=True)
         got = json.loads(done.stdout.strip().splitlines()[-1])
         if best is None or got["wall"] < best["wall"]:
             best = got

@@ -4,7 +4,7 @@ The synthetic wires reuse the idealised [4Fe-4S] cube of :mod:`tests.synth`
 (geometry sources noted there). The crafted file holds markup and script text
 in its title and chain names, to check that reports escape what they read.
 Survey-like tables are made from :func:`fescan.scan` results with
-:func:`fescan.tables.result_tables`, so the tests do not depend on the survey
+:func:`fescan.analysis.tables.result_tables`, so the tests do not depend on the survey
 module.
 """
 

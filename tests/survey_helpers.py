@@ -37,7 +37,7 @@ def make_bad_files(folder: Path, good: Path, good_cif: Path, *, hooks: bool = Tr
     expected: dict[str, tuple[str, str]] = {}
 
     (folder / "empty.pdb").write_bytes(b"")
-    expected["empty.pdb"] = ("error", "EmptyStructureError")  # io.py: "empty file (0 bytes)"
+    expected["empty.pdb"] = ("error", "EmptyStructureError")  # structure/reading.py: "empty file (0 bytes)"
 
     source = good_cif.read_bytes()
     (folder / "truncated.cif").write_bytes(source[: len(source) // 2])  # cut inside the atom_site loop

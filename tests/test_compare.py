@@ -21,7 +21,14 @@ import fescan
 from fescan.cli.main import main
 from fescan.comparison.compare import compare, kabsch
 from fescan.core.errors import ConfigError, StructureNotFound
-from fescan.report.compare_report import md_escape, render_compare_text, write_compare_report
+from fescan.core.numbers import format_with_interval
+from fescan.report.compare_report import (
+    compare_document,
+    md_escape,
+    render_compare_text,
+    write_compare_report,
+)
+from fescan.report.content import Paragraph, Table
 from tests import rewrite
 from tests.datafiles import entry_path, requires_shared
 
@@ -91,6 +98,15 @@ def test_to_dict_is_strict_json(yq9_self):
     d = json.loads(text)
     assert d["changes"]["missing"] == 0 and len(d["hops"]) == 3 and "estimates" in d["caution"]
     assert d["model"]["wire"]["path"] == d["reference"]["wire"]["path"]
+
+
+def test_intervals_are_those_of_the_scan_report(yq9_self):
+    # compare draws as many Monte Carlo samples as the scan's report (one default), so the
+    # model wire's intervals equal the ones the structure report prints for the same result
+    from fescan.transfer.uncertainty import wire_uncertainty
+
+    assert yq9_self.uncertainty is not None
+    assert json.dumps(yq9_self.uncertainty.to_dict()) == json.dumps(wire_uncertainty(yq9_self.model).to_dict())
 
 
 # --------------------------------------------------------------------------- one cluster moved, one removed
@@ -245,6 +261,27 @@ def test_report_files_escape_input_strings(fdn_moved, tmp_path):
     svg = out["svg"].read_text(encoding="utf-8")
     assert "reference: 1FDN" in svg and "model, superposed" in svg  # both panels
     assert md_escape("a|b") == "a\\|b"
+
+
+def test_interval_table_writes_hop_times_with_format_with_interval(yq9_self):
+    # the model wire's hop times carry their 95% interval as format_with_interval writes it
+    # (value rounded to what the interval supports), in the terminal and in the documents alike
+    r = yq9_self
+    u = r.uncertainty
+    cells = []
+    for h in u.hops:
+        lo, hi = h.hop_time_interval("95%")
+        cells.append(format_with_interval(10.0 ** -h.log10_k, lo, hi, "s", level="95%"))
+    assert len(cells) == 3 and all("(95%: " in c for c in cells)
+    summary = "summed hop time " + format_with_interval(u.summed_hop_time, *u.summed_hop_time_95, "s")
+    text = render_compare_text(r)
+    assert "hop time (95% interval)" in text and summary in text
+    assert all(c in text for c in cells)
+    tables = [b for b in compare_document(r).blocks if isinstance(b, Table)]
+    (iv,) = [t for t in tables if "hop time (95% interval)" in t.headers]
+    assert [row[iv.headers.index("hop time (95% interval)")] for row in iv.rows] == cells
+    # the summary line under the table starts with the summed hop time (notes may follow)
+    assert any(isinstance(b, Paragraph) and str(b.content).startswith(summary) for b in compare_document(r).blocks)
 
 
 def test_text_view(yq9_rewritten):

@@ -1,4 +1,4 @@
-"""Tests of fescan.io: reading structure files, bad input, models, altlocs, hydrogens."""
+"""Tests of fescan.structure.reading: reading structure files, bad input, models, altlocs, hydrogens."""
 
 from __future__ import annotations
 

@@ -1,4 +1,4 @@
-"""Tests of fescan.kinetics (Moser–Dutton hop rates, first-passage times) and fescan.constants.
+"""Tests of fescan.transfer.rate_law (Moser–Dutton hop rates, first-passage times) and fescan.core.constants.
 
 Check values come from reference/REFERENCES.md; the source of each is written beside it.
 """

@@ -1,4 +1,4 @@
-"""Measured packing density ρ (fescan.packing): closed-form cases and the real hops of shared entries.
+"""Measured packing density ρ (fescan.transfer.packing): closed-form cases and the real hops of shared entries.
 
 Sources: Page, Moser, Chen & Dutton 1999 (Nature 402:47) define ρ as the fraction of the volume
 between the redox centres within the van der Waals radii of the intervening atoms, average 0.76

@@ -1,4 +1,4 @@
-"""Tests of fescan.potentials: the packaged default table and the user TOML overrides.
+"""Tests of fescan.transfer.potentials: the packaged default table and the user TOML overrides.
 
 Reference values are from reference/REFERENCES.md section 3; the source is written beside
 each check.

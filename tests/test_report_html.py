@@ -8,6 +8,7 @@ its title, chain names and file name; real entries come from shared/structures
 from __future__ import annotations
 
 import re
+from pathlib import Path
 
 import pytest
 
@@ -18,6 +19,8 @@ from fescan.report import write_report
 from fescan.report.content import safe_href
 from fescan.report.html import esc
 from fescan.report.markdown import md_escape
+from fescan.report.structure_report import POTENTIAL_STATUS
+from fescan.transfer.couples import CITATION_KINDS
 from tests.datafiles import entry_path, requires_shared
 from tests.report_fixtures import CRAFTED_TITLE, IMG, SCRIPT, write_crafted, write_wire
 
@@ -108,10 +111,13 @@ def test_report_of_a_real_entry_says_what_it_must(tmp_path):
         assert key in html and key in md
     assert esc(CAUTION) in html and md_escape(CAUTION) in md
     for text in ("Sum of hop times", "Mean first-passage time", "Reorganisation energy λ", "Packing density ρ",
-                 "Gap limit", "Temperature", "Symmetry mates", "not included (asymmetric unit only)", "FOUND",
-                 "MEMORY", "default"):
+                 "Gap limit", "Temperature", "Symmetry mates", "not included (asymmetric unit only)", "default",
+                 "<td>from memory</td>", "from memory: a remembered value, to be checked"):
         assert text in html, text
-    # the two transfer times are both printed, with the wire's meaning (fescan/wire.py docstring)
+    # the potentials' Status words are today's (primary, review, from memory, user, undetermined),
+    # not the FOUND / MEMORY of the CCD and bond tables
+    assert "FOUND" not in html and "MEMORY" not in html
+    # the two transfer times are both printed, with the wire's meaning (fescan/transfer/paths.py docstring)
     assert "first-passage" in wire_module.__doc__ and "back" in html and "forward" in html
     assert '<svg' in html and "<?xml" not in html and "<!DOCTYPE svg" not in html  # SVG inlined cleanly
 
@@ -123,6 +129,12 @@ def test_user_potentials_are_named_in_the_report(tmp_path):
     res = scan(res0.path, potentials_file=str(toml))
     html = write_report(res, tmp_path / "r")[0].read_text(encoding="utf-8")
     assert "user file" in html and esc(str(toml)) in html and "−0.310 V" in html
+    assert "<td>user</td>" in html and "user: given in the potentials file" in html
+
+
+def test_potential_status_words_are_those_the_scan_gives():
+    # every status a Potential can carry has its meaning in the caption (transfer/couples.py)
+    assert set(POTENTIAL_STATUS) == {*CITATION_KINDS, "user", "undetermined"}
 
 
 def test_same_result_gives_the_same_bytes(tmp_path):
@@ -140,3 +152,23 @@ def test_unwritable_folder_is_a_clear_error(tmp_path):
     with pytest.raises(ConfigError, match="cannot write the report") as e:
         write_report(res, blocker / "sub")
     assert isinstance(e.value, FescanError) and str(blocker) in str(e.value)
+
+
+@pytest.mark.parametrize("name, differ", [("rb1_sound_wire.cif", True), ("rb5_rieske_heme.cif", False)])
+def test_relay_section_names_the_bottleneck_not_a_slowest_hop(tmp_path, name, differ):
+    # The bottleneck is the hop of largest flux control when the steady state is solved, else the
+    # slowest forward hop (transfer/paths.py). In the demo rb1 the two differ (bottleneck A/503 →
+    # A/504, slowest FMN A/501 → A/502); in rb5 there is no steady state and they coincide.
+    res = scan(Path(__file__).resolve().parents[1] / "example_structures" / name)
+    w = res.wire
+    assert (w.slowest_hop is not w.bottleneck) == differ
+    md = write_report(res, tmp_path / "r")[1].read_text(encoding="utf-8")
+    b = w.bottleneck
+    names = {c.uid: md_escape(c.label) for c in res.cofactors}
+    assert f"- **Bottleneck:** {names[b.donor]} → {names[b.acceptor]}, {b.edge:.2f} Å" in md
+    assert f"basis: {md_escape(w.bottleneck_basis)}" in md
+    assert ("**Slowest forward hop:** " + f"{names[w.slowest_hop.donor]} →" in md) == differ
+    assert "Slowest hop" not in md and "| slowest |" not in md
+    rows = [line for line in md.splitlines() if line.startswith("| ") and line.rstrip().endswith("|")]
+    assert sum("bottleneck" in r for r in rows) == 1
+    assert sum("slowest forward hop" in r for r in rows) == int(differ)

@@ -1,7 +1,7 @@
 """Survey reports: reading saved tables, figures, the HTML index, bad folders.
 
 Survey-like tables are built here from fescan.scan results on real entries
-(shared/structures, SOURCES.md) with fescan.tables.result_tables, so these
+(shared/structures, SOURCES.md) with fescan.analysis.tables.result_tables, so these
 tests do not depend on the survey module.
 """
 

@@ -2,7 +2,7 @@
 
 Real entries come from shared/structures (SOURCES.md); bad files are made in a
 temporary folder by tests/survey_helpers.py. The expected results of good files
-are the single-file API (fescan.scan + fescan.tables.result_tables): the survey
+are the single-file API (fescan.scan + fescan.analysis.tables.result_tables): the survey
 must give exactly those rows.
 """
 
@@ -84,7 +84,7 @@ def test_bad_options_are_config_errors(tmp_path):
 
 
 def test_table_schemas_cover_categories():
-    # the structures table has one count column per cofactor category of fescan.model
+    # the structures table has one count column per cofactor category of fescan.core.records
     cols = [c.name for c in SCHEMAS["structures"]]
     assert [c for c in cols if c.startswith("n_") and c[2:].replace("_", "-") in CATEGORIES] == [
         "n_" + c.replace("-", "_") for c in CATEGORIES]

@@ -200,7 +200,7 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
         (defaults: a flavin → the fastest-reached quinone or heme; else the
         two ends of the longest chain).
     **options
-        Any field of :class:`fescan.options.ScanOptions` (``model``, ``altloc``,
+        Any field of :class:`fescan.core.options.ScanOptions` (``model``, ``altloc``,
         ``cutoff``, ``gap_limit``, ``reorg``, ``packing_density``,
         ``temperature``, ``rate_threshold``, ``symmetry``, ``potentials_file``,
         ``all_pairs``, ``packing`` = ``"default"`` or ``"measured"``, ``packing_scale``).
@@ -211,11 +211,11 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
 
     Raises
     ------
-    fescan.errors.StructureFileError
+    fescan.core.errors.StructureFileError
         The file is missing, unreadable or holds no atoms.
-    fescan.errors.CofactorNotFound
+    fescan.core.errors.CofactorNotFound
         ``entry`` or ``exit`` names no cofactor.
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         An option or the potentials file is invalid.
     """
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)

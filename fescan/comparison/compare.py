@@ -622,9 +622,9 @@ def compare(
     distance_tolerance : float, optional
         Hops whose R differs by less (Å), with equal ΔG, count as unchanged (default 0.05).
     measure_packing : bool, optional
-        Also measure ρ of every hop in both structures (:mod:`fescan.packing`).
+        Also measure ρ of every hop in both structures (:mod:`fescan.transfer.packing`).
     **options
-        :class:`fescan.options.ScanOptions` fields for both scans; ``entry`` and
+        :class:`fescan.core.options.ScanOptions` fields for both scans; ``entry`` and
         ``exit`` name cofactors of the *reference*.
 
     Returns
@@ -633,7 +633,7 @@ def compare(
 
     Raises
     ------
-    fescan.errors.FescanError
+    fescan.core.errors.FescanError
         A file is unreadable (the message names it), an option is invalid, or a
         reference endpoint does not exist.
     """
@@ -692,10 +692,12 @@ def compare(
              len(matches), len(missing), len(extra))
     result = CompareResult(mod, ref, fit, matches, missing, extra, hops, settings)
     if mod.wire.hops:
+        from fescan.transfer.intervals import MONTE_CARLO_SAMPLES
         from fescan.transfer.uncertainty import wire_uncertainty
 
-        # Monte Carlo (seeded): the linear form misjudges hops near ΔG = 0 (uncertainty.py)
-        result.uncertainty = wire_uncertainty(mod, method="monte-carlo", n_samples=4000, seed=0)
+        # Monte Carlo (seeded): the linear form misjudges hops near ΔG = 0 (uncertainty.py);
+        # the same number of samples as the scan's report, so both print the same intervals
+        result.uncertainty = wire_uncertainty(mod, method="monte-carlo", n_samples=MONTE_CARLO_SAMPLES, seed=0)
     return result
 
 

@@ -58,7 +58,7 @@ def kt_ln10_ev(temperature: float = DEFAULT_TEMPERATURE_K) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If the temperature is not a finite positive number.
 
     Examples

@@ -44,7 +44,7 @@ class ScanOptions:
     packing : str
         ``"default"`` (ρ = ``packing_density`` for every hop) or ``"measured"``
         (ρ measured from the protein atoms between the two cofactors, see
-        :mod:`fescan.packing`).
+        :mod:`fescan.transfer.packing`).
     packing_scale : float
         Factor applied to measured ρ values (clipped to 1).
     edge_atoms : str

@@ -25,6 +25,7 @@ from fescan.analysis.scan import CAUTION
 from fescan.comparison.verdict import cofactor_label as _label
 from fescan.comparison.verdict import hop_problems, verdict
 from fescan.comparison.verdict import ligand_words as _ligand_words
+from fescan.core.numbers import format_with_interval
 from fescan.core.version import __version__
 from fescan.report.content import (
     BulletList,
@@ -100,6 +101,8 @@ def _hop_headers(result: CompareResult) -> list[str]:
 
 
 _MATCH_HEADERS = ["reference", "model", "matched by", "moved Å", "changes"]
+#: Columns of the model wire with intervals; the hop time cell holds its value and its interval.
+_INTERVAL_HEADERS = ("donor", "acceptor", "R Å (± σ)", "log10 k", "log10 k 95%", "hop time (95% interval)")
 
 
 def _details(result: CompareResult) -> list[tuple[str, list[str]]]:
@@ -114,8 +117,13 @@ def _superposition_text(result: CompareResult) -> str:
     return f"superposition: {s.method} ({s.n_pairs} pairs{rms})" + (f"; chains model→reference {chains}" if chains else "")
 
 
-def _interval_table(result: CompareResult, format_time=format_time) -> tuple[str, list[str], list[list[str]], str] | None:
-    """Title, headers, rows and summary line of the model's wire with 95% intervals."""
+def _interval_table(result: CompareResult) -> tuple[str, list[str], list[list[str]], str] | None:
+    """Title, headers, rows and summary line of the model's wire with 95% intervals.
+
+    Times and their intervals are written by :func:`fescan.core.numbers.format_with_interval`
+    (the value carries no more digits than its interval supports), the same in the terminal,
+    HTML and Markdown.
+    """
     u = result.uncertainty
     if u is None or not getattr(u, "hops", None):
         return None
@@ -125,16 +133,17 @@ def _interval_table(result: CompareResult, format_time=format_time) -> tuple[str
         lo, hi = h.hop_time_interval("95%")
         rows.append([_label(result.model, h.donor), _label(result.model, h.acceptor),
                      f"{h.edge:.2f} ± {h.sigma_edge:.2f}", f"{h.log10_k:.2f}",
-                     f"{h.log10_k_95[0]:.2f} to {h.log10_k_95[1]:.2f}", f"{format_time(lo)} to {format_time(hi)}"])
+                     f"{h.log10_k_95[0]:.2f} to {h.log10_k_95[1]:.2f}",
+                     format_with_interval(10.0 ** -h.log10_k, lo, hi, "s", level="95%")])
     basis = getattr(u, "basis", None)
     title = f"Model wire with intervals ({basis()})" if callable(basis) else "Model wire with 95% intervals"
     summary = ""
     if u.summed_hop_time_95:
         lo, hi = u.summed_hop_time_95
-        summary = f"summed hop time {format_time(u.summed_hop_time)} (95%: {format_time(lo)} to {format_time(hi)})"
+        summary = "summed hop time " + format_with_interval(u.summed_hop_time, lo, hi, "s", level="95%")
     if u.notes:
         summary = "; ".join(x for x in [summary, *u.notes] if x)
-    return title, ["donor", "acceptor", "R Å (± σ)", "log10 k", "log10 k 95%", "hop time 95%"], rows, summary
+    return title, list(_INTERVAL_HEADERS), rows, summary
 
 
 def _interval_lines(result: CompareResult) -> list[str]:
@@ -271,7 +280,7 @@ def compare_document(result: CompareResult, svg_text: str = "", png_name: str = 
                 Table(_hop_headers(result), rows, frozenset({0, 4, 7}),
                       "Model estimates; a hop is unchanged when R (within the tolerance), ΔG, λ and the ligation "
                       "of both partners are the same"))
-    t = _interval_table(result, duration)
+    t = _interval_table(result)
     if t is not None:
         title, headers, rows, summary = t
         doc.add(Heading(2, "Model wire with intervals", "intervals"), Table(headers, rows, caption=title))

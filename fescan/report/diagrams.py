@@ -165,7 +165,7 @@ def legend_handles(scenes: Sequence[Scene]) -> tuple[list, list[str]]:
     lines = [
         ("path", Line2D([], [], **_line_kw(style.PATH_HOP)), "relay path (fastest)"),
         ("bottleneck", (Line2D([], [], **_line_kw(style.BOTTLENECK_HALO)), Line2D([], [], **_line_kw(style.PATH_HOP))),
-         "slowest hop"),
+         "bottleneck"),
         ("gap", Line2D([], [], **_line_kw(style.GAP_HOP)), "hop over the gap limit"),
         ("pair", Line2D([], [], **_line_kw(style.PAIR)), "other pair within limit"),
         ("near", Line2D([], [], **_line_kw(style.NEAR_GAP)), "nearest partner, over limit"),
@@ -782,7 +782,7 @@ def counts_figure(class_counts: Sequence[tuple[str, style.Glyph, int]],
 
 
 def bottleneck_figure(distances: np.ndarray, *, gap_limit: float, n_without: int = 0) -> Figure:
-    """Histogram of the edge-to-edge distance of every wire's slowest hop (1 Å bins).
+    """Histogram of the edge-to-edge distance of every wire's bottleneck hop (1 Å bins).
 
     Parameters
     ----------
@@ -813,7 +813,7 @@ def bottleneck_figure(distances: np.ndarray, *, gap_limit: float, n_without: int
         ax.yaxis.get_major_locator().set_params(integer=True)
         ax.set_ylabel("wires", fontsize=style.FONT_PT)
         extra = f"; {n_without} structures without a wire" if n_without else ""
-        ax.set_xlabel(f"edge-to-edge distance of the slowest hop (Å), {len(d)} wires{extra}\n"
+        ax.set_xlabel(f"edge-to-edge distance of the bottleneck hop (Å), {len(d)} wires{extra}\n"
                       "hatched: over the gap limit", fontsize=style.FONT_PT, linespacing=1.3)
     return fig
 

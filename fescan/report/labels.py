@@ -133,7 +133,7 @@ def cofactor_label(c: Cofactor, pot: Potential, role: str = "", isolated: bool =
 def hop_label(h: Hop, rate_threshold: float, bottleneck: bool = False) -> tuple[str, bool]:
     """Label of a path hop: edge-to-edge distance and hop time; ``(text, bold)``.
 
-    Gaps read ``gap 17.8 Å``; the slowest hop and gaps are bold.
+    Gaps read ``gap 17.8 Å``; the bottleneck and gaps are bold.
     """
     t = short_time(h.hop_time)
     tag = ", sym." if h.symmetry else ""

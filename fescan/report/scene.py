@@ -1,6 +1,6 @@
 """What a relay diagram shows, decided without drawing: nodes, links, labels and ids.
 
-:func:`build_scene` turns a :class:`~fescan.scan.ScanResult` into a
+:func:`build_scene` turns a :class:`~fescan.analysis.scan.ScanResult` into a
 :class:`Scene` of plain records: every cofactor as a node at its projected
 position with its glyph and label, and every line as a link (relay-path hop,
 gap, other pair within the gap limit, nearest partner of an isolated cofactor)
@@ -87,13 +87,13 @@ class Link:
     label : str or None
         Text beside the line.
     bold : bool
-        Label in bold (gaps and the slowest hop).
+        Label in bold (gaps and the bottleneck).
     arrow : float or None
         Fraction of the way from ``first`` to ``second`` where a direction arrow sits.
     break_gid : str or None
         SVG id of the break mark of a gap.
     halo : bool
-        Underlay marking the slowest hop.
+        Underlay marking the bottleneck (``Wire.bottleneck``).
     dotted : bool
         Pair to a crystal-symmetry mate (drawn to the copy in the file).
     """
@@ -154,7 +154,7 @@ class Scene:
 
     def kinds(self) -> set[str]:
         """Kinds of links present, plus ``"ends"`` (entry/exit marked), ``"bottleneck"``
-        (a slowest hop marked) and ``"symmetry"`` (a pair to a crystal-symmetry mate)."""
+        (the bottleneck marked) and ``"symmetry"`` (a pair to a crystal-symmetry mate)."""
         out = {lk.kind for lk in self.links if not (lk.kind == "pair" and lk.dotted)}
         if any(n.role for n in self.nodes):
             out.add("ends")

@@ -50,14 +50,24 @@ from fescan.report.references import (
 if TYPE_CHECKING:  # pragma: no cover
     from fescan.analysis.scan import ScanResult
 
-__all__ = ["REPORT_FILES", "TIMES_EXPLAINED", "structure_document", "write_report"]
+__all__ = ["REPORT_FILES", "TIMES_EXPLAINED", "POTENTIAL_STATUS", "structure_document", "write_report"]
 
 log = logging.getLogger(__name__)
 
 #: File names written by :func:`write_report`, in the order returned.
 REPORT_FILES = ("report.html", "report.md", "wire.svg", "wire.png")
 
-#: What the two transfer times mean (model estimates, see fescan.wire).
+#: The words of the potentials table's Status column (``Potential.status``, the ``citation_kind``
+#: of the scan's JSON): the citation kinds of the packaged table, a user value, no value.
+POTENTIAL_STATUS = {
+    "primary": "read in the original paper",
+    "review": "read in a review or handbook",
+    "from memory": "a remembered value, to be checked against the cited source",
+    "user": "given in the potentials file",
+    "undetermined": "no value exists; hops to and from it assume ΔG = 0",
+}
+
+#: What the two transfer times mean (model estimates, see fescan.transfer.paths).
 TIMES_EXPLAINED = (
     "Two transfer times are given, both model estimates. The sum of hop times adds 1/k of each forward "
     "hop along the fastest path: an electron that never steps back. The mean first-passage time is the "
@@ -98,6 +108,13 @@ def _checks(c) -> str:
     parts = ([f"{warn} warning{'s' * (warn != 1)}"] if warn else []) + ([f"{note} note{'s' * (note != 1)}"] if note
                                                                         else [])
     return ", ".join(parts) or "ok"
+
+
+def _potentials_caption(shown: set[str]) -> str:
+    """Caption of the potentials table: the meaning of each Status word the table shows."""
+    words = "; ".join(f"{w}: {meaning}" for w, meaning in POTENTIAL_STATUS.items() if w in shown)
+    status = f" Status {words}." if words else ""
+    return f"Midpoint potentials (V vs SHE).{status} Sources are listed under References."
 
 
 def _role(c) -> str:
@@ -270,15 +287,26 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
         gaps = "; ".join(f"{names[h.donor]} → {names[h.acceptor]}, {h.edge:.2f} Å"
                          + (" (over the gap limit)" if h.gap else "") + (" (slower than the threshold)" if h.slow else "")
                          for h in w.gaps) or f"none (every hop ≤ {o.gap_limit:g} Å and faster than {o.rate_threshold:g} s⁻¹)"
+        # the bottleneck is the hop of largest flux control (steady state), else the slowest forward hop;
+        # when the two differ the slowest forward hop is named too (as in the terminal view)
+        sh = w.slowest_hop
+        slowest = ([("Slowest forward hop", f"{names[sh.donor]} → {names[sh.acceptor]}, {sh.edge:.2f} Å, "
+                                            f"{duration(sh.hop_time)}")]
+                   if sh is not None and sh is not b else [])
         out.append(Facts([
             ("Entry", names[w.entry]), ("Exit", names[w.exit]), ("Direction chosen", w.how_chosen),
             ("Path", " → ".join(names[u] for u in w.path)),
-            ("Slowest hop", f"{names[b.donor]} → {names[b.acceptor]}, {b.edge:.2f} Å, {duration(b.hop_time)}"),
+            ("Bottleneck", f"{names[b.donor]} → {names[b.acceptor]}, {b.edge:.2f} Å, {duration(b.hop_time)}; "
+                           f"basis: {w.bottleneck_basis}"),
+            *slowest,
             ("Gaps and slow hops", gaps),
         ]))
         rows = []
         for k, h in enumerate(w.hops, 1):
-            notes = [x for x, on in (("slowest", h is b and len(w.hops) > 1), (f"gap > {o.gap_limit:g} Å", h.gap),
+            many = len(w.hops) > 1
+            notes = [x for x, on in (("bottleneck", h is b and many),
+                                     ("slowest forward hop", h is w.slowest_hop and h is not b and many),
+                                     (f"gap > {o.gap_limit:g} Å", h.gap),
                                      ("slow", h.slow), (f"symmetry mate {h.symmetry}", bool(h.symmetry))) if on]
             rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
                          signed(h.dg, 3), f"{h.reorg:.2f}", f"{getattr(h, 'packing_density', o.packing_density):.2f}",
@@ -453,8 +481,7 @@ def _parameter_blocks(res: ScanResult, refs: References) -> list:
         rows.append([c.label, volts(p.e_v, 3), f"{volts(p.low_v, 3)} to {volts(p.high_v, 3)}", couple,
                      p.status or "–", src])
     pots = Table(["Cofactor", "E used", "Typical range", "Couple", "Status", "Source"], rows,
-                 frozenset({1}), "Midpoint potentials (V vs SHE). Status FOUND: read in a source; "
-                 "MEMORY: given from memory, to be checked. Sources are listed under References.")
+                 frozenset({1}), _potentials_caption({row[4] for row in rows}))
     return [Heading(2, "Parameters", "parameters"), facts, pots]
 
 
@@ -510,7 +537,7 @@ def write_report(result: ScanResult, out_dir: str | Path) -> list[Path]:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         The folder cannot be created or written.
     """
     out = Path(out_dir)

@@ -163,7 +163,7 @@ def glyph_for(category: str, cls: str) -> Glyph:
     Parameters
     ----------
     category : str
-        Cofactor category (:data:`fescan.model.CATEGORIES`).
+        Cofactor category (:data:`fescan.core.records.CATEGORIES`).
     cls : str
         Cofactor class (``"[4Fe-4S]"``, ``"FMN"``...).
 
@@ -199,7 +199,7 @@ PAIR = LineStyle("#a6a6a6", 0.7, None, 1.5)
 GAP_HOP = LineStyle(INK, 1.4, (3.0, 2.0), 3.0)
 #: Nearest partner of a cofactor with none within the gap limit.
 NEAR_GAP = LineStyle("#6e6e6e", 0.8, (3.0, 2.5), 1.6)
-#: Light wide underlay marking the slowest hop of the path.
+#: Light wide underlay marking the bottleneck hop of the path.
 BOTTLENECK_HALO = LineStyle("#c9c9c9", 6.0, None, 2.5)
 
 _UNSAFE = re.compile(r"[^A-Za-z0-9]")

@@ -2,7 +2,7 @@
 
 :func:`write_survey_report` reads the merged survey tables of a folder
 (``<name>.parquet`` or ``<name>.csv`` for the tables of
-:data:`fescan.tables.SCHEMAS`), draws three figures and writes
+:data:`fescan.analysis.tables.SCHEMAS`), draws three figures and writes
 ``index.html``, which links the per-structure reports found under
 ``structures/<stem>/report.html`` and lists the failures::
 
@@ -10,7 +10,7 @@
     figures/nearest_neighbour.svg|.png   nearest-neighbour distance by class
     figures/rate_distance.svg|.png       log10 k against distance, Moser-Dutton curves
     figures/counts.svg|.png              cofactors per class, findings per flag
-    figures/bottlenecks.svg|.png         distance of every wire's slowest hop
+    figures/bottlenecks.svg|.png         distance of every wire's bottleneck hop
     figures/ligation_by_resolution.svg|.png   Fe-S clusters with a warning, by resolution
 """
 
@@ -58,7 +58,7 @@ def read_survey_tables(survey_dir: str | os.PathLike[str]) -> dict[str, pd.DataF
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         The folder does not exist, holds no survey table, or a table cannot be read
         or lacks declared columns (the message names the file).
     """
@@ -216,7 +216,9 @@ _CAPTIONS = {
                       "construction: the figure shows where the hops fall on the law, not a test of it. Dashed: the "
                       "gap limit; grey line: the turnover threshold."),
     "bottlenecks": ("Bottleneck distances",
-                    "Edge-to-edge distance of the slowest hop of every wire (1 Å bins). Hatched: bottlenecks over "
+                    "Edge-to-edge distance of the bottleneck hop of every wire (the hop with the largest "
+                    "flux-control coefficient of the steady state, else the slowest forward hop; 1 Å bins). "
+                    "Hatched: bottlenecks over "
                     "the gap limit (dashed), where the wire is broken or needs a cofactor fescan does not model."),
     "ligation": ("Fe-S clusters with ligation problems, by resolution",
                  "Share of iron-sulfur clusters with at least one ligation or geometry warning, per resolution "
@@ -301,7 +303,7 @@ def write_survey_report(survey_dir: str | os.PathLike[str], out_dir: str | os.Pa
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         No survey tables in the folder, an unreadable table, or an output folder
         that cannot be written.
     """

@@ -1,6 +1,6 @@
 """Model choice, alternative locations and empty residues of a freshly read structure.
 
-Altloc policies (see :func:`fescan.io.read_structure`): ``"occupancy"`` (default)
+Altloc policies (see :func:`fescan.structure.reading.read_structure`): ``"occupancy"`` (default)
 keeps, per residue, the alternative location with the highest summed occupancy
 (ties: the first label alphabetically), atoms without an altloc always kept;
 ``"first"`` keeps the first label; ``"all"`` keeps every atom.

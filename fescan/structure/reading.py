@@ -33,7 +33,7 @@ the one with the highest summed altloc occupancy (``"occupancy"``) or the first.
 Hydrogen (H) and deuterium (D) atoms are removed unless ``keep_hydrogens=True``;
 residues left without atoms are removed with them.
 
-Bad input always raises a :class:`~fescan.errors.FescanError` subclass whose
+Bad input always raises a :class:`~fescan.core.errors.FescanError` subclass whose
 message starts with the path. gemmi accepts several kinds of damage silently
 (an empty file gives one empty model, ``abc.de`` or a blank coordinate field in a
 PDB file reads as 0.0, ``nan`` reads as NaN, an mmCIF ``?`` coordinate reads as

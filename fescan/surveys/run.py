@@ -2,15 +2,15 @@
 
 :func:`survey` finds the structure files among its inputs (files, folders searched
 recursively, glob patterns), runs :func:`analyse_file` — :func:`fescan.scan` plus
-the row builders of :mod:`fescan.tables` — on each in worker processes, streams the
+the row builders of :mod:`fescan.analysis.tables` — on each in worker processes, streams the
 results to part files in the output folder as they come and merges them at the
 end. One file that raises, runs over its time limit, exhausts its memory cap or
 kills its worker is recorded in ``failures`` and the others go on. A rerun into
-the same folder skips the files already done (see :mod:`fescan.survey_store`);
+the same folder skips the files already done (see :mod:`fescan.surveys.store`);
 engine ``"dask"`` runs the same function on Dask distributed.
 
 Tables (``OUT/<name>.parquet``, or ``.csv``; columns declared once in
-:data:`fescan.tables.SCHEMAS`, full list below and in ``docs/survey_tables.md``)
+:data:`fescan.analysis.tables.SCHEMAS`, full list below and in ``docs/survey_tables.md``)
 -----------------------------------------------------------------------------
 ``structures``
     One row per input file, ``status`` ``ok`` or ``failed``: entry id, title,
@@ -19,17 +19,17 @@ Tables (``OUT/<name>.parquet``, or ``.csv``; columns declared once in
 ``failures``
     One row per failed file: exception class (``Timeout`` and ``WorkerCrash``
     for the parent's findings), message, and ``reason``: ``error`` (the file is
-    bad: a :class:`~fescan.errors.FescanError`; any other class is a bug in
+    bad: a :class:`~fescan.core.errors.FescanError`; any other class is a bug in
     fescan and is logged as one), ``timeout``, ``memory`` or ``crash``.
 ``cofactors``, ``ligands``, ``flags``, ``pairs``, ``hops``, ``wires``
-    The tables of :func:`fescan.tables.result_tables` of every file that
+    The tables of :func:`fescan.analysis.tables.result_tables` of every file that
     succeeded, rows of all files together (``file`` tells them apart). Rates
     and times (``log10_k_*``, ``*_time_s``) are Moser-Dutton model estimates,
     not measurements.
 
 Parquet tables keep the declared pandas dtypes (``pandas.read_parquet`` gives
 ``string``, ``Int64``, ``boolean``, ``float64``); read CSV tables with
-:func:`fescan.survey_store.read_table` to get them (in CSV an empty string and a
+:func:`fescan.surveys.store.read_table` to get them (in CSV an empty string and a
 missing value look the same). Rows come in the order files finished: sort by
 ``file`` for a stable order.
 
@@ -148,7 +148,7 @@ def analyse_file(path: str, options: dict[str, Any], report_dir: str | None = No
     dict
         ``file``, ``status`` (``"ok"`` / ``"failed"``), ``seconds``, ``structure``
         (its row of the ``structures`` table), and ``rows`` (table name → rows,
-        exactly the rows :func:`fescan.tables.result_tables` turns into frames)
+        exactly the rows :func:`fescan.analysis.tables.result_tables` turns into frames)
         or ``failure`` (its row of the ``failures`` table, plus ``traceback`` for
         an unexpected error). Never raises for a bad file.
     """
@@ -361,7 +361,7 @@ def find_structure_files(inputs: Iterable[str | os.PathLike[str]],
 
     Raises
     ------
-    fescan.errors.StructureNotFound
+    fescan.core.errors.StructureNotFound
         An input does not exist or a pattern matches nothing (unless ``missing`` is given).
     """
     skip = Path(exclude).resolve() if exclude is not None else None
@@ -570,7 +570,7 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
         Set aside, unparsed, files whose bytes name no redox metal and no cofactor code
         (status ``"no redox candidate"``; see :mod:`fescan.surveys.prefilter`). Default on.
     **options
-        Options of :func:`fescan.scan` (fields of :class:`fescan.options.ScanOptions`).
+        Options of :func:`fescan.scan` (fields of :class:`fescan.core.options.ScanOptions`).
 
     Returns
     -------
@@ -578,9 +578,9 @@ def survey(inputs: Iterable[str | os.PathLike[str]] | str | os.PathLike[str],
 
     Raises
     ------
-    fescan.errors.StructureNotFound
+    fescan.core.errors.StructureNotFound
         An input does not exist, or the inputs hold no structure file.
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         An option is invalid, or ``out_dir`` was surveyed with other options.
 
     Notes

@@ -101,7 +101,7 @@ def arrow_schema(name: str) -> pa.Schema:
     """Arrow schema of table ``name``, with the pandas dtypes kept as metadata.
 
     ``pandas.read_parquet`` of a table written with it gives back the dtypes
-    declared in :data:`fescan.tables.SCHEMAS` (``string``, ``Int64``, ``boolean``,
+    declared in :data:`fescan.analysis.tables.SCHEMAS` (``string``, ``Int64``, ``boolean``,
     ``float64``).
     """
     return pa.Schema.from_pandas(empty_table(name), preserve_index=False)
@@ -151,7 +151,7 @@ class SurveyStore:
     scan_options : dict
         Options of :func:`fescan.scan` used for every file. A survey folder
         holds results of one set of options: reopening it with other options
-        raises :class:`~fescan.errors.ConfigError`.
+        raises :class:`~fescan.core.errors.ConfigError`.
     """
 
     def __init__(self, out_dir: str | os.PathLike[str], scan_options: dict) -> None:
@@ -281,7 +281,7 @@ class SurveyStore:
         Parameters
         ----------
         outcomes : list of dict
-            Outcomes of :func:`fescan.survey.analyse_file` (or failures made by
+            Outcomes of :func:`fescan.surveys.run.analyse_file` (or failures made by
             the parent), each with ``file``, ``status``, ``structure``, and
             ``rows`` (table name → rows) and/or ``failure``.
         keys : list of FileKey
@@ -486,12 +486,12 @@ def read_table(path: str | os.PathLike[str], name: str) -> pd.DataFrame:
     path : path-like
         ``OUT/<name>.parquet`` or ``OUT/<name>.csv``.
     name : str
-        Table name (a key of :data:`fescan.tables.SCHEMAS`).
+        Table name (a key of :data:`fescan.analysis.tables.SCHEMAS`).
 
     Returns
     -------
     pandas.DataFrame
-        Columns and dtypes as declared in :data:`fescan.tables.SCHEMAS`.
+        Columns and dtypes as declared in :data:`fescan.analysis.tables.SCHEMAS`.
     """
     p = Path(path)
     cols = SCHEMAS[name]

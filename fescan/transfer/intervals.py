@@ -49,6 +49,7 @@ __all__ = [
     "LEVELS",
     "REORG_RANGE",
     "LAW_SCATTER_DECADES",
+    "MONTE_CARLO_SAMPLES",
     "hop_rate_of",
     "QuantityInterval",
     "quantity_intervals",
@@ -60,6 +61,8 @@ LEVELS: dict[str, float] = {"68%": 15.865525393145708, "95%": 2.5}
 REORG_RANGE: tuple[float, float] = (0.5, 1.0)
 #: The law's own scatter, ± log10 units (Page et al. 1999, Nature 402:47).
 LAW_SCATTER_DECADES: float = 0.8
+#: Monte Carlo samples per λ scenario: the one default of the scan, its report and compare.
+MONTE_CARLO_SAMPLES: int = 1000
 
 
 def hop_rate_of(donor: str, acceptor: str) -> Quantity:
@@ -157,7 +160,7 @@ def _reorg_for(comp: Component, value: float | None) -> np.ndarray:
 
 def quantity_intervals(
     comp: Component, quantities: Mapping[str, Quantity], *, units: Mapping[str, str] | None = None,
-    n_samples: int = 1000, seed: int | None = 0, level: str = "95%",
+    n_samples: int = MONTE_CARLO_SAMPLES, seed: int | None = 0, level: str = "95%",
     reorg_range: tuple[float, float] = REORG_RANGE, law_decades: float = LAW_SCATTER_DECADES,
     potentials: bool = True,
 ) -> dict[str, QuantityInterval]:
@@ -173,7 +176,7 @@ def quantity_intervals(
     units : mapping of name to str, optional
         Units for printing (``"s"`` gets an SI prefix).
     n_samples : int, optional
-        Monte Carlo samples per λ scenario (default 1000).
+        Monte Carlo samples per λ scenario (default :data:`MONTE_CARLO_SAMPLES`, 1000).
     seed : int or None, optional
         Seed of :func:`numpy.random.default_rng` (default 0).
     level : {"95%", "68%"}, optional

@@ -188,7 +188,7 @@ def wire_model(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         On inconsistent lengths, bad numbers, unknown sites or a disconnected graph.
     """
     sites = _site_potentials(potentials)

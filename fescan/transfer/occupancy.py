@@ -339,7 +339,7 @@ def solve_mean_field(net: KineticNetwork, start: list[np.ndarray], *,
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If the iteration does not settle.
     """
     caps = net.capacity

@@ -138,7 +138,7 @@ class PackingMedium:
 
     Parameters
     ----------
-    model : gemmi.Model or fescan.io.LoadedStructure
+    model : gemmi.Model or fescan.structure.reading.LoadedStructure
         The model (a loaded structure gives its chosen model).
     """
 
@@ -245,7 +245,7 @@ def packing_between(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         Radius or spacing not positive, or spacing above the radius.
 
     Examples
@@ -332,11 +332,11 @@ def measured_packing_densities(
 
     Parameters
     ----------
-    loaded_structure_or_model : fescan.io.LoadedStructure or gemmi.Model
+    loaded_structure_or_model : fescan.structure.reading.LoadedStructure or gemmi.Model
         The structure the cofactors were found in.
     cofactors : sequence of Cofactor
     pairs : sequence of Pair
-        From :func:`fescan.geometry.pair_distances`. Pairs to a symmetry mate
+        From :func:`fescan.transfer.distances.pair_distances`. Pairs to a symmetry mate
         (``pair.symmetry`` set) get the fallback 0.76: the mate's surroundings
         are not in the model.
     include_water : bool, optional
@@ -352,7 +352,7 @@ def measured_packing_densities(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         ``scale`` not a positive number, or bad ``radius``/``spacing``.
     """
     if not isinstance(scale, (int, float)) or not math.isfinite(scale) or scale <= 0:
@@ -376,8 +376,8 @@ def hop_packing(
 
     Parameters
     ----------
-    result : fescan.scan.ScanResult
-    loaded : fescan.io.LoadedStructure or gemmi.Model, optional
+    result : fescan.analysis.scan.ScanResult
+    loaded : fescan.structure.reading.LoadedStructure or gemmi.Model, optional
         The structure scanned; read again from ``result.path`` (same model and
         altloc options) when not given.
     include_water : bool, optional

@@ -159,7 +159,7 @@ def log10_hop_rate(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If an input is NaN or not a number, a distance is negative, λ ≤ 0 or not
         finite, ρ lies outside [0, 1], the temperature is not positive, or the input
         shapes do not broadcast.
@@ -265,7 +265,7 @@ def hop_rates(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         As for :func:`log10_hop_rate`.
 
     Examples
@@ -299,7 +299,7 @@ def hop_reorganisation(reorg_donor: float, reorg_acceptor: float) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If either value is not a finite number > 0.
 
     Examples
@@ -339,7 +339,7 @@ def dg_from_potentials(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If a potential is NaN or not a number.
 
     Examples
@@ -371,7 +371,7 @@ def reaction_gibbs_kj(n_electrons: int, delta_e_volts: float) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If ``n_electrons`` is not a positive integer or ΔE is not a finite number.
 
     Examples
@@ -508,7 +508,7 @@ def mean_first_passage_time(
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If the matrix is not square, holds negative, NaN or infinite rates, or a state
         index is out of range.
 
@@ -585,7 +585,7 @@ def summed_hop_time(rates_forward: Iterable[float] | np.ndarray) -> float:
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         If a rate is negative, NaN or not a number.
 
     Examples

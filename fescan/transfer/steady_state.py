@@ -290,7 +290,7 @@ def solve_steady_state(model: WireModel, *, method: str = "auto",
 
     Raises
     ------
-    fescan.errors.ConfigError
+    fescan.core.errors.ConfigError
         On an unknown method, an exact request above the limit, a disconnected network or a
         mean-field iteration that does not converge.
     """

@@ -29,6 +29,7 @@ from fescan.transfer.coordinate_error import CoordinateError, sigma_from_b
 from fescan.transfer.intervals import (
     LAW_SCATTER_DECADES,
     LEVELS,
+    MONTE_CARLO_SAMPLES,
     REORG_RANGE,
     QuantityInterval,
     hop_rate_of,
@@ -286,7 +287,7 @@ def wire_uncertainty(
     result: Any,
     *,
     method: str = "monte-carlo",
-    n_samples: int = 1000,
+    n_samples: int = MONTE_CARLO_SAMPLES,
     seed: int | None = 0,
     level: str = "95%",
     reorg_range: tuple[float, float] = REORG_RANGE,
@@ -302,7 +303,8 @@ def wire_uncertainty(
     method : {"monte-carlo"}, optional
         The only method (seeded Monte Carlo over coordinates, λ scenarios, law bound).
     n_samples : int, optional
-        Samples per λ scenario (default 1000, at least 100).
+        Samples per λ scenario (default :data:`~fescan.transfer.intervals.MONTE_CARLO_SAMPLES`,
+        1000; at least 100).
     seed : int or None, optional
         Seed (default 0: the same numbers on every run).
     level : {"95%", "68%"}, optional
