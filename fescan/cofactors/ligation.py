@@ -50,6 +50,9 @@ __all__ = [
 #: Longest metal-ligand distance accepted per donor element (Å).
 LIGAND_MAX = {"S": 3.0, "SE": 3.0, "N": 2.6, "O": 2.6, "CL": 2.8, "BR": 2.9}
 _OWN_RESIDUE_CARBON_MAX = 2.2
+#: Longer limits for a larger ion: Ca-O is about 2.4 Å and up to about 2.8 Å in 7-8-coordinate sites
+#: (Harding 2006 Acta Cryst D62:678, values from memory); 3.0 Å allows for the error of 3 Å data.
+_ION_LIGAND_MAX = {("CA", "O"): 3.0}
 #: A non-bonded heavy atom closer than this to a core atom is a clash (Å).
 CLASH_MAX = 2.5
 #: Classes whose every Fe is expected to be four-coordinate.
@@ -134,13 +137,14 @@ def find_ligands(
         tree = cKDTree(env.xyz)
     ligands: list[tuple[int, Ligand]] = []
     ligand_rows: set[int] = set()
+    alt = env.altloc
     for m in metal_rows:
         for j in tree.query_ball_point(env.xyz[m], r=3.0):
-            if j in core_rows:
+            if j in core_rows or (alt[m] and alt[j] and alt[j] != alt[m]):  # another conformation
                 continue
             e = env.element[j]
             d = float(np.linalg.norm(env.xyz[m] - env.xyz[j]))
-            limit = LIGAND_MAX.get(e)
+            limit = _ION_LIGAND_MAX.get((env.element[m], e), LIGAND_MAX.get(e))
             if limit is None and e == "C" and int(env.res_id[j]) in own_res_ids:
                 limit = _OWN_RESIDUE_CARBON_MAX
             if limit is None or d > limit:
@@ -155,7 +159,8 @@ def find_ligands(
     clashes = []
     for c in sorted(core_rows):
         for j in tree.query_ball_point(env.xyz[c], r=CLASH_MAX):
-            if j in core_rows or j in ligand_rows or int(env.res_id[j]) in own_res_ids:
+            if j in core_rows or j in ligand_rows or int(env.res_id[j]) in own_res_ids \
+                    or (alt[c] and alt[j] and alt[j] != alt[c]):
                 continue
             clashes.append((c, j, float(np.linalg.norm(env.xyz[c] - env.xyz[j]))))
     return ligands, clashes

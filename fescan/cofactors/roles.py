@@ -27,7 +27,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from fescan.cofactors.metal_sites import composition_string
+from fescan.cofactors.metal_sites import STRUCTURAL_METALS, composition_string
 from fescan.cofactors.registry import ccd_table
 from fescan.cofactors.subclasses import fes_subclass, heme_ligation, rieske_subclass
 from fescan.core.errors import ConfigError
@@ -227,6 +227,9 @@ def _iron(cof: Cofactor, others: Sequence[Cofactor]) -> tuple[str, str, str]:
             return "structural", "", (f"non-heme Fe {where}: the acceptor-side iron of type II reaction centres "
                                       "does not carry the electron from QA to QB (Ferreira et al. 2004 Science "
                                       "303:1831)")
+        active = _his_carboxylate_site("Fe", prot)
+        if active is not None:
+            return "catalytic", *active
         return "catalytic", "", f"mononuclear non-heme Fe with {len(prot)} protein ligands: an active site"
     if m["FE"] <= 4:
         return "catalytic", "", f"{m['FE']} Fe with no sulfide (diiron-type): an active site"
@@ -257,21 +260,105 @@ def _metal(cof: Cofactor, others: Sequence[Cofactor]) -> tuple[str, str, str]:
                                            "an oxoanion or ion bound from the solution")
         return "ion or additive", "", (f"Mo/W/V with {len(prot)} protein ligands but no pterin dithiolene: "
                                        "not a Mo/W-pterin site, kept off the wire")
+    if set(m) <= STRUCTURAL_METALS:
+        return _structural_ion(cof, others, m, prot)
     if len(prot) <= 1:
         el = "/".join(sorted(x.capitalize() for x in m))
         return "ion or additive", "", f"{el} with {len(prot)} protein ligand(s): no binding site, an adventitious ion"
     if m.get("NI") and kinds["Cys S"] >= 2:
         return "catalytic", "", f"Ni bound by {kinds['Cys S']} Cys: a Ni active site"
     if m.get("MN"):
-        for o in others:
-            if o.category == "heme" and o.cls in ("heme a", "heme o") and _fe_xyz(o) is not None \
-                    and _dist(_fe_xyz(o), next(a.xyz for a in cof.redox_atoms if a.element == "MN")) <= _OXIDASE_MN:
-                return "structural", "", (f"Mn {_OXIDASE_MN:g} Å or less from {o.label}: the Mg/Mn site of "
-                                          "cytochrome c oxidase, no redox role (Svensson-Ek et al. 2002 J Mol Biol "
-                                          "321:329)")
+        oxidase = _oxidase_heme(cof, others, "MN")
+        if oxidase is not None:
+            return "structural", "", (f"Mn {_OXIDASE_MN:g} Å or less from {oxidase.label}: the Mg/Mn site of "
+                                      "cytochrome c oxidase, no redox role (Svensson-Ek et al. 2002 J Mol Biol "
+                                      "321:329)")
+        if sum(m.values()) == 1:
+            active = _his_carboxylate_site("Mn", prot)
+            if active is not None:
+                return "catalytic", *active
     el = "/".join(sorted(x.capitalize() for x in m))
-    return "structural", "", (f"single {el} with {len(prot)} protein ligands and no cluster: no redox role "
-                              "assumed at this site (override in the parameter file if it is catalytic)")
+    what = f"single {el}" if sum(m.values()) == 1 else f"{composition_string(list(m.elements()))} site"
+    return "structural", "", (f"{what} with {len(prot)} protein ligands ({_ligand_set(prot)}) and no cluster: "
+                              "no redox role assumed at this site (override in the parameter file if it is "
+                              "catalytic)")
+
+
+def _his_carboxylate_site(el: str, prot: Sequence) -> tuple[str, str] | None:
+    """(sub-class, reason) of a mononuclear Mn/Fe held by His and Asp/Glu, the active-site sets; else None.
+
+    Three His and one Asp/Glu: the Mn and Fe superoxide dismutase site (Borgstahl et al. 1992
+    Cell 71:107); two His and one Asp/Glu: the 2-His-1-carboxylate facial triad of mononuclear
+    O2-activating enzymes (Hegg & Que 1997 Eur J Biochem 250:625).
+    """
+    kinds = Counter(lig.kind for lig in prot)
+    his, carboxylate = kinds["His N"], kinds["Asp O"] + kinds["Glu O"]
+    if his >= 3 and carboxylate >= 1:
+        return "SOD-type", (f"mononuclear {el} bound by {_ligand_set(prot)}: the 3 His + 1 Asp set of the Mn and Fe "
+                            "superoxide dismutase active site (Borgstahl et al. 1992 Cell 71:107)")
+    if his >= 2 and carboxylate >= 1:
+        return "2-His-1-carboxylate", (f"mononuclear {el} bound by {_ligand_set(prot)}: the 2-His-1-carboxylate "
+                                       "facial triad of mononuclear O2-activating enzymes (Hegg & Que 1997 Eur J "
+                                       "Biochem 250:625)")
+    return None
+
+
+def _oxidase_heme(cof: Cofactor, others: Sequence[Cofactor], element: str) -> Cofactor | None:
+    """The heme a/o within :data:`_OXIDASE_MN` Å of the site's ``element`` atom (the oxidase Mg/Mn site)."""
+    xyz = next((a.xyz for a in cof.redox_atoms if a.element == element), None)
+    if xyz is None:
+        return None
+    for o in others:
+        if o.category == "heme" and o.cls in ("heme a", "heme o") and _fe_xyz(o) is not None \
+                and _dist(_fe_xyz(o), xyz) <= _OXIDASE_MN:
+            return o
+    return None
+
+
+def _ligand_set(prot: Sequence) -> str:
+    """Protein ligands counted by residue, e.g. ``"3 His and 1 Asp"`` or ``"2 Asp, 1 Glu and 1 backbone O"``."""
+    residues: dict[tuple, str] = {}
+    for lig in prot:
+        a = lig.atom
+        kind = lig.kind if lig.kind.startswith("backbone") else lig.kind.split()[0]
+        residues.setdefault((a.chain, a.seqnum, a.icode, kind), kind)
+    cnt = Counter(residues.values())
+    parts = [f"{n} {k}" for k, n in sorted(cnt.items(), key=lambda t: (-t[1], t[0]))]
+    if not parts:
+        return "no protein ligand"
+    return parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]
+
+
+def _n_ligand_residues(prot: Sequence) -> int:
+    return len({(lig.atom.chain, lig.atom.seqnum, lig.atom.icode) for lig in prot})
+
+
+_ION_NAMES = {"ZN": "zinc", "CA": "calcium", "MG": "magnesium"}
+
+
+def _structural_ion(cof: Cofactor, others: Sequence[Cofactor], m: Counter,
+                    prot: Sequence) -> tuple[str, str, str]:
+    """Role of a Zn, Ca or Mg site: structural with two or more protein ligand residues, else an ion.
+
+    These metals have no redox chemistry in proteins (one oxidation state, closed-shell
+    Zn(II), Ca(II), Mg(II)); they are listed apart and never put on a wire.
+    """
+    el = "/".join(sorted(x.capitalize() for x in m))
+    n_res = _n_ligand_residues(prot)
+    waters = sum(1 for lig in cof.ligands if lig.kind == "water O")
+    wet = f" (+{waters} water)" if waters else ""
+    if n_res <= 1:
+        return "ion or additive", "", (f"{el} bound by {_ligand_set(prot)}{wet}: fewer than two protein "
+                                       "residues, an ion from the solution; no redox role")
+    if "MG" in m:
+        oxidase = _oxidase_heme(cof, others, "MG")
+        if oxidase is not None:
+            return "structural", "", (f"Mg bound by {_ligand_set(prot)}{wet}, {_OXIDASE_MN:g} Å or less from "
+                                      f"{oxidase.label}: the Mg/Mn site of cytochrome c oxidase, no redox role "
+                                      "(Svensson-Ek et al. 2002 J Mol Biol 321:329)")
+    names = "/".join(_ION_NAMES[x] for x in sorted(m))
+    return "structural", "", (f"{el} bound by {_ligand_set(prot)}{wet}: a structural {names} site, "
+                              "no redox role")
 
 
 def _role_of(cof: Cofactor, others: Sequence[Cofactor], clusters_per_chain: Counter) -> tuple[str, str, str]:

@@ -61,7 +61,7 @@ import logging
 import math
 import os
 import re
-from dataclasses import asdict, dataclass
+from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -74,6 +74,7 @@ from fescan.core.errors import (
     StructureFileError,
 )
 from fescan.structure.altlocs import (
+    AltlocStates,
     apply_altloc_policy,
     choose_model,
     model_numbers,
@@ -203,6 +204,9 @@ class LoadedStructure:
         when the file's model numbers are missing, repeated or not positive).
     info : StructureInfo
         Summary of the entry.
+    altloc_states : dict
+        Residues that had two or more altloc labels, with each label's mean
+        occupancy, before the altloc policy (:data:`fescan.structure.altlocs.AltlocStates`).
     """
 
     path: str
@@ -210,6 +214,7 @@ class LoadedStructure:
     model: gemmi.Model
     model_number: int
     info: StructureInfo
+    altloc_states: AltlocStates = field(default_factory=dict)
 
 
 def detect_format(data: str | bytes) -> str:
@@ -341,7 +346,7 @@ def read_structure(
     check_residue_sizes(name, chosen)
     check_metal_aggregates(name, chosen)
     notes += occupancy_notes(chosen, occupancy_suspect)
-    apply_altloc_policy(chosen, altloc)
+    altloc_states = apply_altloc_policy(chosen, altloc)
 
     entry_id = _entry_id(st, name)
     st.name = entry_id
@@ -369,7 +374,8 @@ def read_structure(
         info.n_atoms,
     )
     return LoadedStructure(
-        path=name, structure=st, model=chosen, model_number=numbers[index], info=info
+        path=name, structure=st, model=chosen, model_number=numbers[index], info=info,
+        altloc_states=altloc_states,
     )
 
 
