@@ -40,6 +40,7 @@ from fescan.cofactors.ligation import (
 from fescan.cofactors.metal_sites import (
     METALS,
     SITE_METALS,
+    STRUCTURAL_METALS,
     MetalSite,
     composition_string,
     core_class,
@@ -265,7 +266,7 @@ class _Builder(OrganicMixin):
         names = {str(c.resname[i]) for i in core}
         code = names.pop() if len(res_ids) == 1 else None
         entry = self.table.get(code) if code else None
-        if code is not None and entry is None and code not in METAL_ION_CODES:
+        if code is not None and entry is None and code not in METAL_ION_CODES and code not in STRUCTURAL_METALS:
             code = None  # UNL, LIG or a private name: not a CCD code of a cofactor
         detected_by = "geometry"
         expected = None

@@ -17,6 +17,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from fescan.cofactors.atoms import AtomArrays
+from fescan.core.records import ION_SITE_METALS
 
 __all__ = [
     "METALS",
@@ -32,7 +33,7 @@ __all__ = [
 METALS = frozenset({"FE", "NI", "MO", "V", "W", "CU", "MN", "CO"})
 #: Metals with no redox role: a bare ion (a residue with no C, N, S or P) seeds a site of its own,
 #: listed apart as structural (never on a wire); the one link kept is Ca to Mn (the Mn4CaO5 cluster).
-STRUCTURAL_METALS = frozenset({"ZN", "CA", "MG"})
+STRUCTURAL_METALS = ION_SITE_METALS
 #: Every element that can seed a metal site.
 SITE_METALS = METALS | STRUCTURAL_METALS
 _NOT_BARE = ("C", "N", "S", "P")

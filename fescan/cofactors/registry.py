@@ -26,8 +26,7 @@ UNKNOWN_LIGAND_CODES = frozenset({"UNL", "LIG", "UNK", "UNX", "DUM", "XXX", "LG1
 
 #: Single-ion CCD codes whose residue name we keep as the cofactor's code.
 METAL_ION_CODES = frozenset(
-    {"FE", "FE2", "FE3", "CU", "CU1", "CU3", "NI", "NI3", "3NI", "MN", "MN3", "MO", "4MO", "6MO", "V", "W", "CO", "3CO",
-     "ZN", "CA", "MG"}
+    {"FE", "FE2", "FE3", "CU", "CU1", "CU3", "NI", "NI3", "3NI", "MN", "MN3", "MO", "4MO", "6MO", "V", "W", "CO", "3CO"}
 )
 
 

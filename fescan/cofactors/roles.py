@@ -346,10 +346,14 @@ def _structural_ion(cof: Cofactor, others: Sequence[Cofactor], m: Counter,
     el = "/".join(sorted(x.capitalize() for x in m))
     n_res = _n_ligand_residues(prot)
     waters = sum(1 for lig in cof.ligands if lig.kind == "water O")
-    wet = f" (+{waters} water)" if waters else ""
+    own = {id(lig) for lig in prot}
+    groups = sorted({lig.atom.resname for lig in cof.ligands if id(lig) not in own and lig.kind != "water O"})
+    extra = [f"{waters} water"] if waters else []
+    extra += groups
+    wet = f" (+{', '.join(extra)})" if extra else ""
     if n_res <= 1:
         return "ion or additive", "", (f"{el} bound by {_ligand_set(prot)}{wet}: fewer than two protein "
-                                       "residues, an ion from the solution; no redox role")
+                                       "residues hold it: an ion from the solution or carried by a bound ligand, no redox role")
     if "MG" in m:
         oxidase = _oxidase_heme(cof, others, "MG")
         if oxidase is not None:
