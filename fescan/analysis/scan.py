@@ -229,7 +229,8 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
                                coordinate_error=_deposited_coordinate_error(str(path)))
     cofactors = with_altloc_states(cofactors, loaded.altloc_states, opts.altloc)
     user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
-    every_param = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
+    every_param = assign_parameters(cofactors, user, context_subclasses([c for c in cofactors if not c.is_ion_site],
+                                                                            _landmarks(loaded.model)))
     roles = {c.key: every_param[c.uid].role for c in cofactors if every_param[c.uid].role}
     if roles:
         cofactors = apply_role_overrides(cofactors, roles, origin=f"parameter file {opts.potentials_file}")

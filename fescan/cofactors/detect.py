@@ -353,7 +353,8 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     for site in sites:
         b.metal_site(site)
     b.cofactors.sort(key=lambda t: t[0])
-    cofs = [with_states(cof, b.states, b.index.residues) for _, cof in b.cofactors]
+    residues = b.index.residues if b.states else []  # built once (a list of every residue)
+    cofs = [with_states(cof, b.states, residues) for _, cof in b.cofactors]
     return assign_roles(unique_keys(cofs))
 
 

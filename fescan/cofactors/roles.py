@@ -123,12 +123,12 @@ def merge_bridged_sites(cofactors: Sequence[Cofactor]) -> list[Cofactor]:
     changed = True
     while changed:
         changed = False
-        for i in range(len(out)):
-            for j in range(i + 1, len(out)):
+        # only metal sites holding a Cys/Sec ligand can be bridged (Zn/Ca/Mg ions never are)
+        cand = [k for k, c in enumerate(out) if c.category not in ("heme", "flavin", "quinone")
+                and not c.is_ion_site and any(lig.kind in ("Cys S", "Sec Se") for lig in c.ligands)]
+        for n, i in enumerate(cand):
+            for j in cand[n + 1:]:
                 a, b = out[i], out[j]
-                if "heme" in (a.category, b.category) or a.category in ("flavin", "quinone") \
-                        or b.category in ("flavin", "quinone"):
-                    continue
                 shared = _shared_ligands(a, b)
                 if not shared:
                     continue
