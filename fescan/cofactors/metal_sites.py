@@ -1,5 +1,8 @@
 """Metal sites by geometry: Fe and inorganic S (and Mo, V, Ni, W, Cu, Mn, C/N) linked at bonding distance.
 
+A bare Zn, Ca or Mg ion (its residue holds no C, N, S or P) is a site of its own, to be
+listed apart with no redox role; it links to nothing but, for Ca, the Mn of a Mn4Ca cluster.
+
 A site is a connected component of the graph whose nodes are metal atoms and
 "inorganic" light atoms (an S, Se, C or N bonded to metals but to no organic
 atom) and whose edges are metal-bridge bonds and short metal-metal contacts.

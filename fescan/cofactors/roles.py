@@ -6,11 +6,14 @@ Every cofactor gets a role (:data:`fescan.core.records.ROLES`):
   CuA, type 1 Cu, flavins, quinones);
 * ``catalytic``: a multi-electron active site where electrons start or end
   ([NiFe], the [FeFe] H-cluster, FeMo-co, Mo/W-pterin sites, CuZ, Mn4CaO5,
-  heme a3 + CuB, type 2 / type 3 / trinuclear Cu, non-heme Fe and diiron sites);
+  heme a3 + CuB, type 2 / type 3 / trinuclear Cu, non-heme Fe and diiron sites,
+  a single Mn held by His and Asp/Glu as in Mn superoxide dismutase);
 * ``structural``: a metal with no redox role at that site (the Mn/Mg site of
-  cytochrome c oxidase, the non-heme Fe between QA and QB);
+  cytochrome c oxidase, the non-heme Fe between QA and QB, Zn/Ca/Mg held by
+  two or more protein residues);
 * ``ion or additive``: oxoanions (MoO4, WO4, VO4), metals with no protein
-  ligand sphere, and anything not recognised that should stay off the wire.
+  ligand sphere (a Zn/Ca/Mg with at most one protein residue), and anything not
+  recognised that should stay off the wire.
 
 The role comes from the packaged CCD table when the code fixes it, else from
 the site's geometry: its ligand set, nuclearity and neighbours. A user file can
