@@ -389,3 +389,78 @@ def h_cluster() -> gemmi.Structure:
     st.add_model(m)
     st.setup_entities()
     return st
+
+
+_OCTAHEDRON = ((1, 0, 0), (-1, 0, 0), (0, 1, 0), (0, -1, 0), (0, 0, 1), (0, 0, -1))
+
+
+def mononuclear_site(metal: str, ligands: list[tuple[str, str, str, float]], code: str | None = None,
+                     num: int = 501) -> gemmi.Residue | gemmi.Structure:
+    """One metal ion (residue ``code``, default the element) at the origin with ligands on octahedral directions.
+
+    ``ligands`` holds ``(residue name, atom name, element, distance in Å)``; a ``HIS`` binds by NE2
+    with its ring further out, ``HOH`` is a water, anything else a two-atom stub (donor + carbon).
+    """
+    xyz = np.zeros(3)
+    residues = []
+    for k, ((resname, atom, el, d), u) in enumerate(zip(ligands, _OCTAHEDRON)):
+        num_l = 10 + 7 * k
+        if resname == "HIS":
+            residues.append(_his(num_l, xyz, u, d))
+        elif resname == "HOH":
+            w = _residue("HOH", 900 + k, het=True)
+            w.add_atom(_atom("O", "O", xyz + d * np.asarray(u, dtype=float)))
+            residues.append(w)
+        else:
+            residues.append(_ligand(resname, atom, el, num_l, xyz, u, d))
+    ion = _residue(code or metal.upper(), num, het=True)
+    ion.add_atom(_atom(metal.upper(), metal.capitalize(), xyz))
+    residues.append(ion)
+    return _structure(residues)
+
+
+#: Ligand sets (residue, atom, element, distance Å); distances typical of each metal (from memory,
+#: Harding 2006 Acta Cryst D62:678 tabulates them: M-N(His) about 2.1-2.2, Zn-S(Cys) 2.3, Ca-O 2.4, Mg-O 2.1).
+SOD_SET = [("HIS", "NE2", "N", 2.15), ("HIS", "NE2", "N", 2.15), ("HIS", "NE2", "N", 2.15), ("ASP", "OD2", "O", 2.05),
+           ("HOH", "O", "O", 2.2)]
+ZN_CYS4 = [("CYS", "SG", "S", 2.33)] * 4
+CA_SITE = [("ASP", "OD1", "O", 2.4), ("ASP", "OD1", "O", 2.4), ("GLU", "OE1", "O", 2.45), ("LEU", "O", "O", 2.4),
+           ("HOH", "O", "O", 2.45), ("HOH", "O", "O", 2.45)]
+MG_ONE_ASP = [("ASP", "OD1", "O", 2.1), ("HOH", "O", "O", 2.1), ("HOH", "O", "O", 2.1), ("HOH", "O", "O", 2.1)]
+
+
+def altloc_metal(metal: str = "FE", gap: float = 1.5, occ: tuple[float, float] = (0.6, 0.4)) -> gemmi.Structure:
+    """A metal modelled at two positions ``gap`` Å apart inside one residue (altloc A and B, same atom name),
+    among three His and one Asp at 2.15 Å from the midpoint (residue named after the element, number 601)."""
+    st = mononuclear_site(metal, SOD_SET[:4], num=601)
+    ch = st[0]["A"]
+    ion = _residue(ch[len(ch) - 1].name, 601, het=True)
+    u = np.array([1.0, 1.0, 1.0]) / np.sqrt(3)
+    for label, sign, o in (("A", 1.0, occ[0]), ("B", -1.0, occ[1])):
+        a = _atom(metal.upper(), metal.capitalize(), sign * 0.5 * gap * u)
+        a.altloc, a.occ = label, o
+        ion.add_atom(a)
+    del ch[len(ch) - 1]
+    ch.add_residue(ion)
+    return st
+
+
+def altloc_cluster(shift: float = 0.6, occ: tuple[float, float] = (0.6, 0.4)) -> gemmi.Structure:
+    """The [4Fe-4S] of :func:`tests.synth.four_fe_cluster` in two positions inside its one residue:
+    altloc A as built, altloc B moved ``shift`` Å along x (occupancies ``occ``)."""
+    from tests.synth import four_fe_cluster
+
+    st = four_fe_cluster()
+    ch = st[0]["A"]
+    res = ch[len(ch) - 1]
+    atoms = [res[i].clone() for i in range(len(res))]
+    twin = _residue(res.name, res.seqid.num, het=True)
+    for label, dx, o in (("A", 0.0, occ[0]), ("B", shift, occ[1])):
+        for a in atoms:
+            b = a.clone()
+            b.pos = gemmi.Position(a.pos.x + dx, a.pos.y, a.pos.z)
+            b.altloc, b.occ = label, o
+            twin.add_atom(b)
+    del ch[len(ch) - 1]
+    ch.add_residue(twin)
+    return st

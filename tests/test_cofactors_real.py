@@ -39,12 +39,14 @@ INVENTORY = [
               "M/821": "FAD", "N/244": "[2Fe-2S]", "N/245": "[3Fe-4S]", "N/246": "[4Fe-4S]"}),
     ("1BE3", {"C/1": "heme b", "C/2": "heme b", "D/3": "heme c", "E/4": "Rieske [2Fe-2S]"}),
     ("1CLF", {"A/56": "[4Fe-4S]", "A/57": "[4Fe-4S]"}),
-    ("4CRM", {"P/1610": "[4Fe-4S]", "P/1611": "[4Fe-4S]"}),
+    # 4CRM: MG P/1613 is the Mg of ATP P/1609 (the entry's struct_conn metalc3/metalc4), listed apart as an ion
+    ("4CRM", {"P/1610": "[4Fe-4S]", "P/1611": "[4Fe-4S]", "P/1613": "Mg"}),
     ("3EK3", {"A/200": "FMN"}),  # SOURCES.md: flavin-only case (UNL A is no flavin)
     ("2FUG", {"7/500": "FMN", "1/439": "[4Fe-4S]", "2/182": "[2Fe-2S]", "3/787": "[2Fe-2S]",
               "3/784": "[4Fe-4S]", "3/785": "[4Fe-4S]", "3/786": "[4Fe-4S]", "9/183": "[4Fe-4S]",
               "9/184": "[4Fe-4S]", "6/182": "[4Fe-4S]"}),
-    ("1YQ9", {"A/265": "[4Fe-4S]", "A/266": "[3Fe-4S]", "A/267": "[4Fe-4S]", "H/538": "NiFe"}),
+    # 1YQ9: SOURCES.md "Other HET: MG H/540", listed apart as a structural Mg
+    ("1YQ9", {"A/265": "[4Fe-4S]", "A/266": "[3Fe-4S]", "A/267": "[4Fe-4S]", "H/538": "NiFe", "H/540": "Mg"}),
 ]
 
 

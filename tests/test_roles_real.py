@@ -94,3 +94,38 @@ def test_user_file_puts_the_psii_iron_back_on_the_wire(tmp_path):
     res = scan(entry_path("2AXT"), potentials_file=str(toml))
     fe = _by_key(res)["A/557"]
     assert fe.role == "relay" and fe.uid in res.graph
+
+
+# -- Zn, Ca, Mg: listed apart, never on a wire ---------------------------------------------
+def test_1yq9_magnesium_is_structural_and_off_the_wire():
+    # SOURCES.md: MG H/540, 12-13 Å from Ni/Fe; the entry's LINK records bind it to Glu H/46 OE1, the
+    # backbone O of Leu H/482, His H/536 NE2 and three waters
+    res = scan(entry_path("1YQ9"))
+    mg = _by_key(res)["H/540"]
+    assert mg.is_ion_site and mg.role == "structural"
+    assert mg.role_reason.startswith("Mg bound by 1 Glu, 1 His and 1 backbone O (+3 water)")
+    assert {(lig.atom.resname, lig.atom.seqnum) for lig in mg.ligands if lig.kind != "water O"} == {
+        ("GLU", 46), ("LEU", 482), ("HIS", 536)}
+    assert mg.uid not in res.graph and any(o["id"] == mg.uid for o in res.off_wire)
+
+
+def test_2axt_calcium_ions_are_structural_and_the_oec_calcium_stays_in_its_cluster(psii):
+    # the entry's LINK records: CA K/56 bound by Asp K/19 OD1 and Asp K/23 OD2 (2.84, 2.86 Å), CA k/5056 by
+    # Asp k/5019 OD1/OD2 and Asp k/5023 OD2; SOURCES.md: OEC A/565 and a/5565 hold [Ca Mn4]
+    cofs = _by_key(psii)
+    for key, asp in (("K/56", {19, 23}), ("k/5056", {5019, 5023})):
+        ca = cofs[key]
+        assert ca.is_ion_site and ca.role == "structural" and ca.role_reason.startswith("Ca bound by 2 Asp")
+        assert {lig.atom.seqnum for lig in ca.ligands if lig.kind == "Asp O"} == asp
+        assert ca.uid not in psii.graph
+    for key in ("A/565", "a/5565"):
+        assert cofs[key].composition == "Mn4Ca" and cofs[key].role == "catalytic"
+    assert sum(1 for c in psii.cofactors if c.is_ion_site) == 2  # no Ca split out of an OEC
+
+
+def test_4crm_magnesium_of_atp_is_an_ion():
+    # the entry's struct_conn metalc3/metalc4: MG P/1613 bound to O1G and O2B of ATP P/1609 (EM, 8.75 Å)
+    res = scan(entry_path("4CRM"))
+    mg = _by_key(res)["P/1613"]
+    assert mg.role == "ion or additive" and "ATP" in mg.role_reason
+    assert mg.uid not in res.graph

@@ -15,6 +15,7 @@ import numpy as np
 
 from fescan.cofactors import count_not_analysed, find_cofactors
 from fescan.cofactors.header_check import missing_cofactor_notes, models_with_cofactors
+from fescan.cofactors.inventory import with_altloc_states
 from fescan.cofactors.roles import apply_role_overrides
 from fescan.core.errors import CofactorNotFound, ConfigError
 from fescan.core.jsonutil import finite_json
@@ -222,8 +223,10 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
     cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution,
                                coordinate_error=_deposited_coordinate_error(loaded.refinement))
+    cofactors = with_altloc_states(cofactors, loaded.altloc_states, opts.altloc)
     user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
-    every_param = assign_parameters(cofactors, user, context_subclasses(cofactors, _landmarks(loaded.model)))
+    every_param = assign_parameters(cofactors, user, context_subclasses([c for c in cofactors if not c.is_ion_site],
+                                                                            _landmarks(loaded.model)))
     roles = {c.key: every_param[c.uid].role for c in cofactors if every_param[c.uid].role}
     if roles:
         cofactors = apply_role_overrides(cofactors, roles, origin=f"parameter file {opts.potentials_file}")

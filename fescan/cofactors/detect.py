@@ -38,6 +38,8 @@ from fescan.cofactors.ligation import (
 )
 from fescan.cofactors.metal_sites import (
     METALS,
+    SITE_METALS,
+    STRUCTURAL_METALS,
     MetalSite,
     composition_string,
     core_class,
@@ -235,7 +237,7 @@ class _Builder(OrganicMixin):
         if core_alts:  # altloc="all": keep the atoms of this conformation only
             atom_rows = np.asarray([i for i in atom_rows if c.altloc[i] in core_alts or not c.altloc[i]], dtype=int)
         env_core = self._env_rows(core)
-        env_metals = [e for e, ci in zip(env_core, core) if c.element[ci] in METALS]
+        env_metals = [e for e, ci in zip(env_core, core) if c.element[ci] in SITE_METALS]
         pterins = bound_pterins(c, self.by_res, [i for i in core if c.element[i] in PTERIN_METALS],
                                 self.pterin_codes, tree=self._cand_tree)
         own = set(res_ids) | {p.res_id for p in pterins}
@@ -261,7 +263,7 @@ class _Builder(OrganicMixin):
         names = {str(c.resname[i]) for i in core}
         code = names.pop() if len(res_ids) == 1 else None
         entry = self.table.get(code) if code else None
-        if code is not None and entry is None and code not in METAL_ION_CODES:
+        if code is not None and entry is None and code not in METAL_ION_CODES and code not in STRUCTURAL_METALS:
             code = None  # UNL, LIG or a private name: not a CCD code of a cofactor
         detected_by = "geometry"
         expected = None
@@ -284,7 +286,7 @@ class _Builder(OrganicMixin):
         if entry is not None and detected_by == "ccd" and not any(f.code == "incomplete_cluster" for f in flags):
             flags.append(Flag("class_mismatch", "warning",
                               f"atoms form {core_class(elements, site.bonds, core)[1]} but the code says {entry.cls}"))
-        first_metal = next(i for i in core if c.element[i] in METALS)
+        first_metal = next((i for i in core if c.element[i] in METALS), next(i for i in core if c.element[i] in SITE_METALS))
         extra: dict = {"coordination": coordination}
         if category == "iron-sulfur" and "S" in elements:
             lig_rows = self._ligand_rows(ligands)
@@ -340,7 +342,7 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
     heme_fe = b.heme_iron()
     sites = b.find_sites(heme_fe)
     points = [b.cand.xyz[i] for i in heme_fe.values()]
-    points += [b.cand.xyz[i] for s in sites for i in s.core if b.cand.element[i] in METALS]
+    points += [b.cand.xyz[i] for s in sites for i in s.core if b.cand.element[i] in SITE_METALS]
     own = {int(b.cand.res_id[i]) for i in heme_fe.values()}
     own |= {int(b.cand.res_id[i]) for s in sites for i in s.core}
     b.prepare_environment(np.asarray(points, dtype=float).reshape(-1, 3), own)

@@ -11,7 +11,7 @@ import gemmi
 from fescan.cofactors.registry import ccd_table
 from fescan.core.records import Cofactor, Flag
 
-__all__ = ["with_states", "unique_keys", "count_not_analysed"]
+__all__ = ["with_states", "with_altloc_states", "unique_keys", "count_not_analysed"]
 
 
 def with_states(cof: Cofactor, states: dict, keys: Mapping[int, str]) -> Cofactor:
@@ -44,6 +44,58 @@ def with_states(cof: Cofactor, states: dict, keys: Mapping[int, str]) -> Cofacto
                 f"modelled in {len(names)} overlapping states ({'; '.join(names)}): analysed as one cofactor, "
                 f"in the state of highest occupancy")
     return replace(cof, states=tuple(names), flags=cof.flags + (flag,))
+
+
+def with_altloc_states(cofactors: list[Cofactor], altloc_states: dict, policy: str = "occupancy") -> list[Cofactor]:
+    """Name the altloc labels of each cofactor residue modelled in two or more states inside one residue.
+
+    The reader keeps one label per residue (:func:`fescan.structure.altlocs.apply_altloc_policy`)
+    and records what it saw; this puts it on the cofactors, e.g. ``("altloc A occ 0.60 (kept)",
+    "altloc B occ 0.40")``, with a note. Alternative positions never reach the site search
+    together (the dropped label is gone), so they cannot form a false multinuclear site.
+
+    Parameters
+    ----------
+    cofactors : list of Cofactor
+    altloc_states : dict
+        :attr:`fescan.structure.reading.LoadedStructure.altloc_states`: ``(chain, seqnum,
+        icode, residue name)`` → ``(label, mean occupancy, residue name, atoms)`` per label.
+    policy : str, optional
+        The altloc policy the reader applied: with ``"all"`` every label stays in the model and
+        each part of the cofactor is marked ``(this part)`` instead of ``(kept)``.
+
+    Returns
+    -------
+    list of Cofactor
+        Same order; cofactors with no such residue are returned unchanged.
+    """
+    if not altloc_states:
+        return list(cofactors)
+    by_label = {f"{c}/{n}{i} {name}": v for (c, n, i, name), v in altloc_states.items()}
+    mark = "this part" if policy == "all" else "kept"
+    out = []
+    for cof in cofactors:
+        names: list[str] = []
+        for res_label in cof.residues:
+            labels = by_label.get(res_label)
+            if not labels:
+                continue
+            held = {a.altloc for a in cof.atoms if a.altloc and f"{a.residue} {a.resname}" == res_label}
+            several = len(cof.residues) > 1
+            renamed = len({v[2] for v in labels}) > 1
+            for label, occ, resname, _ in labels:
+                who = f"{res_label} " if several else ""
+                alias = f" {resname}" if renamed else ""
+                names.append(f"{who}altloc {label}{alias} occ {occ:.2f}{f' ({mark})' if label in held else ''}")
+        if not names:
+            out.append(cof)
+            continue
+        flag = Flag("alternative_states", "note",
+                    f"modelled in {len(names)} alternative locations inside one residue ({'; '.join(names)}); "
+                    + ("each analysed as its own part" if policy == "all"
+                       else f"the one marked kept is analysed (altloc policy {policy!r})"))
+        out.append(replace(cof, states=cof.states + tuple(names), flags=cof.flags + (flag,)))
+    return out
 
 
 def unique_keys(cofactors: list[Cofactor]) -> list[Cofactor]:

@@ -50,6 +50,9 @@ __all__ = [
 #: Longest metal-ligand distance accepted per donor element (Å).
 LIGAND_MAX = {"S": 3.0, "SE": 3.0, "N": 2.6, "O": 2.6, "CL": 2.8, "BR": 2.9}
 _OWN_RESIDUE_CARBON_MAX = 2.2
+#: Longer limits for a larger ion: Ca-O is about 2.4 Å and up to about 2.8 Å in 7-8-coordinate sites
+#: (Harding 2006 Acta Cryst D62:678, values from memory); 3.0 Å allows for the error of 3 Å data.
+_ION_LIGAND_MAX = {("CA", "O"): 3.0}
 #: A non-bonded heavy atom closer than this to a core atom is a clash (Å).
 CLASH_MAX = 2.5
 #: Classes whose every Fe is expected to be four-coordinate.
@@ -134,15 +137,16 @@ def find_ligands(
         tree = NeighbourTree(env.xyz)
     ligands: list[tuple[int, Ligand]] = []
     ligand_rows: set[int] = set()
+    alt = env.altloc
     metals = [int(m) for m in metal_rows]
     near_metal = tree.query_ball_point(env.xyz[metals].reshape(-1, 3), r=3.0) if metals else []
     for m, hits in zip(metals, near_metal):  # one batched search for every metal of the site
         for j in hits:
-            if j in core_rows:
+            if j in core_rows or (alt[m] and alt[j] and alt[j] != alt[m]):  # another conformation
                 continue
             e = env.element[j]
             d = float(np.linalg.norm(env.xyz[m] - env.xyz[j]))
-            limit = LIGAND_MAX.get(e)
+            limit = _ION_LIGAND_MAX.get((env.element[m], e), LIGAND_MAX.get(e))
             if limit is None and e == "C" and int(env.res_id[j]) in own_res_ids:
                 limit = _OWN_RESIDUE_CARBON_MAX
             if limit is None or d > limit:
@@ -159,7 +163,8 @@ def find_ligands(
     near_core = tree.query_ball_point(env.xyz[core].reshape(-1, 3), r=CLASH_MAX) if core else []
     for c, hits in zip(core, near_core):
         for j in hits:
-            if j in core_rows or j in ligand_rows or int(env.res_id[j]) in own_res_ids:
+            if j in core_rows or j in ligand_rows or int(env.res_id[j]) in own_res_ids \
+                    or (alt[c] and alt[j] and alt[j] != alt[c]):
                 continue
             clashes.append((c, j, float(np.linalg.norm(env.xyz[c] - env.xyz[j]))))
     return ligands, clashes

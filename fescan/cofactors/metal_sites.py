@@ -1,5 +1,8 @@
 """Metal sites by geometry: Fe and inorganic S (and Mo, V, Ni, W, Cu, Mn, C/N) linked at bonding distance.
 
+A bare Zn, Ca or Mg ion (its residue holds no C, N, S or P) is a site of its own, to be
+listed apart with no redox role; it links to nothing but, for Ca, the Mn of a Mn4Ca cluster.
+
 A site is a connected component of the graph whose nodes are metal atoms and
 "inorganic" light atoms (an S, Se, C or N bonded to metals but to no organic
 atom) and whose edges are metal-bridge bonds and short metal-metal contacts.
@@ -17,17 +20,26 @@ import numpy as np
 
 from fescan.cofactors.atoms import AtomArrays
 from fescan.core.neighbours import NeighbourTree
+from fescan.core.records import ION_SITE_METALS
 
 __all__ = [
     "METALS",
+    "STRUCTURAL_METALS",
+    "SITE_METALS",
     "MetalSite",
     "find_metal_sites",
     "composition_string",
     "core_class",
 ]
 
-#: Redox metals that seed a site (Zn, Ca, Mg are structural and seed none).
+#: Redox metals that seed a site and bond to each other and to inorganic bridges.
 METALS = frozenset({"FE", "NI", "MO", "V", "W", "CU", "MN", "CO"})
+#: Metals with no redox role: a bare ion (a residue with no C, N, S or P) seeds a site of its own,
+#: listed apart as structural (never on a wire); the one link kept is Ca to Mn (the Mn4CaO5 cluster).
+STRUCTURAL_METALS = ION_SITE_METALS
+#: Every element that can seed a metal site.
+SITE_METALS = METALS | STRUCTURAL_METALS
+_NOT_BARE = ("C", "N", "S", "P")
 _BRIDGE_S = frozenset({"S", "SE"})
 _INTERSTITIAL = frozenset({"C", "N"})
 _ORGANIC = frozenset({"C", "N", "O", "P", "S", "SE"})
@@ -100,11 +112,13 @@ def find_metal_sites(
     is_metal = np.isin(el, list(METALS))
     for i in exclude:
         is_metal[i] = False
-    seeds = np.flatnonzero(is_metal)
+    redox_seeds = np.flatnonzero(is_metal)
+    bare = _bare_structural_ions(atoms)
+    seeds = np.union1d(redox_seeds, bare).astype(int)
     if len(seeds) == 0:
         return []
     tree = NeighbourTree(atoms.xyz)
-    near = sorted({j for h in tree.query_ball_point(atoms.xyz[seeds], r=METAL_BRIDGE_MAX) for j in h})
+    near = sorted({j for h in tree.query_ball_point(atoms.xyz[redox_seeds], r=METAL_BRIDGE_MAX) for j in h})
     inorganic = _inorganic_mask(atoms, tree, np.asarray(near, dtype=int))
     g = nx.Graph()
     g.add_nodes_from(int(i) for i in seeds)
@@ -119,6 +133,10 @@ def find_metal_sites(
             d = float(np.linalg.norm(atoms.xyz[i] - atoms.xyz[j]))
             ej = el[j]
             link = False
+            if not is_metal[i]:  # a structural ion: only the Ca of the Mn4Ca cluster links (to Mn)
+                if el[i] == "CA" and ej == "MN" and is_metal[j] and d <= MN_LINK_MAX:
+                    g.add_edge(int(i), int(j))
+                continue
             if is_metal[j] and d < METAL_METAL_MIN:
                 continue  # two positions of one metal (alternative states), never a bond
             if is_metal[j] and d <= (MN_LINK_MAX if "MN" in (el[i], ej) else METAL_METAL_MAX):
@@ -143,9 +161,10 @@ def find_metal_sites(
             g.add_nodes_from(members)
             for a, b in zip(members, members[1:]):
                 g.add_edge(a, b, same_residue=True)
+    seed_set = set(seeds.tolist())
     sites = []
     for comp in nx.connected_components(g):
-        if not any(is_metal[i] for i in comp):
+        if not any(i in seed_set for i in comp):
             continue
         core = sorted(comp)
         cs = set(core)
@@ -155,7 +174,16 @@ def find_metal_sites(
     return sites
 
 
-_ORDER = ("MO", "V", "W", "NI", "CU", "MN", "CO", "CA", "FE", "S", "SE", "C", "N", "O")
+def _bare_structural_ions(atoms: AtomArrays) -> np.ndarray:
+    """Rows of Zn/Ca/Mg atoms whose residue holds no C, N, S or P (an ion, not a chlorophyll or a ZnPP)."""
+    rows = np.flatnonzero(np.isin(atoms.element, list(STRUCTURAL_METALS)))
+    if len(rows) == 0:
+        return rows
+    organic_res = np.unique(atoms.res_id[np.isin(atoms.element, _NOT_BARE)])
+    return rows[~np.isin(atoms.res_id[rows], organic_res)]
+
+
+_ORDER = ("MO", "V", "W", "NI", "CU", "MN", "CO", "ZN", "CA", "MG", "FE", "S", "SE", "C", "N", "O")
 
 
 def composition_string(elements: list[str] | np.ndarray) -> str:

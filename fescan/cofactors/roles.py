@@ -6,11 +6,14 @@ Every cofactor gets a role (:data:`fescan.core.records.ROLES`):
   CuA, type 1 Cu, flavins, quinones);
 * ``catalytic``: a multi-electron active site where electrons start or end
   ([NiFe], the [FeFe] H-cluster, FeMo-co, Mo/W-pterin sites, CuZ, Mn4CaO5,
-  heme a3 + CuB, type 2 / type 3 / trinuclear Cu, non-heme Fe and diiron sites);
+  heme a3 + CuB, type 2 / type 3 / trinuclear Cu, non-heme Fe and diiron sites,
+  a single Mn held by His and Asp/Glu as in Mn superoxide dismutase);
 * ``structural``: a metal with no redox role at that site (the Mn/Mg site of
-  cytochrome c oxidase, the non-heme Fe between QA and QB);
+  cytochrome c oxidase, the non-heme Fe between QA and QB, Zn/Ca/Mg held by
+  two or more protein residues);
 * ``ion or additive``: oxoanions (MoO4, WO4, VO4), metals with no protein
-  ligand sphere, and anything not recognised that should stay off the wire.
+  ligand sphere (a Zn/Ca/Mg with at most one protein residue), and anything not
+  recognised that should stay off the wire.
 
 The role comes from the packaged CCD table when the code fixes it, else from
 the site's geometry: its ligand set, nuclearity and neighbours. A user file can
@@ -27,7 +30,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from fescan.cofactors.metal_sites import composition_string
+from fescan.cofactors.metal_sites import STRUCTURAL_METALS, composition_string
 from fescan.cofactors.registry import ccd_table
 from fescan.cofactors.subclasses import fes_subclass, heme_ligation, rieske_subclass
 from fescan.core.errors import ConfigError
@@ -123,12 +126,12 @@ def merge_bridged_sites(cofactors: Sequence[Cofactor]) -> list[Cofactor]:
     changed = True
     while changed:
         changed = False
-        for i in range(len(out)):
-            for j in range(i + 1, len(out)):
+        # only metal sites holding a Cys/Sec ligand can be bridged (Zn/Ca/Mg ions never are)
+        cand = [k for k, c in enumerate(out) if c.category not in ("heme", "flavin", "quinone")
+                and not c.is_ion_site and any(lig.kind in ("Cys S", "Sec Se") for lig in c.ligands)]
+        for n, i in enumerate(cand):
+            for j in cand[n + 1:]:
                 a, b = out[i], out[j]
-                if "heme" in (a.category, b.category) or a.category in ("flavin", "quinone") \
-                        or b.category in ("flavin", "quinone"):
-                    continue
                 shared = _shared_ligands(a, b)
                 if not shared:
                     continue
@@ -227,6 +230,9 @@ def _iron(cof: Cofactor, others: Sequence[Cofactor]) -> tuple[str, str, str]:
             return "structural", "", (f"non-heme Fe {where}: the acceptor-side iron of type II reaction centres "
                                       "does not carry the electron from QA to QB (Ferreira et al. 2004 Science "
                                       "303:1831)")
+        active = _his_carboxylate_site("Fe", prot)
+        if active is not None:
+            return "catalytic", *active
         return "catalytic", "", f"mononuclear non-heme Fe with {len(prot)} protein ligands: an active site"
     if m["FE"] <= 4:
         return "catalytic", "", f"{m['FE']} Fe with no sulfide (diiron-type): an active site"
@@ -257,21 +263,109 @@ def _metal(cof: Cofactor, others: Sequence[Cofactor]) -> tuple[str, str, str]:
                                            "an oxoanion or ion bound from the solution")
         return "ion or additive", "", (f"Mo/W/V with {len(prot)} protein ligands but no pterin dithiolene: "
                                        "not a Mo/W-pterin site, kept off the wire")
+    if set(m) <= STRUCTURAL_METALS:
+        return _structural_ion(cof, others, m, prot)
     if len(prot) <= 1:
         el = "/".join(sorted(x.capitalize() for x in m))
         return "ion or additive", "", f"{el} with {len(prot)} protein ligand(s): no binding site, an adventitious ion"
     if m.get("NI") and kinds["Cys S"] >= 2:
         return "catalytic", "", f"Ni bound by {kinds['Cys S']} Cys: a Ni active site"
     if m.get("MN"):
-        for o in others:
-            if o.category == "heme" and o.cls in ("heme a", "heme o") and _fe_xyz(o) is not None \
-                    and _dist(_fe_xyz(o), next(a.xyz for a in cof.redox_atoms if a.element == "MN")) <= _OXIDASE_MN:
-                return "structural", "", (f"Mn {_OXIDASE_MN:g} Å or less from {o.label}: the Mg/Mn site of "
-                                          "cytochrome c oxidase, no redox role (Svensson-Ek et al. 2002 J Mol Biol "
-                                          "321:329)")
+        oxidase = _oxidase_heme(cof, others, "MN")
+        if oxidase is not None:
+            return "structural", "", (f"Mn {_OXIDASE_MN:g} Å or less from {oxidase.label}: the Mg/Mn site of "
+                                      "cytochrome c oxidase, no redox role (Svensson-Ek et al. 2002 J Mol Biol "
+                                      "321:329)")
+        if sum(m.values()) == 1:
+            active = _his_carboxylate_site("Mn", prot)
+            if active is not None:
+                return "catalytic", *active
     el = "/".join(sorted(x.capitalize() for x in m))
-    return "structural", "", (f"single {el} with {len(prot)} protein ligands and no cluster: no redox role "
-                              "assumed at this site (override in the parameter file if it is catalytic)")
+    what = f"single {el}" if sum(m.values()) == 1 else f"{composition_string(list(m.elements()))} site"
+    return "structural", "", (f"{what} with {len(prot)} protein ligands ({_ligand_set(prot)}) and no cluster: "
+                              "no redox role assumed at this site (override in the parameter file if it is "
+                              "catalytic)")
+
+
+def _his_carboxylate_site(el: str, prot: Sequence) -> tuple[str, str] | None:
+    """(sub-class, reason) of a mononuclear Mn/Fe held by His and Asp/Glu, the active-site sets; else None.
+
+    Three His and one Asp/Glu: the Mn and Fe superoxide dismutase site (Borgstahl et al. 1992
+    Cell 71:107); two His and one Asp/Glu: the 2-His-1-carboxylate facial triad of mononuclear
+    O2-activating enzymes (Hegg & Que 1997 Eur J Biochem 250:625).
+    """
+    kinds = Counter(lig.kind for lig in prot)
+    his, carboxylate = kinds["His N"], kinds["Asp O"] + kinds["Glu O"]
+    if his >= 3 and carboxylate >= 1:
+        return "SOD-type", (f"mononuclear {el} bound by {_ligand_set(prot)}: the 3 His + 1 Asp set of the Mn and Fe "
+                            "superoxide dismutase active site (Borgstahl et al. 1992 Cell 71:107)")
+    if his >= 2 and carboxylate >= 1:
+        return "2-His-1-carboxylate", (f"mononuclear {el} bound by {_ligand_set(prot)}: the 2-His-1-carboxylate "
+                                       "facial triad of mononuclear O2-activating enzymes (Hegg & Que 1997 Eur J "
+                                       "Biochem 250:625)")
+    return None
+
+
+def _oxidase_heme(cof: Cofactor, others: Sequence[Cofactor], element: str) -> Cofactor | None:
+    """The heme a/o within :data:`_OXIDASE_MN` Å of the site's ``element`` atom (the oxidase Mg/Mn site)."""
+    xyz = next((a.xyz for a in cof.redox_atoms if a.element == element), None)
+    if xyz is None:
+        return None
+    for o in others:
+        if o.category == "heme" and o.cls in ("heme a", "heme o") and _fe_xyz(o) is not None \
+                and _dist(_fe_xyz(o), xyz) <= _OXIDASE_MN:
+            return o
+    return None
+
+
+def _ligand_set(prot: Sequence) -> str:
+    """Protein ligands counted by residue, e.g. ``"3 His and 1 Asp"`` or ``"2 Asp, 1 Glu and 1 backbone O"``."""
+    residues: dict[tuple, str] = {}
+    for lig in prot:
+        a = lig.atom
+        kind = lig.kind if lig.kind.startswith("backbone") else lig.kind.split()[0]
+        residues.setdefault((a.chain, a.seqnum, a.icode, kind), kind)
+    cnt = Counter(residues.values())
+    parts = [f"{n} {k}" for k, n in sorted(cnt.items(), key=lambda t: (-t[1], t[0]))]
+    if not parts:
+        return "no protein ligand"
+    return parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]
+
+
+def _n_ligand_residues(prot: Sequence) -> int:
+    return len({(lig.atom.chain, lig.atom.seqnum, lig.atom.icode) for lig in prot})
+
+
+_ION_NAMES = {"ZN": "zinc", "CA": "calcium", "MG": "magnesium"}
+
+
+def _structural_ion(cof: Cofactor, others: Sequence[Cofactor], m: Counter,
+                    prot: Sequence) -> tuple[str, str, str]:
+    """Role of a Zn, Ca or Mg site: structural with two or more protein ligand residues, else an ion.
+
+    These metals have no redox chemistry in proteins (one oxidation state, closed-shell
+    Zn(II), Ca(II), Mg(II)); they are listed apart and never put on a wire.
+    """
+    el = "/".join(sorted(x.capitalize() for x in m))
+    n_res = _n_ligand_residues(prot)
+    waters = sum(1 for lig in cof.ligands if lig.kind == "water O")
+    own = {id(lig) for lig in prot}
+    groups = sorted({lig.atom.resname for lig in cof.ligands if id(lig) not in own and lig.kind != "water O"})
+    extra = [f"{waters} water"] if waters else []
+    extra += groups
+    wet = f" (+{', '.join(extra)})" if extra else ""
+    if n_res <= 1:
+        return "ion or additive", "", (f"{el} bound by {_ligand_set(prot)}{wet}: fewer than two protein "
+                                       "residues hold it: an ion from the solution or carried by a bound ligand, no redox role")
+    if "MG" in m:
+        oxidase = _oxidase_heme(cof, others, "MG")
+        if oxidase is not None:
+            return "structural", "", (f"Mg bound by {_ligand_set(prot)}{wet}, {_OXIDASE_MN:g} Å or less from "
+                                      f"{oxidase.label}: the Mg/Mn site of cytochrome c oxidase, no redox role "
+                                      "(Svensson-Ek et al. 2002 J Mol Biol 321:329)")
+    names = "/".join(_ION_NAMES[x] for x in sorted(m))
+    return "structural", "", (f"{el} bound by {_ligand_set(prot)}{wet}: a structural {names} site, "
+                              "no redox role")
 
 
 def _role_of(cof: Cofactor, others: Sequence[Cofactor], clusters_per_chain: Counter) -> tuple[str, str, str]:

@@ -706,7 +706,8 @@ def _retrace(mod: ScanResult, ref: ScanResult, r2m: dict[str, str]) -> ScanResul
     if not (e and x) or (e, x) == (mod.wire.entry, mod.wire.exit):
         return mod
     opts = replace(mod.options, entry=mod.cofactor(e).key, exit=mod.cofactor(x).key)
-    wire = trace_wire(mod.graph, mod.cofactors, opts)
+    wired = [c for c in mod.cofactors if c.uid in mod.graph]  # off-wire ions and structural metals stay out
+    wire = trace_wire(mod.graph, wired, opts)
     wire.how_chosen = "counterparts of the reference's entry and exit"
     return replace(mod, options=opts, wire=wire)
 

@@ -17,6 +17,7 @@ __all__ = [
     "residue_key",
     "CATEGORIES",
     "ROLES",
+    "ION_SITE_METALS",
 ]
 
 #: Cofactor categories, in the order tables list them.
@@ -33,6 +34,12 @@ CATEGORIES: tuple[str, ...] = (
 
 #: Roles a cofactor can play in electron transfer (see :class:`Cofactor`).
 ROLES: tuple[str, ...] = ("relay", "catalytic", "structural", "ion or additive")
+
+
+#: Metals with no redox chemistry in proteins: a site holding only these is listed apart
+#: (role structural or ion or additive), never counted as a redox cofactor nor put on a wire.
+ION_SITE_METALS = frozenset({"ZN", "CA", "MG"})
+_LIGHT = frozenset({"S", "SE", "C", "N", "O"})
 
 
 def residue_key(chain: str, seqnum: int, icode: str = "") -> str:
@@ -240,6 +247,12 @@ class Cofactor:
     def uid(self) -> str:
         """Stable id: ``MODEL:CHAIN/RESNUM[ICODE]:CODE`` (``CODE`` is ``-`` when none)."""
         return f"{self.model}:{self.key}:{self.ccd_code or '-'}"
+
+    @property
+    def is_ion_site(self) -> bool:
+        """True for a Zn, Ca or Mg site (:data:`ION_SITE_METALS`), listed apart from the redox cofactors."""
+        metals = {a.element for a in self.redox_atoms} - _LIGHT
+        return bool(metals) and metals <= ION_SITE_METALS
 
     @property
     def label(self) -> str:

@@ -177,7 +177,7 @@ def _nearest_partner(result: ScanResult, uid: str) -> str | None:
     if best is not None:
         return best[0]
     me = next(c for c in result.cofactors if c.uid == uid)
-    others = [c for c in result.cofactors if c.uid != uid]
+    others = [c for c in result.cofactors if c.uid != uid and not c.is_ion_site]
     if not others:
         return None
     return min(others, key=lambda c: float(np.linalg.norm(np.subtract(c.centroid, me.centroid)))).uid
@@ -192,15 +192,16 @@ def panel_groups(result: ScanResult) -> list[list[str]]:
     is drawn exactly once. Without any group, one panel holds every cofactor.
     """
     w = result.wire
-    order = {c.uid: k for k, c in enumerate(result.cofactors)}
+    drawn = [c for c in result.cofactors if not c.is_ion_site]  # Zn/Ca/Mg sites are listed, not drawn
+    order = {c.uid: k for k, c in enumerate(drawn)}
     groups: list[list[str]] = []
     if w.path:
         groups.append(list(dict.fromkeys(list(w.path) + [b["cofactor"] for b in w.branches])))
     groups += [list(g) for g in getattr(w, "groups", []) or []]
     if not groups:
-        return [[c.uid for c in result.cofactors]] if result.cofactors else []
+        return [[c.uid for c in drawn]] if drawn else []
     where = {u: k for k, g in enumerate(groups) for u in g}
-    pending = [c.uid for c in result.cofactors if c.uid not in where]
+    pending = [c.uid for c in drawn if c.uid not in where]
     for _ in range(len(pending) + 1):  # partners may themselves be pending: settle in rounds
         left = []
         for uid in pending:

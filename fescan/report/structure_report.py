@@ -126,6 +126,8 @@ def _role(c) -> str:
 def _cofactor_table(res: ScanResult, refs: References) -> Table:
     rows = []
     for c in res.cofactors:
+        if c.is_ion_site:  # listed apart (section "Not analysed and off the wire")
+            continue
         pot = res.potentials.get(c.uid)
         e = "–" if pot is None else volts(pot.e_v, 3) + (f" {refs.cite(pot.source)}" if pot.origin == "default"
                                                          else " (user file)")
@@ -209,6 +211,15 @@ def _off_wire(res: ScanResult) -> list[dict]:
     return list(getattr(res, "off_wire", []) or [])
 
 
+def _n_redox(res: ScanResult) -> int:
+    return sum(1 for c in res.cofactors if not c.is_ion_site)
+
+
+def _ions_apart(res: ScanResult) -> str:
+    n = len(res.cofactors) - _n_redox(res)
+    return f" ({n} Zn/Ca/Mg site{'s' * (n != 1)} listed apart, off the wire)" if n else ""
+
+
 def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, float] | None) -> list:
     w, o = res.wire, res.options
     names = {c.uid: c.label for c in res.cofactors}
@@ -216,7 +227,7 @@ def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, fl
     i = res.info
     items.append(("Structure", f"{i.entry_id}: {i.method or 'method not given'}, "
                                f"{f'{i.resolution:.2f} Å' if i.resolution else 'resolution not given'}; "
-                               f"{len(res.cofactors)} redox cofactors found"))
+                               f"{_n_redox(res)} redox cofactors found{_ions_apart(res)}"))
     if w.path:
         items.append(("Wire", f"{names[w.entry]} → {names[w.exit]}: {len(w.path)} cofactors, {len(w.hops)} "
                               f"hop{'s' * (len(w.hops) != 1)}"))
@@ -509,7 +520,7 @@ def structure_document(res: ScanResult, svg: str) -> Document:
     doc.add(*_wire_blocks(res, svg, refs, interval))
     doc.add(*_outside_blocks(res))
     doc.add(Heading(2, "Cofactors", "cofactors"))
-    doc.add(_cofactor_table(res, refs) if res.cofactors else Paragraph("No redox cofactors found."))
+    doc.add(_cofactor_table(res, refs) if _n_redox(res) else Paragraph("No redox cofactors found."))
     if res.cofactors:
         doc.add(Heading(2, "Ligands and checks", "checks"), *_details(res))
     if res.pairs:

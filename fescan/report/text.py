@@ -103,7 +103,10 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
         lines.append("No redox cofactors found.")
         return strip_controls("\n".join(lines))
     rows = []
+    ions = [c for c in res.cofactors if c.is_ion_site]
     for c in res.cofactors:
+        if c.is_ion_site:
+            continue
         warn = sum(1 for f in c.flags if f.severity == "warning")
         note = sum(1 for f in c.flags if f.severity == "note")
         fl = ", ".join(x for x in (f"{warn} warning{'s' * (warn != 1)}" if warn else "",
@@ -111,10 +114,16 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
         pot = res.potentials[c.uid]
         rows.append([c.key, c.cls, c.role, c.ccd_code or "-", c.detected_by, str(len(c.atoms)), _ligand_summary(c),
                      c.motif or "-", signed(pot.e_v) if pot.determined else "undetermined", pot.couple or "-", fl])
-    lines.append(f"Cofactors ({len(res.cofactors)})")
-    lines.append(table(["cofactor", "class", "role", "code", "found by", "atoms", "ligands", "motif", "E (V)",
-                        "couple used",
-                        "checks"], rows))
+    lines.append(f"Cofactors ({len(rows)})" if rows else "No redox cofactors found.")
+    if rows:
+        lines.append(table(["cofactor", "class", "role", "code", "found by", "atoms", "ligands", "motif", "E (V)",
+                            "couple used",
+                            "checks"], rows))
+    if ions:
+        lines.append("")
+        lines.append(f"Zn, Ca and Mg sites, listed apart: no redox role, never on a wire ({len(ions)})")
+        lines.append(table(["site", "role", "code", "ligands", "why"],
+                           [[c.key, c.role, c.ccd_code or "-", _ligand_summary(c), c.role_reason] for c in ions]))
     if details:
         for c in res.cofactors:
             if not c.ligands and not c.flags:

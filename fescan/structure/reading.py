@@ -74,6 +74,7 @@ from fescan.core.errors import (
     StructureFileError,
 )
 from fescan.structure.altlocs import (
+    AltlocStates,
     apply_altloc_policy,
     choose_model,
     model_numbers,
@@ -213,6 +214,9 @@ class LoadedStructure:
         gives one (:mod:`fescan.structure.header_codes`).
     refinement : RefinementStats or None
         Refinement statistics of the header (:mod:`fescan.structure.refinement`).
+    altloc_states : dict
+        Residues that had two or more altloc labels, with each label's mean
+        occupancy, before the altloc policy (:data:`fescan.structure.altlocs.AltlocStates`).
     """
 
     path: str
@@ -222,6 +226,7 @@ class LoadedStructure:
     info: StructureInfo
     header_codes: dict[str, int | None] = field(default_factory=dict)
     refinement: RefinementStats | None = None
+    altloc_states: AltlocStates = field(default_factory=dict)
 
 
 def detect_format(data: str | bytes) -> str:
@@ -353,7 +358,7 @@ def read_structure(
     check_residue_sizes(name, chosen)
     check_metal_aggregates(name, chosen)
     notes += occupancy_notes(chosen, occupancy_suspect)
-    apply_altloc_policy(chosen, altloc)
+    altloc_states = apply_altloc_policy(chosen, altloc)
 
     entry_id = _entry_id(st, name)
     st.name = entry_id
@@ -383,6 +388,7 @@ def read_structure(
     return LoadedStructure(
         path=name, structure=st, model=chosen, model_number=numbers[index], info=info,
         header_codes=header_codes, refinement=refinement,
+        altloc_states=altloc_states,
     )
 
 
