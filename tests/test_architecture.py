@@ -129,3 +129,21 @@ def test_lean_imports(module):
             "'distributed', 'fescan.surveys.run', 'fescan.comparison.compare') if m in sys.modules]; print(heavy)")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip()
     assert out == "[]", f"{module} loads {out}"
+
+
+def test_scan_command_loads_no_scipy_spatial_or_pandas(tmp_path):
+    # a one-structure scan (the command, on a demo file) starts without scipy's k-d tree and pandas:
+    # they were most of its start-up (DEVELOPERS.md, "no scipy k-d tree on the scan path");
+    # scipy.sparse may load for a wire of many relays (a master equation above 128 states)
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    demo = sorted((Path(__file__).resolve().parents[1] / "example_structures").glob("*.cif"))[0]
+    code = ("import sys\nfrom fescan.cli.main import main\n"
+            f"rc = main(['scan', {str(demo)!r}, '--brief'])\n"
+            "print([m for m in ('scipy.spatial', 'scipy.optimize', 'pandas', 'pyarrow', 'matplotlib') "
+            "if m in sys.modules])")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                         cwd=tmp_path).stdout.strip().splitlines()[-1]
+    assert out == "[]", out
