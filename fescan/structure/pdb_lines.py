@@ -150,8 +150,47 @@ def check_pdb_records(name: str, data: bytes) -> None:
 
 
 _WIDTH = 80  # columns gathered per record: the standard layout needs 66
-_SPACE, _TAB, _CR, _MINUS, _DOT = 32, 9, 13, 45, 46
-_ABSENT = 0  # past the end of a line
+
+# character classes: a field's classes (at most 8 bytes), read as one 64-bit number, is one key
+_OTHER, _BLANK, _DIGIT, _MINUS, _POINT, _LETTER, _TABC, _CRC = range(8)
+_CLASS = np.zeros(256, dtype=np.uint8)
+_CLASS[ord(" ")] = _BLANK
+_CLASS[ord("0"):ord("9") + 1] = _DIGIT
+_CLASS[ord("-")] = _MINUS
+_CLASS[ord(".")] = _POINT
+_CLASS[ord("A"):ord("Z") + 1] = _LETTER
+_CLASS[ord("a"):ord("z") + 1] = _LETTER
+_CLASS[ord("\t")] = _TABC
+_CLASS[ord("\r")] = _CRC
+
+
+def _key_of(classes) -> int:
+    return int.from_bytes(bytes(classes), "little")
+
+
+def _int_patterns(width: int) -> list[tuple[int, ...]]:
+    """Class sequences of a right-justified integer of ``width`` columns (a sign allowed first)."""
+    out = [(_BLANK,) * (width - 1) + (_DIGIT,)]
+    for k in range(width - 1):
+        for first in (_MINUS, _DIGIT):
+            out.append((_BLANK,) * k + (first,) + (_DIGIT,) * (width - k - 1))
+    return out
+
+
+def _alnum_patterns(width: int) -> list[tuple[int, ...]]:
+    """A letter then letters or digits (hybrid-36)."""
+    out = [(_LETTER,)]
+    for _ in range(width - 1):
+        out = [p + (c,) for p in out for c in (_LETTER, _DIGIT)]
+    return out
+
+
+_SERIAL_KEYS = np.asarray(sorted({_key_of(p) for p in _int_patterns(5) + _alnum_patterns(5)}), dtype=np.uint64)
+_RESSEQ_KEYS = np.asarray(sorted({_key_of(p) for p in _int_patterns(4) + _alnum_patterns(4)}), dtype=np.uint64)
+_COORD_KEYS = np.asarray(sorted({_key_of(p + (_POINT,) + (_DIGIT,) * 3) for p in _int_patterns(4)}), dtype=np.uint64)
+_SIX_NUMBER_KEYS = np.asarray(sorted({_key_of(p + (_POINT, _DIGIT, _DIGIT)) for p in _int_patterns(3)}),
+                              dtype=np.uint64)
+_SIX_BLANK_KEY = _key_of((_BLANK,) * 6)
 
 
 def _record_starts(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -169,67 +208,56 @@ def _record_starts(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return starts[rec], (ends - starts)[rec]
 
 
-def _integer(f: np.ndarray) -> np.ndarray:
-    """Rows of ``f`` (byte codes) that hold a right-justified integer (a sign allowed first)."""
-    sp = f == _SPACE
-    dg = (f >= 48) & (f <= 57)
-    seen = np.logical_or.accumulate(~sp, axis=1)
-    first = np.argmax(~sp, axis=1)
-    at_first = np.arange(f.shape[1])[None, :] == first[:, None]
-    return (~(sp & seen).any(axis=1) & (dg | sp | ((f == _MINUS) & at_first)).all(axis=1) & dg[:, -1])
+def _field_key(raw: np.ndarray, first: int, width: int) -> np.ndarray:
+    """The classes of columns ``first`` to ``first + width`` of every record, as one 64-bit key each."""
+    packed = np.zeros((len(raw), 8), dtype=np.uint8)
+    packed[:, :width] = _CLASS[raw[:, first:first + width]]
+    return packed.view("<u8").ravel()
 
 
-def _hybrid36(f: np.ndarray) -> np.ndarray:
-    letter = ((f >= 65) & (f <= 90)) | ((f >= 97) & (f <= 122))
-    alnum = letter | ((f >= 48) & (f <= 57))
-    return letter[:, 0] & alnum[:, 1:].all(axis=1)
+def _blank_tail(classes: np.ndarray, length: np.ndarray, first: int) -> np.ndarray:
+    """Rows whose columns from ``first`` to the line end are blanks or tabs, then at most one ``\\r``."""
+    pos = np.arange(first, _WIDTH)[None, :]
+    rest = classes[:, first:]
+    inline = pos < length[:, None]
+    ok = (rest == _BLANK) | (rest == _TABC) | ((rest == _CRC) & (pos == length[:, None] - 1)) | ~inline
+    return ok.all(axis=1) & (length <= _WIDTH)
 
 
-def _decimal(f: np.ndarray, point: int) -> np.ndarray:
-    """Rows holding ``%w.df``: a right-justified integer, a point at ``point``, then digits."""
-    tail = f[:, point + 1:]
-    return _integer(f[:, :point]) & (f[:, point] == _DOT) & ((tail >= 48) & (tail <= 57)).all(axis=1)
+def _standard(raw: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Records in the standard layout, and which of them have a written (not blank) occupancy.
 
-
-def _blank_from(cols: np.ndarray, first: int) -> np.ndarray:
-    """Rows whose columns from ``first`` on are blanks, tabs, then at most a final ``\\r``."""
-    rest = cols[:, first:]
-    blank = (rest == _SPACE) | (rest == _TAB) | (rest == _ABSENT)
-    cr = rest == _CR
-    # a \r is allowed only as the line's last character (then ABSENT follows)
-    nxt = np.concatenate([rest[:, 1:], np.full((len(rest), 1), _ABSENT, dtype=rest.dtype)], axis=1)
-    return (blank | (cr & (nxt == _ABSENT))).all(axis=1)
-
-
-def _standard(cols: np.ndarray, length: np.ndarray) -> np.ndarray:
-    """Records in the standard layout (never passes a record :func:`record_problem` would refuse)."""
+    Never passes a record :func:`record_problem` would refuse (the tests pit the two
+    against each other on real and damaged records).
+    """
     ok = length >= 54
-    ok &= _integer(cols[:, 6:11]) | _hybrid36(cols[:, 6:11])
-    ok &= _integer(cols[:, 22:26]) | _hybrid36(cols[:, 22:26])
+    ok &= np.isin(_field_key(raw, 6, 5), _SERIAL_KEYS)
+    ok &= np.isin(_field_key(raw, 22, 4), _RESSEQ_KEYS)
     for first in (30, 38, 46):
-        ok &= _decimal(cols[:, first:first + 8], 4)
-    printable = (cols[:, :54] >= 32) & (cols[:, :54] < 127)  # the regex's '.' takes no line break
-    ok &= printable.all(axis=1)
-    occ = cols[:, 54:60]
-    b = cols[:, 60:66]
-    six_occ = _decimal(occ, 3) | (occ == _SPACE).all(axis=1)
-    six_b = _decimal(b, 3) | (b == _SPACE).all(axis=1)
-    fits = length <= _WIDTH  # the tail of a longer line is not looked at here: the slow path does
-    tail = (six_occ & six_b) | (six_occ & _blank_from(cols, 60) & fits) | (_blank_from(cols, 54) & fits)
-    return ok & tail
+        ok &= np.isin(_field_key(raw, first, 8), _COORD_KEYS)
+    occ_key = _field_key(raw, 54, 6)
+    occ_number = np.isin(occ_key, _SIX_NUMBER_KEYS) & (length >= 60)
+    occ_six = occ_number | ((occ_key == _SIX_BLANK_KEY) & (length >= 60))
+    b_key = _field_key(raw, 60, 6)
+    b_six = (np.isin(b_key, _SIX_NUMBER_KEYS) | (b_key == _SIX_BLANK_KEY)) & (length >= 66)
+    full = ok & occ_six & b_six
+    rest = np.flatnonzero(ok & ~full)  # short or unusual tails: looked at only for these rows
+    if len(rest):
+        sub_c, sub_l = _CLASS[raw[rest]], length[rest]
+        tail = (occ_six[rest] & _blank_tail(sub_c, sub_l, 60)) | _blank_tail(sub_c, sub_l, 54)
+        full[rest[tail]] = True
+    return full, occ_number
 
 
-def _occupancy_outside(cols: np.ndarray, length: np.ndarray) -> bool:
-    """Whether any standard-layout occupancy (columns 55-60) is negative or above 1."""
-    occ = cols[:, 54:60]
-    written = _decimal(occ, 3)
-    if not written.any():
+def _occupancy_outside(raw: np.ndarray) -> bool:
+    """Whether any ``%6.2f`` occupancy (columns 55-60 of these rows) is negative or above 1."""
+    if not len(raw):
         return False
-    occ = occ[written]
-    digits = np.where((occ >= 48) & (occ <= 57), occ.astype(np.int64) - 48, 0)
-    whole = digits[:, 0] * 100 + digits[:, 1] * 10 + digits[:, 2]
-    hundredths = digits[:, 4] * 10 + digits[:, 5]
-    negative = (occ[:, :3] == _MINUS).any(axis=1)
+    occ = raw[:, 54:60]
+    digit = lambda k: np.where(occ[:, k] >= 48, occ[:, k].astype(np.int64) - 48, 0)  # noqa: E731
+    whole = digit(0) * 100 + digit(1) * 10 + digit(2)
+    hundredths = digit(4) * 10 + digit(5)
+    negative = (occ[:, 0] == ord("-")) | (occ[:, 1] == ord("-")) | (occ[:, 2] == ord("-"))
     return bool((negative | (whole > 1) | ((whole == 1) & (hundredths > 0))).any())
 
 
@@ -268,11 +296,10 @@ def screen_pdb_records(name: str, data: bytes) -> bool:
     starts, length = _record_starts(buf)
     if not len(starts):
         return False
-    pos = starts[:, None] + np.arange(_WIDTH)
-    inside = np.arange(_WIDTH)[None, :] < length[:, None]
-    cols = np.where(inside, buf[np.minimum(pos, len(buf) - 1)], _ABSENT).astype(np.uint8)
-    standard = _standard(cols, length)
-    suspect = _occupancy_outside(cols[standard], length[standard])
+    padded = np.concatenate((buf, np.zeros(_WIDTH, dtype=np.uint8)))
+    raw = np.lib.stride_tricks.sliding_window_view(padded, _WIDTH)[starts]  # one row copy per record
+    standard, occ_written = _standard(raw, length)
+    suspect = _occupancy_outside(raw[standard & occ_written])
     for k in np.flatnonzero(~standard).tolist():
         start = int(starts[k])
         line = data[start:start + int(length[k])]
