@@ -227,7 +227,9 @@ def _wire_text(res: ScanResult) -> list[str]:
         out.append("  isolated (no partner within the gap limit): " + ", ".join(names[u] for u in w.isolated))
     for grp in w.groups:
         out.append("  other connected group (not joined to this wire): " + " + ".join(names[u] for u in grp))
-    pots = Counter(p.basis if p.origin == "default" else p.origin for p in res.potentials.values())
+    ion_sites = {c.uid for c in res.cofactors if getattr(c, "is_ion_site", False)}  # no redox role: no potential
+    pots = Counter(p.basis if p.origin == "default" else p.origin for u, p in res.potentials.items()
+                   if u not in ion_sites)
     out.append("  potentials: " + "; ".join(f"{k} ({n})" for k, n in pots.items()))
     for n in w.notes:
         out.append(f"  note: {n}")
