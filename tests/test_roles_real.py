@@ -129,3 +129,23 @@ def test_4crm_magnesium_of_atp_is_an_ion():
     mg = _by_key(res)["P/1613"]
     assert mg.role == "ion or additive" and "ATP" in mg.role_reason
     assert mg.uid not in res.graph
+
+
+@requires_shared
+def test_tie_between_chains_is_broken_the_same_in_every_process():
+    # 2NIP (Fe protein dimer, SOURCES.md): its [4Fe-4S] is held by two Cys of each chain; the
+    # "main chain" of the pocket must not follow Python's per-process string hashing
+    import json
+    import subprocess
+    import sys
+
+    code = ("import json, sys, fescan; c = fescan.scan(sys.argv[1]).cofactors[0]; "
+            "print(json.dumps([c.role_reason, c.to_dict().get('pocket')]))")
+    outs = set()
+    for seed in ("1", "2", "3"):
+        env = {**__import__("os").environ, "PYTHONHASHSEED": seed}
+        out = subprocess.run([sys.executable, "-c", code, str(entry_path("2NIP"))], capture_output=True,
+                             text=True, check=True, env=env).stdout.strip().splitlines()[-1]
+        outs.add(out)
+    assert len(outs) == 1, outs
+    assert "286-residue chain" in json.loads(outs.pop())[0]  # chain A (286 amino acids) wins the tie by name

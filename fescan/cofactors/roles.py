@@ -413,7 +413,7 @@ def _role_of(cof: Cofactor, others: Sequence[Cofactor], clusters_per_chain: Coun
 
 def _main_chain(cof: Cofactor) -> str:
     chains = [lig.atom.chain for lig in cof.ligands if lig.kind == "Cys S"]
-    return max(set(chains), key=chains.count) if chains else cof.chain
+    return max(sorted(set(chains)), key=chains.count) if chains else cof.chain
 
 
 def assign_roles(cofactors: Sequence[Cofactor]) -> list[Cofactor]:

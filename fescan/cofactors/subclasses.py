@@ -78,22 +78,25 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
     """
     core_rows = list(core_rows)
     centre = env.xyz[core_rows].mean(axis=0)
-    near = np.flatnonzero(np.linalg.norm(env.xyz - centre, axis=1) <= _DISULFIDE_RADIUS + 4.0)
+    dist = np.linalg.norm(env.xyz - centre, axis=1)
+    near = np.flatnonzero(dist <= _DISULFIDE_RADIUS + 4.0)
     s_rows = [r for r in core_rows if env.element[r] in ("S", "SE")] + [
         r for r in ligand_rows if env.element[r] in ("S", "SE")]
+    names = env.name[near]
+    backbone = near[env.standard[near] & np.isin(names.astype(str), ("N", "CA", "C"))]
     key = {}
-    for i in near:
-        if env.standard[i] and env.name[i] in ("N", "CA", "C"):
-            key[(env.chain[i], int(env.seqnum[i]), env.icode[i], env.name[i])] = i
+    for i in backbone.tolist():
+        key[(env.chain[i], int(env.seqnum[i]), env.icode[i], env.name[i])] = i
     nh_s = 0
     if s_rows:
         s_xyz = env.xyz[s_rows]
-        for (ch, num, ic, name), i in key.items():
-            if name != "N" or env.resname[i] == "PRO":
-                continue
+        amide = [i for (_, _, _, name), i in key.items() if name == "N" and env.resname[i] != "PRO"]
+        if amide:  # only amide N within reach of a sulfur are looked at one by one
+            d_all = np.linalg.norm(env.xyz[amide][:, None, :] - s_xyz[None, :, :], axis=2)
+            amide = [i for i, row in zip(amide, d_all) if row.min() <= NH_S_MAX]
+        for i in amide:
+            ch, num, ic = env.chain[i], int(env.seqnum[i]), env.icode[i]
             d = np.linalg.norm(s_xyz - env.xyz[i], axis=1)
-            if d.min() > NH_S_MAX:
-                continue
             ca = key.get((ch, num, ic, "CA"))
             c_prev = key.get((ch, num - 1, "", "C"))
             if ca is None or c_prev is None:
@@ -109,20 +112,19 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
                     nh_s += 1
                     break
     aromatic = set()
-    for i in near:
-        rn = env.resname[i]
-        if rn in _AROMATIC and env.name[i] in _AROMATIC[rn] and np.linalg.norm(env.xyz[i] - centre) <= _AROMATIC_RADIUS:
+    close = near[(dist[near] <= _AROMATIC_RADIUS) & np.isin(env.resname[near].astype(str), tuple(_AROMATIC))]
+    for i in close.tolist():
+        if str(env.name[i]) in _AROMATIC[str(env.resname[i])]:
             aromatic.add((env.chain[i], int(env.seqnum[i]), env.icode[i]))
     lig_sg = set(ligand_rows)
-    sg = [i for i in near if env.name[i] == "SG" and env.element[i] == "S" and i not in lig_sg
-          and np.linalg.norm(env.xyz[i] - centre) <= _DISULFIDE_RADIUS]
+    sg_mask = (names == "SG") & (env.element[near] == "S") & (dist[near] <= _DISULFIDE_RADIUS)
+    sg = [i for i in near[sg_mask].tolist() if i not in lig_sg]
     disulfides = 0
-    for a in range(len(sg)):
-        for b in range(a + 1, len(sg)):
-            if np.linalg.norm(env.xyz[sg[a]] - env.xyz[sg[b]]) <= _DISULFIDE_MAX:
-                disulfides += 1
+    if len(sg) > 1:
+        pair = np.linalg.norm(env.xyz[sg][:, None, :] - env.xyz[sg][None, :, :], axis=2)
+        disulfides = int(np.triu(pair <= _DISULFIDE_MAX, k=1).sum())
     chains = [str(env.chain[r]) for r in ligand_rows if env.standard[r]]
-    main = max(set(chains), key=chains.count) if chains else None
+    main = max(sorted(set(chains)), key=chains.count) if chains else None
     return {
         "nh_s_bonds": nh_s,
         "aromatic_near": len(aromatic),
