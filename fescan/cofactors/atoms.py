@@ -206,7 +206,6 @@ class ModelIndex:
         self._standard = std[inverse].reshape(-1)
         self.is_candidate = ~(std | skipped)[inverse].reshape(-1)
         self._rep_tree: NeighbourTree | None = None
-        self._pairs: list[tuple[str, gemmi.Residue]] | None = None
         self.hidden: frozenset[int] = frozenset()
 
     def hide(self, res_ids) -> None:
@@ -214,15 +213,6 @@ class ModelIndex:
         self.hidden = frozenset(int(r) for r in res_ids)
         for r in self.hidden:
             self.is_candidate[r] = False
-
-    @property
-    def residues(self) -> list[tuple[str, gemmi.Residue]]:
-        """``(chain name, gemmi residue)`` by residue index (built once, on first use)."""
-        if getattr(self, "_pairs", None) is None:
-            if getattr(self, "_residues", None) is None:
-                self._residues = [res for ch in self._model for res in ch if len(res)]
-            self._pairs = [(self._chain_names[int(self._chain_of[i])], r) for i, r in enumerate(self._residues)]
-        return self._pairs
 
     def amino_acids_per_chain(self) -> dict[str, int]:
         """Number of amino-acid residues (gemmi's table of components) in each chain."""

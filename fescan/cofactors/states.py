@@ -52,7 +52,7 @@ class AlternativeState:
 _METALS = frozenset({"FE", "NI", "MO", "V", "W", "CU", "MN", "CO", "ZN"})
 
 
-def find_alternative_states(atoms, candidate_ids=None) -> dict[int, list[AlternativeState]]:
+def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
     """Group overlapping partial-occupancy residues into alternative states.
 
     Parameters
@@ -61,8 +61,6 @@ def find_alternative_states(atoms, candidate_ids=None) -> dict[int, list[Alterna
         The atoms of the non-standard residues to examine (for example
         :meth:`fescan.cofactors.atoms.ModelIndex.candidates`); rows of one residue
         share ``res_id``.
-    candidate_ids : iterable of int, optional
-        Only these residues (``res_id`` values) are examined; all by default.
 
     Returns
     -------
@@ -77,8 +75,6 @@ def find_alternative_states(atoms, candidate_ids=None) -> dict[int, list[Alterna
     ids, first, counts = np.unique(res_id[order], return_index=True, return_counts=True)
     occ = np.add.reduceat(np.asarray(atoms.occ, dtype=float)[order], first) / counts
     keep = occ <= _OCC_PARTIAL
-    if candidate_ids is not None:
-        keep &= np.isin(ids, np.fromiter((int(r) for r in candidate_ids), dtype=np.intp))
     if int(keep.sum()) < 2:
         return {}
     sel = np.flatnonzero(keep)

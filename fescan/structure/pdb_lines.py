@@ -41,23 +41,6 @@ from fescan.core.errors import CoordinateError, StructureFileError
 __all__ = ["check_pdb_records", "record_problem", "screen_pdb_records"]
 
 
-def _alternatives(width: int) -> bytes:
-    """Regex of a right-justified integer of exactly ``width`` columns (sign allowed first)."""
-    alts = [b" " * (width - 1) + rb"\d"]
-    alts += [b" " * k + rb"[-\d]" + rb"\d" * (width - k - 1) for k in range(width - 1)]
-    return b"(?:" + b"|".join(alts) + b")"
-
-
-_SERIAL = b"(?:" + _alternatives(5) + rb"|[A-Za-z][A-Za-z0-9]{4})"
-_RESSEQ = b"(?:" + _alternatives(4) + rb"|[A-Za-z][A-Za-z0-9]{3})"
-_COORD = _alternatives(4) + rb"\.\d{3}"  # %8.3f
-_SIX = b"(?:" + _alternatives(3) + rb"\.\d\d| {6})"  # %6.2f or blank
-_LINE_END = rb"[ \t]*\r?$"
-# A record in the standard layout; any ATOM/HETATM record not matching it is looked at closely.
-_STANDARD = (rb".." + _SERIAL + rb".{11}" + _RESSEQ + rb".{4}" + _COORD * 3
-             + rb"(?:" + _SIX + rb"(?:" + _SIX + rb"|" + _LINE_END + rb")|" + _LINE_END + rb")")
-# Searched from a line end: a literal prefix is much faster to search than ``^`` at every position.
-_SUSPECT = re.compile(rb"\n(?:ATOM|HETA|atom|heta)(?!" + _STANDARD + rb")", re.MULTILINE)
 # gemmi stops reading PDB text at an END record ("END" not followed by a letter or digit).
 _END = re.compile(rb"(?:\A|\n)END(?![A-Za-z0-9])", re.IGNORECASE)
 

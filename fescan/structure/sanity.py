@@ -17,15 +17,15 @@
 
 from __future__ import annotations
 
+import itertools
 import math
-import re
 
 import gemmi
 
 from fescan.core.errors import CoordinateError, StructureFileError
 
 __all__ = ["MAX_COORDINATE", "MAX_RESIDUE_ATOMS", "MAX_METAL_AGGREGATE", "check_metal_aggregates", "check_extent", "check_cell",
-           "check_residue_sizes", "occupancy_notes", "pdb_occupancy_suspect"]
+           "check_residue_sizes", "occupancy_notes"]
 
 #: Largest |x|, |y|, |z| accepted, in Å. The PDB format's 8.3 columns stop at 9999.999
 #: (wwPDB format guide 3.3, ATOM record), and the largest assemblies span ~2000 Å.
@@ -45,7 +45,6 @@ _METALS = gemmi.Selection(
     "Ir,Pt,Au,Hg,Al,Ga,In,Sn,Tl,Pb,Bi,La,Ce,Pr,Nd,Sm,Eu,Gd,Tb,Dy,Ho,Er,Tm,Yb,Lu,Th,U]")
 
 # An ATOM/HETATM occupancy (columns 55-60) that is negative or above 1.
-_PDB_OCC_OUTSIDE = re.compile(rb"\n(?:ATOM|HETA).{50} {0,5}(?:-|[1-9]\d+\.|[2-9]\.|1\.0?[1-9])", re.MULTILINE)
 
 
 def check_extent(name: str, st: gemmi.Structure) -> None:
@@ -99,17 +98,12 @@ def check_residue_sizes(name: str, model: gemmi.Model) -> None:
                     f"{MAX_RESIDUE_ATOMS} of any chemical component: refused (damaged or generated file?)")
 
 
-def pdb_occupancy_suspect(text: bytes) -> bool:
-    """Whether PDB text has an ATOM/HETATM occupancy (columns 55-60) above 1 or negative."""
-    return _PDB_OCC_OUTSIDE.search(text) is not None
-
-
 def occupancy_notes(model: gemmi.Model, suspect: bool = False) -> tuple[str, ...]:
     """Notes on occupancies that are NaN, negative or above 1.
 
     The whole-model test is gemmi's occupancy sum (NaN as soon as one is NaN; above
     the atom count when many are above 1), or ``suspect`` (from
-    :func:`pdb_occupancy_suspect`). Only then are atoms looked at, to count them.
+    :func:`fescan.structure.pdb_lines.screen_pdb_records`). Only then are atoms looked at, to count them.
     """
     total = model.count_occupancies()
     suspect = suspect or not (math.isfinite(total) and 0 <= total <= model.count_atom_sites())
@@ -168,8 +162,8 @@ def check_metal_aggregates(name: str, model: gemmi.Model) -> None:
     if sizes[big] <= MAX_METAL_AGGREGATE:
         return
     first = int(np.flatnonzero(labels == big)[0])
-    ch, res, atom = next((c.name, r, a) for k, (c, r, a) in enumerate(
-        (c, r, a) for c in metals for r in c for a in r) if k == first)
+    every_atom = ((c.name, r, a) for c in metals for r in c for a in r)
+    ch, res, atom = next(itertools.islice(every_atom, first, None))
     raise StructureFileError(
         f"{name}: {int(sizes[big])} metal atoms chained by contacts of {METAL_CONTACT:g} Å or less (from {atom.name} "
         f"of {res.name} {ch}/{res.seqid}): a metal lattice, not a cofactor (at most {MAX_METAL_AGGREGATE}); refused")
