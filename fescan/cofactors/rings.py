@@ -6,12 +6,14 @@ whatever the atom names are (predicted or hand-built models rename atoms).
 
 from __future__ import annotations
 
-import networkx as nx
+from collections.abc import Iterable, Iterator
+
 import numpy as np
 
 from fescan.core.neighbours import NeighbourTree
 
 __all__ = [
+    "BondGraph",
     "bond_graph",
     "small_rings",
     "isoalloxazine_atoms",
@@ -23,9 +25,71 @@ __all__ = [
 
 _ORGANIC = frozenset({"C", "N", "O", "S", "P", "SE"})
 _MAX_BOND = 1.9  # Å between heavy organic atoms (C-S 1.82 is the longest we need)
+_DENSE_MAX = 400  # atoms: up to this, all distances of a residue are computed at once
 
 
-def bond_graph(xyz: np.ndarray, element: np.ndarray) -> nx.Graph:
+class BondGraph:
+    """Undirected graph of the bonds of one residue: node → set of bonded nodes.
+
+    The few graph questions ring perception asks (``nodes``, ``edges``,
+    ``neighbors``, ``degree``), with the names networkx uses, on plain dicts and
+    sets: building a networkx graph per residue cost more than the perception.
+
+    Parameters
+    ----------
+    nodes : iterable of int
+        Row indices of the atoms (kept in this order).
+    """
+
+    __slots__ = ("adj",)
+
+    def __init__(self, nodes: Iterable[int] = ()) -> None:
+        self.adj: dict[int, set[int]] = {int(n): set() for n in nodes}
+
+    def add_edge(self, u: int, v: int) -> None:
+        """Join ``u`` and ``v`` (both must be nodes)."""
+        self.adj[u].add(v)
+        self.adj[v].add(u)
+
+    @property
+    def nodes(self) -> list[int]:
+        """Nodes in the order given."""
+        return list(self.adj)
+
+    @property
+    def edges(self) -> list[tuple[int, int]]:
+        """Every bond once, as ``(u, v)`` with ``u`` before ``v`` in node order."""
+        seen: set[int] = set()
+        out = []
+        for u, nb in self.adj.items():
+            out.extend((u, v) for v in nb if v not in seen)
+            seen.add(u)
+        return out
+
+    def neighbors(self, n: int) -> Iterator[int]:
+        """Nodes bonded to ``n``."""
+        return iter(self.adj[n])
+
+    def degree(self, n: int) -> int:
+        """Number of bonds of ``n``."""
+        return len(self.adj[n])
+
+    def has_edge(self, u: int, v: int) -> bool:
+        """Whether ``u`` and ``v`` are bonded."""
+        return v in self.adj.get(u, ())
+
+    def number_of_edges(self) -> int:
+        """Number of bonds."""
+        return sum(len(nb) for nb in self.adj.values()) // 2
+
+    def __contains__(self, n: object) -> bool:
+        return n in self.adj
+
+    def __len__(self) -> int:
+        return len(self.adj)
+
+
+def bond_graph(xyz: np.ndarray, element: np.ndarray) -> BondGraph:
     """Covalent bond graph of organic heavy atoms (metals left out).
 
     Parameters
@@ -37,29 +101,48 @@ def bond_graph(xyz: np.ndarray, element: np.ndarray) -> nx.Graph:
 
     Returns
     -------
-    networkx.Graph
+    BondGraph
         Nodes are row indices of organic atoms; an edge joins atoms closer than
         a distance that depends on the pair (1.9 Å with S or P, 1.75 Å otherwise).
     """
-    g = nx.Graph()
     idx = [i for i, e in enumerate(element) if e in _ORGANIC]
-    g.add_nodes_from(idx)
+    g = BondGraph(idx)
     if len(idx) < 2:
         return g
     rows = np.asarray(idx, dtype=np.intp)
     sub = np.asarray(xyz, dtype=float)[rows]
-    pairs = NeighbourTree(sub).query_pairs(_MAX_BOND, output_type="ndarray")
-    if not len(pairs):
-        return g
-    a, b = pairs[:, 0], pairs[:, 1]
-    d = np.linalg.norm(sub[a] - sub[b], axis=1)
     heavy = np.isin(np.asarray(element, dtype=object)[rows], ("S", "P", "SE"))
-    ok = (d < np.where(heavy[a] | heavy[b], 1.9, 1.75)) & (d > 0.9)
-    g.add_edges_from(zip(rows[a[ok]].tolist(), rows[b[ok]].tolist()))
+    if len(rows) <= _DENSE_MAX:  # every distance at once
+        diff = sub[:, None, :] - sub[None, :, :]
+        d = np.sqrt(np.einsum("ijk,ijk->ij", diff, diff))
+        limit = np.where(heavy[:, None] | heavy[None, :], 1.9, 1.75)
+        a, b = np.nonzero(np.triu((d < limit) & (d > 0.9), k=1))
+    else:
+        pairs = NeighbourTree(sub).query_pairs(_MAX_BOND)
+        a, b = pairs[:, 0], pairs[:, 1]
+        d = np.linalg.norm(sub[a] - sub[b], axis=1)
+        ok = (d < np.where(heavy[a] | heavy[b], 1.9, 1.75)) & (d > 0.9)
+        a, b = a[ok], b[ok]
+    adj = g.adj
+    for u, v in zip(rows[a].tolist(), rows[b].tolist()):
+        adj[u].add(v)
+        adj[v].add(u)
     return g
 
 
-def small_rings(g: nx.Graph, sizes: tuple[int, ...] = (5, 6)) -> list[frozenset[int]]:
+def _ring_distance(g: BondGraph, ring: frozenset[int], a: int, b: int) -> int | None:
+    """Bonds between ``a`` and ``b`` along the ring's own bonds (None when not joined)."""
+    seen, frontier, steps = {a}, [a], 0
+    while frontier:
+        if b in seen:
+            return steps
+        nxt = [n for x in frontier for n in g.adj[x] if n in ring and n not in seen]
+        seen.update(nxt)
+        frontier, steps = nxt, steps + 1
+    return steps if b in seen else None
+
+
+def small_rings(g: BondGraph, sizes: tuple[int, ...] = (5, 6)) -> list[frozenset[int]]:
     """Smallest ring through each bond, kept when its size is in ``sizes``.
 
     For every edge (u, v) a breadth-first search from u to v that avoids the
@@ -224,7 +307,7 @@ def quinone_kind(xyz: np.ndarray, element: np.ndarray) -> tuple[str, list[int]] 
         para = None
         for a in carriers:
             for b in carriers:
-                if a < b and nx.shortest_path_length(g.subgraph(ring), a, b) == 3:
+                if a < b and _ring_distance(g, ring, a, b) == 3:
                     para = (a, b)
         if para is None:
             continue

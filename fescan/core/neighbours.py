@@ -80,6 +80,8 @@ class NeighbourTree:
         self.data = np.asarray(data, dtype=float).reshape(-1, 3)
         self.n = len(self.data)
         self._grids: dict[float, _Grid] = {}
+        self._xorder: np.ndarray | None = None  # point indices sorted by x (for compact queries)
+        self._xsorted: np.ndarray | None = None
 
     def _grid(self, r: float) -> _Grid:
         cell = max(float(r), 1.0)  # a cell wider than r still holds every neighbour; never a fine grid
@@ -87,6 +89,19 @@ class NeighbourTree:
         if grid is None:
             grid = self._grids[cell] = _Grid(self.data, cell)
         return grid
+
+    def _box(self, points: np.ndarray, r: float) -> np.ndarray:
+        """Sorted indices of the points inside the query points' bounding box widened by ``r``."""
+        if self._xorder is None:
+            self._xorder = np.argsort(self.data[:, 0], kind="stable")
+            self._xsorted = self.data[self._xorder, 0]
+        lo, hi = points.min(axis=0) - r, points.max(axis=0) + r
+        first = int(np.searchsorted(self._xsorted, lo[0], side="left"))
+        last = int(np.searchsorted(self._xsorted, hi[0], side="right"))
+        slab = self._xorder[first:last]
+        yz = self.data[slab, 1:]
+        inside = np.all((yz >= lo[1:]) & (yz <= hi[1:]), axis=1)
+        return np.sort(slab[inside])
 
     def _within(self, points: np.ndarray, r: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(query index, point index, distance) of every pair closer than or at ``r``, by query then point."""
@@ -97,6 +112,11 @@ class NeighbourTree:
             dist = np.sqrt(((points[:, None, :] - self.data[None, :, :]) ** 2).sum(axis=2))
             q, p = np.nonzero(dist <= r)  # by query, then point
             return q, p, dist[q, p]
+        near = self._box(points, r)
+        if len(points) * len(near) <= _BRUTE_PAIRS:  # compact query (one site): distances to the atoms of its box
+            dist = np.sqrt(((points[:, None, :] - self.data[near][None, :, :]) ** 2).sum(axis=2))
+            q, p = np.nonzero(dist <= r)  # by query, then point (``near`` is sorted)
+            return q, near[p], dist[q, p]
         q, p = self._grid(r).candidates(points)
         d = np.sqrt(((points[q] - self.data[p]) ** 2).sum(axis=1))
         keep = d <= r
