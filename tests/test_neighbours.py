@@ -68,3 +68,19 @@ def test_real_atoms_of_1kf6():
     probes = xyz[::500]
     for got, exp in zip(mine.query_ball_point(probes, 6.0), ref.query_ball_point(probes, 6.0)):
         assert got == sorted(exp)
+
+
+@pytest.mark.parametrize("r", [1.9, 3.0, 6.0, 12.5])
+def test_compact_queries_match_the_kd_tree(r):
+    """A site's atoms (a tight group of points) against a large cloud: the bounding-box path."""
+    data = _cloud(20000, 70.0, 7)
+    rng = np.random.default_rng(8)
+    mine, ref = NeighbourTree(data), cKDTree(data)
+    for size in (1, 5, 43, 120):
+        centre = rng.uniform(-30, 30, size=3)
+        queries = centre + rng.normal(scale=2.5, size=(size, 3))
+        for got, exp in zip(mine.query_ball_point(queries, r), ref.query_ball_point(queries, r)):
+            assert got == sorted(exp)
+        d, i = mine.query(queries, k=1, distance_upper_bound=r)
+        d_ref, i_ref = ref.query(queries, k=1, distance_upper_bound=r)
+        assert np.array_equal(i, i_ref)

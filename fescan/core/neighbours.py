@@ -21,7 +21,23 @@ __all__ = ["NeighbourTree"]
 
 _BRUTE_CELLS = 4_000_000  # query x point distances computed at once by the unbounded nearest search
 _BRUTE_PAIRS = 200_000  # below this many query x point pairs, no grid is built
+_SMALL_PAIRS = 4_096  # below this many, not even the bounding box is looked for
 _OFFSETS = np.array([(i, j, k) for i in (-1, 0, 1) for j in (-1, 0, 1) for k in (-1, 0, 1)], dtype=np.int64)
+
+
+def _distances(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Every distance between the rows of ``a`` and of ``b``, shape ``(len(a), len(b))``.
+
+    Axis by axis (no ``(m, n, 3)`` temporary); the sum runs x, y, z in that order,
+    as ``((a - b) ** 2).sum(axis=-1)`` does, so the values are the same.
+    """
+    d2 = np.subtract.outer(a[:, 0], b[:, 0])
+    d2 *= d2
+    for k in (1, 2):
+        t = np.subtract.outer(a[:, k], b[:, k])
+        t *= t
+        d2 += t
+    return np.sqrt(d2, out=d2)
 
 
 class _Grid:
@@ -108,13 +124,13 @@ class NeighbourTree:
         if not self.n or not len(points) or not r >= 0:
             empty = np.zeros(0, dtype=np.intp)
             return empty, empty, np.zeros(0)
-        if len(points) * self.n <= _BRUTE_PAIRS:  # few points: every distance at once beats the grid
-            dist = np.sqrt(((points[:, None, :] - self.data[None, :, :]) ** 2).sum(axis=2))
+        if len(points) * self.n <= _SMALL_PAIRS:  # tiny: every distance at once
+            dist = _distances(points, self.data)
             q, p = np.nonzero(dist <= r)  # by query, then point
             return q, p, dist[q, p]
         near = self._box(points, r)
         if len(points) * len(near) <= _BRUTE_PAIRS:  # compact query (one site): distances to the atoms of its box
-            dist = np.sqrt(((points[:, None, :] - self.data[near][None, :, :]) ** 2).sum(axis=2))
+            dist = _distances(points, self.data[near])
             q, p = np.nonzero(dist <= r)  # by query, then point (``near`` is sorted)
             return q, near[p], dist[q, p]
         q, p = self._grid(r).candidates(points)
