@@ -10,6 +10,10 @@ References kept here, beside the fast code they check:
 - ring perception with the 2-core pruning against the same breadth-first search
   over every bond (the code before the pruning), on every hetero residue of the
   real entries;
+- the quinone screen (two carbons carrying a terminal O, each with two carbon
+  neighbours) against ring perception without it, on every hetero residue of the
+  real entries (their menaquinones and plastoquinones among them): it never sets
+  aside a residue the perception would call a quinone;
 - alternative states found from the atom columns against the same rules applied
   to gemmi residues one by one (the code before the columns), on the real entries
   and a synthetic pair of overlapping half-occupancy clusters.
@@ -25,7 +29,8 @@ import numpy as np
 import pytest
 
 from fescan.cofactors.atoms import ModelIndex
-from fescan.cofactors.rings import bond_graph, small_rings
+from fescan.cofactors import rings
+from fescan.cofactors.rings import bond_graph, quinone_kind, small_rings
 from fescan.cofactors.states import OVERLAP_MAX, find_alternative_states
 from fescan.core.errors import FescanError
 from fescan.structure.pdb_lines import _END, record_problem, screen_pdb_records
@@ -155,6 +160,22 @@ def test_rings_with_pruning_equal_the_full_search(pdb_id):
             g = bond_graph(xyz, el)
             for sizes in ((5, 6), (6,), (5, 6, 7)):
                 assert small_rings(g, sizes) == _reference_rings(g, sizes), res.name
+
+
+@requires_shared
+@pytest.mark.parametrize("pdb_id", sorted(ENTRIES))
+def test_quinone_screen_never_hides_a_quinone(pdb_id, monkeypatch):
+    st = gemmi.read_structure(str(entry_path(pdb_id)))
+    residues = []
+    for ch in st[0]:
+        for res in ch:
+            if res.het_flag == "H" and len(res) >= 8:
+                residues.append((np.array([a.pos.tolist() for a in res]),
+                                 np.array([a.element.name.upper() for a in res], dtype=object)))
+    fast = [quinone_kind(xyz, el) for xyz, el in residues]
+    monkeypatch.setattr(rings, "_two_oxo_ring_carbons", lambda *args: True)
+    full = [quinone_kind(xyz, el) for xyz, el in residues]
+    assert fast == full
 
 
 def _reference_states(model, candidate_ids):

@@ -63,10 +63,31 @@ _ENV_ATOM_RADIUS = 6.0  # Å: any atom of a non-standard residue this close to a
 
 
 def _rows_by_residue(atoms: AtomArrays) -> dict[int, np.ndarray]:
-    out: dict[int, list[int]] = defaultdict(list)
-    for i, r in enumerate(atoms.res_id):
-        out[int(r)].append(i)
-    return {k: np.asarray(v, dtype=int) for k, v in out.items()}
+    """Residue id → its rows (ascending), residues in order of first row."""
+    rid = np.asarray(atoms.res_id, dtype=np.int64)
+    if not len(rid):
+        return {}
+    order = np.argsort(rid, kind="stable")
+    ids, first, count = np.unique(rid[order], return_index=True, return_counts=True)
+    out = {int(ids[k]): order[first[k]:first[k] + count[k]].astype(int) for k in np.argsort(order[first])}
+    return out
+
+
+class _Composition:
+    """Per-residue atom counts of the candidate atoms (one vectorised pass)."""
+
+    __slots__ = ("n", "c", "nitrogen", "o", "fe", "metal")
+
+    def __init__(self, atoms: AtomArrays) -> None:
+        ids, inverse = np.unique(np.asarray(atoms.res_id, dtype=np.int64), return_inverse=True)
+        el = atoms.element
+        count = lambda mask: dict(zip(ids.tolist(), np.bincount(inverse, weights=mask, minlength=len(ids)).astype(int).tolist()))  # noqa: E731
+        self.n = count(np.ones(len(el)))
+        self.c = count(el == "C")
+        self.nitrogen = count(el == "N")
+        self.o = count(el == "O")
+        self.fe = count(el == "FE")
+        self.metal = count(np.isin(el, sorted(METALS | {"MG", "ZN"})))
 
 
 def _is_heme_geometry(atoms: AtomArrays, rows: np.ndarray) -> int | None:
@@ -79,11 +100,9 @@ def _is_heme_geometry(atoms: AtomArrays, rows: np.ndarray) -> int | None:
     return int(fe[0]) if close >= 4 else None
 
 
-def _might_be_flavin(atoms: AtomArrays, rows: np.ndarray) -> bool:
-    el = [atoms.element[r] for r in rows]
-    if any(e in METALS or e == "MG" for e in el):
-        return False
-    return len(rows) >= 16 and el.count("N") >= 4 and el.count("O") >= 2
+def _might_be_flavin(comp: _Composition, rid: int) -> bool:
+    """Enough N and O for an isoalloxazine, and no metal (Mg, Zn included)."""
+    return not comp.metal[rid] and comp.n[rid] >= 16 and comp.nitrogen[rid] >= 4 and comp.o[rid] >= 2
 
 
 class _Builder(OrganicMixin):
@@ -102,6 +121,7 @@ class _Builder(OrganicMixin):
         self.margin = bond_margin(resolution, coordinate_error)
         self.cand = cand.subset(np.flatnonzero(~np.isin(cand.res_id, hidden))) if hidden else cand
         self.by_res = _rows_by_residue(self.cand)
+        self.comp = _Composition(self.cand)
         self.cofactors: list[tuple[int, Cofactor]] = []
         self.pterin_codes = frozenset(k for k, v in self.table.items() if v.category == "pterin")
         self.pterin_res: set[int] = set()
@@ -175,7 +195,7 @@ class _Builder(OrganicMixin):
         out = {}
         for rid, rows in self.by_res.items():
             entry = self.table.get(str(self.cand.resname[rows[0]]))
-            if entry is not None and entry.category != "heme":
+            if (entry is not None and entry.category != "heme") or self.comp.fe[rid] != 1:
                 continue
             fe = _is_heme_geometry(self.cand, rows)
             if fe is not None:
@@ -193,13 +213,13 @@ class _Builder(OrganicMixin):
             fe = heme_fe.get(rid)
             if cat == "heme" or (cat is None and fe is not None):
                 self._heme(rid, rows, fe, entry)
-            elif cat == "flavin" or (cat is None and _might_be_flavin(self.cand, rows)):
+            elif cat == "flavin" or (cat is None and _might_be_flavin(self.comp, rid)):
                 if not self._flavin(rows, entry) and cat is None:
-                    self._quinone_by_ring(rows)
+                    self._quinone_by_ring(rid, rows)
             elif cat == "quinone":
                 self._quinone(rows, entry)
             elif cat is None:
-                self._quinone_by_ring(rows)
+                self._quinone_by_ring(rid, rows)
 
     def chain_residues(self) -> dict[str, int]:
         """Amino-acid residues per chain of the model (counted once)."""

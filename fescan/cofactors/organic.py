@@ -1,7 +1,7 @@
 """Organic cofactors of one model: hemes, flavins and quinones (a mixin of the detection builder).
 
-The methods use the builder's candidate atoms (``cand``), environment (``env``)
-and record helper; see :mod:`fescan.cofactors.detect`.
+The methods use the builder's candidate atoms (``cand``), their per-residue counts
+(``comp``), environment (``env``) and record helper; see :mod:`fescan.cofactors.detect`.
 """
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ import numpy as np
 
 from fescan.cofactors.atoms import AtomArrays
 from fescan.cofactors.ligation import find_ligands
-from fescan.cofactors.metal_sites import METALS, composition_string
+from fescan.cofactors.metal_sites import composition_string
 from fescan.cofactors.rings import (
     isoalloxazine_atoms,
     porphyrin_atoms,
@@ -34,14 +34,13 @@ class OrganicMixin:
                                      f"{what} not found in the atoms: all atoms used for distances")]
         return [int(rows[i]) for i in found], []
 
-    def _quinone_by_ring(self, rows: np.ndarray) -> None:
+    def _quinone_by_ring(self, rid: int, rows: np.ndarray) -> None:
         """A residue of unknown code holding a para-quinone/quinol ring (benzo- or naphthoquinone)."""
+        comp = self.comp
+        if comp.n[rid] < 8 or comp.metal[rid] or comp.c[rid] < 6 or comp.o[rid] < 2:
+            return
         c = self.cand
         el = c.element[rows]
-        if len(rows) < 8 or any(e in METALS or e in ("MG", "ZN", "CO", "NI") for e in el):
-            return
-        if int(np.sum(el == "C")) < 6 or int(np.sum(el == "O")) < 2:
-            return
         found = quinone_kind(c.xyz[rows], el)
         if found is None:
             return

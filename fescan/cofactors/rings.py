@@ -89,6 +89,39 @@ class BondGraph:
         return len(self.adj)
 
 
+def _bonds(xyz: np.ndarray, element: np.ndarray) -> tuple[list[int], np.ndarray, np.ndarray]:
+    """Organic atom rows and their bonds ``(rows[a[k]], rows[b[k]])``, ``a < b`` (see :func:`bond_graph`)."""
+    idx = [i for i, e in enumerate(element) if e in _ORGANIC]
+    if len(idx) < 2:
+        empty = np.zeros(0, dtype=np.intp)
+        return idx, empty, empty
+    rows = np.asarray(idx, dtype=np.intp)
+    sub = np.asarray(xyz, dtype=float)[rows]
+    heavy = np.isin(np.asarray(element, dtype=object)[rows], ("S", "P", "SE"))
+    if len(rows) <= _DENSE_MAX:  # every distance at once
+        diff = sub[:, None, :] - sub[None, :, :]
+        d = np.sqrt(np.einsum("ijk,ijk->ij", diff, diff))
+        limit = np.where(heavy[:, None] | heavy[None, :], 1.9, 1.75)
+        a, b = np.nonzero(np.triu((d < limit) & (d > 0.9), k=1))
+    else:
+        pairs = NeighbourTree(sub).query_pairs(_MAX_BOND)
+        a, b = pairs[:, 0], pairs[:, 1]
+        d = np.linalg.norm(sub[a] - sub[b], axis=1)
+        ok = (d < np.where(heavy[a] | heavy[b], 1.9, 1.75)) & (d > 0.9)
+        a, b = a[ok], b[ok]
+    return idx, a, b
+
+
+def _graph(idx: list[int], a: np.ndarray, b: np.ndarray) -> BondGraph:
+    g = BondGraph(idx)
+    adj = g.adj
+    rows = np.asarray(idx, dtype=np.intp)
+    for u, v in zip(rows[a].tolist(), rows[b].tolist()):
+        adj[u].add(v)
+        adj[v].add(u)
+    return g
+
+
 def bond_graph(xyz: np.ndarray, element: np.ndarray) -> BondGraph:
     """Covalent bond graph of organic heavy atoms (metals left out).
 
@@ -105,29 +138,30 @@ def bond_graph(xyz: np.ndarray, element: np.ndarray) -> BondGraph:
         Nodes are row indices of organic atoms; an edge joins atoms closer than
         a distance that depends on the pair (1.9 Å with S or P, 1.75 Å otherwise).
     """
-    idx = [i for i, e in enumerate(element) if e in _ORGANIC]
-    g = BondGraph(idx)
-    if len(idx) < 2:
-        return g
-    rows = np.asarray(idx, dtype=np.intp)
-    sub = np.asarray(xyz, dtype=float)[rows]
-    heavy = np.isin(np.asarray(element, dtype=object)[rows], ("S", "P", "SE"))
-    if len(rows) <= _DENSE_MAX:  # every distance at once
-        diff = sub[:, None, :] - sub[None, :, :]
-        d = np.sqrt(np.einsum("ijk,ijk->ij", diff, diff))
-        limit = np.where(heavy[:, None] | heavy[None, :], 1.9, 1.75)
-        a, b = np.nonzero(np.triu((d < limit) & (d > 0.9), k=1))
-    else:
-        pairs = NeighbourTree(sub).query_pairs(_MAX_BOND)
-        a, b = pairs[:, 0], pairs[:, 1]
-        d = np.linalg.norm(sub[a] - sub[b], axis=1)
-        ok = (d < np.where(heavy[a] | heavy[b], 1.9, 1.75)) & (d > 0.9)
-        a, b = a[ok], b[ok]
-    adj = g.adj
-    for u, v in zip(rows[a].tolist(), rows[b].tolist()):
-        adj[u].add(v)
-        adj[v].add(u)
-    return g
+    return _graph(*_bonds(xyz, element))
+
+
+def _two_oxo_ring_carbons(element: np.ndarray, idx: list[int], a: np.ndarray, b: np.ndarray) -> bool:
+    """Whether two carbons each carry a terminal O and have two carbon neighbours.
+
+    A para-quinone/quinol ring of six carbons needs that (each O-bearing ring
+    carbon is bonded to its two ring neighbours), so a residue without it holds
+    none (an ester's carbonyl carbon has one carbon neighbour): the bond graph
+    is then never built.
+    """
+    if not len(a):
+        return False
+    el = np.asarray(element, dtype=object)[np.asarray(idx, dtype=np.intp)]
+    n = len(idx)
+    ends = np.concatenate((a, b))
+    other = np.concatenate((b, a))
+    degree = np.bincount(ends, minlength=n)
+    terminal_o = (el[ends] == "O") & (degree[ends] == 1) & (el[other] == "C")
+    carriers = np.unique(other[terminal_o])
+    if len(carriers) < 2:
+        return False
+    c_neighbours = np.bincount(ends[el[other] == "C"], minlength=n)
+    return int(np.sum(c_neighbours[carriers] >= 2)) >= 2
 
 
 def _ring_distance(g: BondGraph, ring: frozenset[int], a: int, b: int) -> int | None:
@@ -293,7 +327,10 @@ def quinone_kind(xyz: np.ndarray, element: np.ndarray) -> tuple[str, list[int]] 
         ``("naphthoquinone" | "benzoquinone", redox rows)`` where the redox rows are
         the quinone ring carbons and their two O; None when absent.
     """
-    g = bond_graph(xyz, element)
+    bonds = _bonds(xyz, element)
+    if not _two_oxo_ring_carbons(element, *bonds):
+        return None
+    g = _graph(*bonds)
     rings = small_rings(g, (6,))
     for ring in rings:
         if _count(element, ring, "C") != 6:
