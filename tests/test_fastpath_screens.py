@@ -10,6 +10,9 @@ References kept here, beside the fast code they check:
 - ring perception with the 2-core pruning against the same breadth-first search
   over every bond (the code before the pruning), on every hetero residue of the
   real entries;
+- the porphyrin search that looks only at the bonds of the N atoms bound to the
+  metal against the search over every bond, on every heme of the real entries and
+  examples;
 - the quinone screen (two carbons carrying a terminal O, each with two carbon
   neighbours) against ring perception without it, on every hetero residue of the
   real entries (their menaquinones and plastoquinones among them): it never sets
@@ -23,18 +26,21 @@ from __future__ import annotations
 
 import gzip
 import random
+from pathlib import Path
 
 import gemmi
 import numpy as np
 import pytest
 
-from fescan.cofactors.atoms import ModelIndex
 from fescan.cofactors import rings
-from fescan.cofactors.rings import bond_graph, quinone_kind, small_rings
+from fescan.cofactors.atoms import ModelIndex
+from fescan.cofactors.rings import bond_graph, porphyrin_atoms, quinone_kind, small_rings
 from fescan.cofactors.states import OVERLAP_MAX, find_alternative_states
 from fescan.core.errors import FescanError
 from fescan.structure.pdb_lines import _END, record_problem, screen_pdb_records
 from tests.datafiles import ENTRIES, entry_path, requires_shared
+
+EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "example_structures").glob("rb*"))
 
 
 def _text(path) -> bytes:
@@ -176,6 +182,41 @@ def test_quinone_screen_never_hides_a_quinone(pdb_id, monkeypatch):
     monkeypatch.setattr(rings, "_two_oxo_ring_carbons", lambda *args: True)
     full = [quinone_kind(xyz, el) for xyz, el in residues]
     assert fast == full
+
+
+def _reference_porphyrin(xyz, element, metal):
+    """Pyrroles among the 5-rings of every bond, then the meso carbons (the code before the N-only search)."""
+    g = bond_graph(xyz, element)
+    pyrroles = []
+    for ring in small_rings(g, (5,)):
+        ns = [i for i in ring if element[i] == "N"]
+        if len(ns) == 1 and np.linalg.norm(xyz[ns[0]] - xyz[metal]) < 2.6:
+            pyrroles.append(ring)
+    if len(pyrroles) < 4:
+        return None
+    ring_atoms = set().union(*pyrroles)
+    meso = {i for i in g.nodes if i not in ring_atoms and element[i] == "C"
+            and len({k for k, r in enumerate(pyrroles) if any(nb in r for nb in g.neighbors(i))}) >= 2}
+    return sorted(ring_atoms | meso | {metal})
+
+
+@pytest.mark.parametrize("path", [*(entry_path(e) for e in sorted(ENTRIES)), *EXAMPLES], ids=str)
+def test_porphyrin_search_equals_the_full_search(path):
+    if not path.exists():
+        pytest.skip("structure not available")
+    st = gemmi.read_structure(str(path))
+    seen = 0
+    for ch in st[0]:
+        for res in ch:
+            fe = [k for k, a in enumerate(res) if a.element.name == "Fe"]
+            if len(fe) != 1 or len(res) < 20:
+                continue
+            xyz = np.array([a.pos.tolist() for a in res])
+            el = np.array([a.element.name.upper() for a in res], dtype=object)
+            assert porphyrin_atoms(xyz, el, fe[0]) == _reference_porphyrin(xyz, el, fe[0]), res.name
+            seen += 1
+    if path.name.startswith(("19HC", "2AXT")):
+        assert seen  # hemes were compared
 
 
 def _reference_states(model, candidate_ids):

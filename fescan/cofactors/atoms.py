@@ -84,6 +84,18 @@ class AtomArrays:
             altloc=str(self.altloc[i]),
         )
 
+    def refs(self, rows) -> list[AtomRef]:
+        """Return the atoms ``rows`` as :class:`AtomRef` (columns gathered once, not atom by atom)."""
+        idx = np.asarray(rows, dtype=np.intp).reshape(-1)
+        cols = zip(self.chain[idx].tolist(), self.seqnum[idx].tolist(), self.icode[idx].tolist(),
+                   self.resname[idx].tolist(), self.name[idx].tolist(), self.element[idx].tolist(),
+                   self.xyz[idx].tolist(), self.occ[idx].tolist(), self.b[idx].tolist(),
+                   self.altloc[idx].tolist())
+        return [AtomRef(chain=str(c), seqnum=int(n), icode=str(i), resname=str(r), name=str(a), element=str(e),
+                        xyz=(round(x, 4), round(y, 4), round(z, 4)), occupancy=float(o), b_iso=float(b),
+                        altloc=str(al))
+                for c, n, i, r, a, e, (x, y, z), o, b, al in cols]
+
     def subset(self, idx: np.ndarray) -> AtomArrays:
         """Return the rows ``idx`` as new arrays."""
         return AtomArrays(*(getattr(self, f)[idx] for f in self.__slots__))  # type: ignore[attr-defined]

@@ -159,16 +159,18 @@ class _Builder(OrganicMixin):
 
     # -- helpers ---------------------------------------------------------
     def _record(self, atoms: AtomArrays, atom_rows, redox_rows, name_row: int, **fields) -> Cofactor:
-        refs = tuple(atoms.ref(int(i)) for i in atom_rows)
-        redox = tuple(atoms.ref(int(i)) for i in redox_rows)
+        atom_list = [int(i) for i in atom_rows]
+        refs = tuple(atoms.refs(atom_list))
+        by_row = dict(zip(atom_list, refs))
+        redox_list = [int(i) for i in redox_rows]
+        missing = [i for i in redox_list if i not in by_row]
+        if missing:
+            by_row.update(zip(missing, atoms.refs(missing)))
+        redox = tuple(by_row[i] for i in redox_list)
         centroid = tuple(float(v) for v in atoms.xyz[np.asarray(redox_rows, dtype=int)].mean(axis=0))
         occ = atoms.occ[np.asarray(atom_rows, dtype=int)]
         flags = list(fields.pop("flags", [])) + occupancy_flags(occ)
-        residues = []
-        for i in atom_rows:
-            lab = f"{atoms.chain[i]}/{atoms.seqnum[i]}{atoms.icode[i]} {atoms.resname[i]}"
-            if lab not in residues:
-                residues.append(lab)
+        residues = list(dict.fromkeys(f"{a.chain}/{a.seqnum}{a.icode} {a.resname}" for a in refs))
         return Cofactor(
             model=self.model_number,
             chain=str(atoms.chain[name_row]),

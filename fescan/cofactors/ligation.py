@@ -139,34 +139,37 @@ def find_ligands(
     ligand_rows: set[int] = set()
     alt = env.altloc
     metals = [int(m) for m in metal_rows]
-    near_metal = tree.query_ball_point(env.xyz[metals].reshape(-1, 3), r=3.0) if metals else []
-    for m, hits in zip(metals, near_metal):  # one batched search for every metal of the site
-        for j in hits:
-            if j in core_rows or (alt[m] and alt[j] and alt[j] != alt[m]):  # another conformation
-                continue
-            e = env.element[j]
-            d = float(np.linalg.norm(env.xyz[m] - env.xyz[j]))
-            limit = _ION_LIGAND_MAX.get((env.element[m], e), LIGAND_MAX.get(e))
-            if limit is None and e == "C" and int(env.res_id[j]) in own_res_ids:
-                limit = _OWN_RESIDUE_CARBON_MAX
-            if limit is None or d > limit:
-                continue
-            ref = env.ref(j)
-            ligands.append(
-                (m, Ligand(metal=str(env.name[m]), metal_element=str(env.element[m]), atom=ref,
-                           distance=d, kind=ligand_kind(ref.resname, ref.name, ref.element)))
-            )
-            ligand_rows.add(j)
+    if metals:  # one batched search for every metal of the site
+        q, p, dist = tree.within(env.xyz[metals], 3.0)
+        near_metal = zip((metals[k] for k in q.tolist()), p.tolist(), dist.tolist())
+    else:
+        near_metal = iter(())
+    for m, j, d in near_metal:
+        if j in core_rows or (alt[m] and alt[j] and alt[j] != alt[m]):  # another conformation
+            continue
+        e = env.element[j]
+        limit = _ION_LIGAND_MAX.get((env.element[m], e), LIGAND_MAX.get(e))
+        if limit is None and e == "C" and int(env.res_id[j]) in own_res_ids:
+            limit = _OWN_RESIDUE_CARBON_MAX
+        if limit is None or d > limit:
+            continue
+        ref = env.ref(j)
+        ligands.append(
+            (m, Ligand(metal=str(env.name[m]), metal_element=str(env.element[m]), atom=ref,
+                       distance=d, kind=ligand_kind(ref.resname, ref.name, ref.element)))
+        )
+        ligand_rows.add(j)
     ligands.sort(key=lambda t: (t[1].metal, t[1].distance))
     clashes = []
     core = sorted(int(c) for c in core_rows)
-    near_core = tree.query_ball_point(env.xyz[core].reshape(-1, 3), r=CLASH_MAX) if core else []
-    for c, hits in zip(core, near_core):
-        for j in hits:
-            if j in core_rows or j in ligand_rows or int(env.res_id[j]) in own_res_ids \
-                    or (alt[c] and alt[j] and alt[j] != alt[c]):
+    if core:
+        q, p, dist = tree.within(env.xyz[core], CLASH_MAX)
+        other = ~np.isin(p, list(core_rows | ligand_rows)) & ~np.isin(env.res_id[p], list(own_res_ids))
+        for k, j, d in zip(q[other].tolist(), p[other].tolist(), dist[other].tolist()):
+            c = core[k]
+            if alt[c] and alt[j] and alt[j] != alt[c]:
                 continue
-            clashes.append((c, j, float(np.linalg.norm(env.xyz[c] - env.xyz[j]))))
+            clashes.append((c, j, d))
     return ligands, clashes
 
 

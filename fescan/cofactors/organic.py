@@ -123,13 +123,12 @@ class OrganicMixin:
         )
         self.cofactors.append((rid, cof))
 
-    @staticmethod
-    def _thioether_cys(env: AtomArrays, heme_rows: list[int], max_d: float) -> list[tuple[str, int, str]]:
+    def _thioether_cys(self, env: AtomArrays, heme_rows: list[int], max_d: float) -> list[tuple[str, int, str]]:
         """Cys residues (chain, number, icode) whose SG lies within ``max_d`` Å of a heme carbon."""
-        sg = np.flatnonzero((env.element == "S") & (env.name == "SG"))
         carbons = [r for r in heme_rows if env.element[r] == "C"]
-        if len(sg) == 0 or not carbons:
+        if not carbons:
             return []
-        d = np.linalg.norm(env.xyz[sg][:, None, :] - env.xyz[carbons][None, :, :], axis=2)
-        linked = sg[np.any(d < max_d, axis=1)]
-        return sorted({(str(env.chain[i]), int(env.seqnum[i]), str(env.icode[i])) for i in linked})
+        _, near, dist = self._env_tree.within(env.xyz[carbons], max_d)
+        sg = {i for i, d in zip(near.tolist(), dist.tolist())
+              if d < max_d and env.element[i] == "S" and env.name[i] == "SG"}
+        return sorted({(str(env.chain[i]), int(env.seqnum[i]), str(env.icode[i])) for i in sg})

@@ -176,12 +176,15 @@ def _ring_distance(g: BondGraph, ring: frozenset[int], a: int, b: int) -> int | 
     return steps if b in seen else None
 
 
-def small_rings(g: BondGraph, sizes: tuple[int, ...] = (5, 6)) -> list[frozenset[int]]:
+def small_rings(g: BondGraph, sizes: tuple[int, ...] = (5, 6),
+                through: set[int] | None = None) -> list[frozenset[int]]:
     """Smallest ring through each bond, kept when its size is in ``sizes``.
 
     For every edge (u, v) a breadth-first search from u to v that avoids the
     edge itself finds the smallest ring containing it; every ring of a fused
     system (naphthalene, isoalloxazine, pyrroles of a porphyrin) is found.
+    With ``through``, only the bonds of those atoms are searched (the rings
+    holding them).
     """
     max_size = max(sizes)
     rings: set[frozenset[int]] = set()
@@ -196,6 +199,8 @@ def small_rings(g: BondGraph, sizes: tuple[int, ...] = (5, 6)) -> list[frozenset
             if len(nb) == 1:
                 ends.append(m)
     edges = [(u, v) for u, nb in adj.items() for v in nb if u < v]
+    if through is not None:
+        edges = [(u, v) for u, v in edges if u in through or v in through]
     for u, v in edges:
         parent = {u: None}
         frontier = [u]
@@ -394,19 +399,24 @@ def porphyrin_atoms(xyz: np.ndarray, element: np.ndarray, metal: int) -> list[in
     """
     xyz = np.asarray(xyz, dtype=float)
     g = bond_graph(xyz, element)
+    near_n = {i for i in g.nodes if element[i] == "N" and np.linalg.norm(xyz[i] - xyz[metal]) < 2.6}
     pyrroles = []
-    for ring in small_rings(g, (5,)):
+    for ring in small_rings(g, (5,), through=near_n):  # a pyrrole holds its N: only the N's bonds are searched
         ns = [i for i in ring if element[i] == "N"]
-        if len(ns) == 1 and np.linalg.norm(xyz[ns[0]] - xyz[metal]) < 2.6:
+        if len(ns) == 1 and ns[0] in near_n:
             pyrroles.append(ring)
     if len(pyrroles) < 4:
         return None
     ring_atoms = set().union(*pyrroles)
+    rings_of: dict[int, set[int]] = {}
+    for k, r in enumerate(pyrroles):
+        for i in r:
+            rings_of.setdefault(i, set()).add(k)
     meso = set()
     for i in g.nodes:
         if i in ring_atoms or element[i] != "C":
             continue
-        touched = {k for k, r in enumerate(pyrroles) if any(nb in r for nb in g.neighbors(i))}
+        touched = set().union(*(rings_of.get(nb, ()) for nb in g.adj[i]))
         if len(touched) >= 2:
             meso.add(i)
     return sorted(ring_atoms | meso | {metal})

@@ -140,6 +140,21 @@ class NeighbourTree:
         order = np.lexsort((p, q))
         return q[order], p[order], d[order]
 
+    def within(self, x, r: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Every (query, point) pair closer than or at ``r``, with its distance.
+
+        Parameters
+        ----------
+        x : array_like, shape=(m, 3)
+        r : float
+
+        Returns
+        -------
+        (query index, point index, distance)
+            Three arrays, sorted by query, then point.
+        """
+        return self._within(np.asarray(x, dtype=float).reshape(-1, 3), r)
+
     def query_pairs(self, r: float, output_type: str = "ndarray") -> np.ndarray:
         """Index pairs ``(i, j)``, ``i < j``, of points within ``r`` of each other.
 
