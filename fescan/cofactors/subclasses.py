@@ -83,39 +83,49 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
     s_rows = [r for r in core_rows if env.element[r] in ("S", "SE")] + [
         r for r in ligand_rows if env.element[r] in ("S", "SE")]
     names = env.name[near]
-    backbone = near[env.standard[near] & np.isin(names.astype(str), ("N", "CA", "C"))]
+    backbone = near[env.standard[near] & ((names == "N") | (names == "CA") | (names == "C"))]
     key = {}
-    for i in backbone.tolist():
-        key[(env.chain[i], int(env.seqnum[i]), env.icode[i], env.name[i])] = i
+    for ch, num, ic, name, i in zip(env.chain[backbone].tolist(), env.seqnum[backbone].tolist(),
+                                    env.icode[backbone].tolist(), env.name[backbone].tolist(), backbone.tolist()):
+        key[(ch, int(num), ic, name)] = i
     nh_s = 0
     if s_rows:
         s_xyz = env.xyz[s_rows]
-        amide = [i for (_, _, _, name), i in key.items() if name == "N" and env.resname[i] != "PRO"]
-        if amide:  # only amide N within reach of a sulfur are looked at one by one
+        amide = [i for (_, _, _, name), i in key.items() if name == "N"]
+        amide = [i for i, rn in zip(amide, env.resname[amide].tolist()) if rn != "PRO"]
+        if amide:  # only amide N within reach of a sulfur are looked at
             d_all = np.linalg.norm(env.xyz[amide][:, None, :] - s_xyz[None, :, :], axis=2)
-            amide = [i for i, row in zip(amide, d_all) if row.min() <= NH_S_MAX]
-        for i in amide:
+            reach = d_all.min(axis=1) <= NH_S_MAX
+            amide = [i for i, ok in zip(amide, reach.tolist()) if ok]
+            d_all = d_all[reach]
+        frames = []  # (N, CA, C of the residue before) of each amide with both neighbours
+        for i, row in zip(amide, range(len(amide))):
             ch, num, ic = env.chain[i], int(env.seqnum[i]), env.icode[i]
-            d = np.linalg.norm(s_xyz - env.xyz[i], axis=1)
             ca = key.get((ch, num, ic, "CA"))
             c_prev = key.get((ch, num - 1, "", "C"))
-            if ca is None or c_prev is None:
-                continue
-            n = env.xyz[i]
-            u = (n - env.xyz[ca]) / np.linalg.norm(n - env.xyz[ca]) + (n - env.xyz[c_prev]) / np.linalg.norm(
-                n - env.xyz[c_prev])
-            h = n + 1.01 * u / np.linalg.norm(u)
-            for k in np.flatnonzero(d <= NH_S_MAX):
-                a, b = n - h, s_xyz[k] - h
-                ang = np.degrees(np.arccos(np.clip(np.dot(a, b) / np.linalg.norm(a) / np.linalg.norm(b), -1, 1)))
-                if ang >= _NH_S_ANGLE_MIN:
-                    nh_s += 1
-                    break
+            if ca is not None and c_prev is not None:
+                frames.append((i, ca, c_prev, row))
+        if frames:
+            rows = np.asarray(frames, dtype=np.intp)
+            n, ca, cp = env.xyz[rows[:, 0]], env.xyz[rows[:, 1]], env.xyz[rows[:, 2]]
+            u = ((n - ca) / np.linalg.norm(n - ca, axis=1)[:, None]
+                 + (n - cp) / np.linalg.norm(n - cp, axis=1)[:, None])
+            h = n + 1.01 * u / np.linalg.norm(u, axis=1)[:, None]  # H on the C(i-1)-N-CA bisector
+            a_vec = (n - h)[:, None, :]
+            b_vec = s_xyz[None, :, :] - h[:, None, :]
+            cos = np.einsum("mkj,mkj->mk", np.broadcast_to(a_vec, b_vec.shape), b_vec) / (
+                np.linalg.norm(a_vec, axis=2) * np.linalg.norm(b_vec, axis=2))
+            angle = np.degrees(np.arccos(np.clip(cos, -1, 1)))
+            bonded = (d_all[rows[:, 3]] <= NH_S_MAX) & (angle >= _NH_S_ANGLE_MIN)
+            nh_s = int(bonded.any(axis=1).sum())
     aromatic = set()
-    close = near[(dist[near] <= _AROMATIC_RADIUS) & np.isin(env.resname[near].astype(str), tuple(_AROMATIC))]
-    for i in close.tolist():
-        if str(env.name[i]) in _AROMATIC[str(env.resname[i])]:
-            aromatic.add((env.chain[i], int(env.seqnum[i]), env.icode[i]))
+    resnames = env.resname[near]
+    close = near[(dist[near] <= _AROMATIC_RADIUS)
+                 & np.logical_or.reduce([resnames == rn for rn in _AROMATIC])]
+    for rn, name, ch, num, ic in zip(env.resname[close].tolist(), env.name[close].tolist(), env.chain[close].tolist(),
+                                     env.seqnum[close].tolist(), env.icode[close].tolist()):
+        if str(name) in _AROMATIC[str(rn)]:
+            aromatic.add((ch, int(num), ic))
     lig_sg = set(ligand_rows)
     sg_mask = (names == "SG") & (env.element[near] == "S") & (dist[near] <= _DISULFIDE_RADIUS)
     sg = [i for i in near[sg_mask].tolist() if i not in lig_sg]
