@@ -164,6 +164,15 @@ def test_vectorised_shapes_and_types():
     assert isinstance(hop_rates(5.0, 0.1)[0], float)
 
 
+@settings(max_examples=300, deadline=None)
+@given(st.floats(0, 40), st.floats(-2, 2), st.floats(0.05, 2.5), st.floats(0, 1), st.floats(150, 400))
+def test_plain_numbers_give_what_arrays_give(distance, dg, reorg, rho, temperature):
+    """Plain numbers take a path of their own (no arrays); it must give the array path's value to the bit."""
+    plain = log10_hop_rate(distance, dg, reorg, rho, temperature=temperature)
+    array = log10_hop_rate(np.asarray([distance]), dg, reorg, rho, temperature=temperature)[0]
+    assert plain == float(array)
+
+
 def test_infinite_distance_gives_zero_rate():
     assert log10_hop_rate(math.inf, -0.5) == -math.inf
     assert hop_rates(math.inf, 0.2) == (0.0, 0.0)

@@ -180,6 +180,8 @@ def log10_hop_rate(
     >>> log10_hop_rate([5.0, 10.0], -0.3).shape
     (2,)
     """
+    if all(type(v) in _SCALARS for v in (distance, dg, reorg, packing_density)):
+        return _scalar_log10_rate(float(distance), float(dg), float(reorg), float(packing_density), temperature)
     r, g, lam, rho = _validated(distance, dg, reorg, packing_density)
     kt10 = kt_ln10_ev(temperature)
     try:
@@ -201,6 +203,29 @@ def log10_hop_rate(
     if log_k.ndim == 0:
         return float(log_k)
     return log_k
+
+
+_SCALARS = (float, int)
+
+
+def _scalar_log10_rate(r: float, g: float, lam: float, rho: float, temperature: float) -> float:
+    """:func:`log10_hop_rate` for plain numbers, with the same checks and the same operations in the same order."""
+    for name, v in (("distance", r), ("dg", g), ("reorg", lam), ("packing_density", rho)):
+        if math.isnan(v):
+            raise ConfigError(f"{name} must not be NaN")
+    if r < 0:
+        raise ConfigError(f"distance must be >= 0 Å; got {r!r}")
+    if not math.isfinite(lam) or lam <= 0:
+        raise ConfigError(f"reorg (reorganisation energy) must be a finite number > 0 eV; got {lam!r}")
+    if rho < 0 or rho > 1:
+        raise ConfigError(f"packing_density must lie in [0, 1]; got {rho!r}")
+    kt10 = kt_ln10_ev(temperature)
+    r_eff = max(r, CONTACT_DISTANCE)
+    downhill = g <= 0
+    g_down = g if downhill else -g
+    t = g_down + lam
+    log_k = MAX_LOG10_RATE - (1.2 - 0.8 * rho) * (r_eff - CONTACT_DISTANCE) - _PARABOLA_COEFF * (t * t) / lam
+    return log_k if downhill else log_k - g / kt10
 
 
 #: A rate law: ``law(distance, dg, reorg, packing_density, *, temperature) -> log10 k``
