@@ -191,11 +191,15 @@ def _record_starts(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return starts[rec], (ends - starts)[rec]
 
 
-def _field_key(raw: np.ndarray, first: int, width: int) -> np.ndarray:
-    """The classes of columns ``first`` to ``first + width`` of every record, as one 64-bit key each."""
-    packed = np.zeros((len(raw), 8), dtype=np.uint8)
-    packed[:, :width] = _CLASS[raw[:, first:first + width]]
-    return packed.view("<u8").ravel()
+def _field_key(classes: np.ndarray, first: int, width: int) -> np.ndarray:
+    """The classes of columns ``first`` to ``first + width`` of every record, as one 64-bit key each.
+
+    ``classes`` is the C-contiguous ``(n, _WIDTH)`` class array; the eight bytes from
+    ``first`` are read in place as one little-endian number (no copy), and the bytes
+    past ``width`` masked off.
+    """
+    key = np.ndarray((len(classes),), dtype="<u8", buffer=classes, offset=first, strides=(classes.strides[0],))
+    return key & np.uint64((1 << (8 * width)) - 1) if width < 8 else key.copy()
 
 
 def _blank_tail(classes: np.ndarray, length: np.ndarray, first: int) -> np.ndarray:
@@ -213,20 +217,21 @@ def _standard(raw: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarr
     Never passes a record :func:`record_problem` would refuse (the tests pit the two
     against each other on real and damaged records).
     """
+    classes = np.take(_CLASS, raw)  # C-contiguous (n, _WIDTH)
     ok = length >= 54
-    ok &= np.isin(_field_key(raw, 6, 5), _SERIAL_KEYS)
-    ok &= np.isin(_field_key(raw, 22, 4), _RESSEQ_KEYS)
+    ok &= np.isin(_field_key(classes, 6, 5), _SERIAL_KEYS)
+    ok &= np.isin(_field_key(classes, 22, 4), _RESSEQ_KEYS)
     for first in (30, 38, 46):
-        ok &= np.isin(_field_key(raw, first, 8), _COORD_KEYS)
-    occ_key = _field_key(raw, 54, 6)
+        ok &= np.isin(_field_key(classes, first, 8), _COORD_KEYS)
+    occ_key = _field_key(classes, 54, 6)
     occ_number = np.isin(occ_key, _SIX_NUMBER_KEYS) & (length >= 60)
     occ_six = occ_number | ((occ_key == _SIX_BLANK_KEY) & (length >= 60))
-    b_key = _field_key(raw, 60, 6)
+    b_key = _field_key(classes, 60, 6)
     b_six = (np.isin(b_key, _SIX_NUMBER_KEYS) | (b_key == _SIX_BLANK_KEY)) & (length >= 66)
     full = ok & occ_six & b_six
     rest = np.flatnonzero(ok & ~full)  # short or unusual tails: looked at only for these rows
     if len(rest):
-        sub_c, sub_l = _CLASS[raw[rest]], length[rest]
+        sub_c, sub_l = classes[rest], length[rest]
         tail = (occ_six[rest] & _blank_tail(sub_c, sub_l, 60)) | _blank_tail(sub_c, sub_l, 54)
         full[rest[tail]] = True
     return full, occ_number

@@ -180,7 +180,7 @@ def log10_hop_rate(
     >>> log10_hop_rate([5.0, 10.0], -0.3).shape
     (2,)
     """
-    if all(type(v) in _SCALARS for v in (distance, dg, reorg, packing_density)):
+    if all(isinstance(v, _SCALARS) for v in (distance, dg, reorg, packing_density)):
         return _scalar_log10_rate(float(distance), float(dg), float(reorg), float(packing_density), temperature)
     r, g, lam, rho = _validated(distance, dg, reorg, packing_density)
     kt10 = kt_ln10_ev(temperature)
@@ -205,7 +205,7 @@ def log10_hop_rate(
     return log_k
 
 
-_SCALARS = (float, int)
+_SCALARS = (float, int)  # numpy float64 is a float; bool an int (1.0 on both paths)
 
 
 def _scalar_log10_rate(r: float, g: float, lam: float, rho: float, temperature: float) -> float:
