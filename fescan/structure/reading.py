@@ -392,7 +392,22 @@ def read_structure(
     )
 
 
-_FIRST_COORDINATE = re.compile(rb"^(?:ATOM  |HETATM|MODEL )", re.MULTILINE)
+_COORDINATE_STARTS = (b"ATOM  ", b"HETATM", b"MODEL ")
+
+
+def _first_coordinate(data: bytes) -> int:
+    """Offset of the first ATOM, HETATM or MODEL record (the end of the header); ``len(data)`` if none.
+
+    ``bytes.find`` per record name (a fast scan), not a multi-line regular expression.
+    """
+    first = len(data)
+    for word in _COORDINATE_STARTS:
+        if data.startswith(word):
+            return 0
+        at = data.find(b"\n" + word, 0, first)
+        if at >= 0:
+            first = at + 1
+    return first
 
 
 def _header_facts(
@@ -403,8 +418,7 @@ def _header_facts(
         stats = (refinement_stats_from_block(block) if file_format == "mmcif"
                  else RefinementStats(file_format=file_format, notes=("refinement statistics are not read from mmJSON",)))
         return codes_from_block(block), stats
-    m = _FIRST_COORDINATE.search(data)
-    head = (data[: m.start()] if m else data).decode("latin-1")
+    head = data[: _first_coordinate(data)].decode("latin-1")
     return codes_from_pdb_header(head), refinement_stats_from_text(head)
 
 
