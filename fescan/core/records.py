@@ -231,6 +231,11 @@ class Cofactor:
     subclass: str = ""
     states: tuple[str, ...] = ()
     extra: dict[str, Any] = field(default_factory=dict, compare=False, hash=False)
+    _uid: str = field(init=False, default="", repr=False, compare=False, hash=False)
+
+    def __post_init__(self) -> None:
+        # the id is asked for at every graph step: made once (``replace`` makes it again)
+        object.__setattr__(self, "_uid", f"{self.model}:{self.key}:{self.ccd_code or '-'}")
 
     @property
     def key(self) -> str:
@@ -246,7 +251,7 @@ class Cofactor:
     @property
     def uid(self) -> str:
         """Stable id: ``MODEL:CHAIN/RESNUM[ICODE]:CODE`` (``CODE`` is ``-`` when none)."""
-        return f"{self.model}:{self.key}:{self.ccd_code or '-'}"
+        return self._uid
 
     @property
     def is_ion_site(self) -> bool:

@@ -132,16 +132,25 @@ def _closest(coords: list[np.ndarray], cutoff: float):
     centres = np.array([c.mean(axis=0) for c in coords])
     radii = np.array([np.max(np.linalg.norm(c - m, axis=1)) for c, m in zip(coords, centres)])
     reach = NeighbourTree(centres).query_pairs(cutoff + 2 * float(radii.max()), output_type="ndarray")
+    if not len(reach):
+        return {}
+    i_all, j_all = np.minimum(reach[:, 0], reach[:, 1]), np.maximum(reach[:, 0], reach[:, 1])
+    near = np.linalg.norm(centres[i_all] - centres[j_all], axis=1) <= cutoff + radii[i_all] + radii[j_all]
+    partners: dict[int, list[int]] = {}
+    for i, j in sorted(zip(i_all[near].tolist(), j_all[near].tolist())):
+        partners.setdefault(i, []).append(j)
     out = {}
-    for i, j in sorted(map(tuple, reach)):
-        i, j = (int(i), int(j)) if i < j else (int(j), int(i))
-        if np.linalg.norm(centres[i] - centres[j]) > cutoff + radii[i] + radii[j]:
-            continue
-        d = np.linalg.norm(coords[i][:, None, :] - coords[j][None, :, :], axis=2)
-        k = int(np.argmin(d))  # first minimum in atom order: deterministic ties
-        a, b = divmod(k, d.shape[1])
-        if d[a, b] <= cutoff:
-            out[(i, j)] = (float(d[a, b]), a, b)
+    for i, js in partners.items():  # one distance matrix from cofactor i to all its partners
+        block = np.concatenate([coords[j] for j in js])
+        d_all = np.linalg.norm(coords[i][:, None, :] - block[None, :, :], axis=2)
+        start = 0
+        for j in js:
+            d = d_all[:, start:start + len(coords[j])]
+            start += len(coords[j])
+            k = int(np.argmin(d))  # first minimum in atom order: deterministic ties
+            a, b = divmod(k, d.shape[1])
+            if d[a, b] <= cutoff:
+                out[(i, j)] = (float(d[a, b]), a, b)
     return out
 
 
