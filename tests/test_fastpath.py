@@ -67,7 +67,7 @@ def test_columns_equal_the_atom_loop(path):
 @pytest.mark.parametrize("path", _files())
 def test_scan_equals_the_atom_loop(path, monkeypatch):
     fast = fescan.scan(str(path)).to_dict()
-    monkeypatch.setattr(ModelIndex.__init__, "__kwdefaults__", {"bulk": False})
+    monkeypatch.setattr(ModelIndex.__init__, "__kwdefaults__", {"bulk": False, "structure": None})
     slow = fescan.scan(str(path)).to_dict()
     _same(fast, slow)
 
@@ -91,3 +91,26 @@ def test_long_names_fall_back_to_the_loop(what):
     assert set(a.chain) == {"CHAIN_NAME_12"} or what == "subchain"
     for name in AtomArrays.__slots__:
         assert np.array_equal(getattr(a, name), getattr(b, name)), name
+
+
+@requires_shared
+@pytest.mark.parametrize("case", ["twin_residue", "empty_residue"])
+def test_residues_the_columns_cannot_tell_apart_fall_back(case):
+    # residue starts are read from the columns (a change of chain, number, icode or
+    # name); two neighbours with the same id, or an empty residue, make the count
+    # differ from the model's, and the model is walked instead: same columns
+    loaded = read_structure(entry_path("1FDN"))
+    model = loaded.model
+    ch = model[0]
+    if case == "twin_residue":
+        ch.add_residue(ch[5], 6)  # a copy of residue 5 right after it, same number and name
+    else:
+        ch.add_residue(type(ch[5])(), 6)  # an empty residue
+    for structure in (None, loaded.structure):
+        bulk, loop = ModelIndex(model, structure=structure), ModelIndex(model, bulk=False)
+        assert bulk._flat is not None  # the columns still serve the extraction
+        assert bulk.n_residues == loop.n_residues
+        ids = np.arange(bulk.n_residues)
+        a, b = bulk.extract(ids), loop.extract(ids)
+        for name in AtomArrays.__slots__:
+            assert np.array_equal(getattr(a, name), getattr(b, name)), name

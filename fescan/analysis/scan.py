@@ -222,7 +222,8 @@ def scan(path: str, entry: str | None = None, exit: str | None = None, **options
     opts = ScanOptions.from_kwargs(entry=entry, exit=exit, **options)
     loaded = read_structure(path, model=opts.model, altloc=opts.altloc)
     cofactors = find_cofactors(loaded.model, model_number=loaded.model_number, resolution=loaded.info.resolution,
-                               coordinate_error=_deposited_coordinate_error(loaded.refinement))
+                               coordinate_error=_deposited_coordinate_error(loaded.refinement),
+                               structure=loaded.structure)
     cofactors = with_altloc_states(cofactors, loaded.altloc_states, opts.altloc)
     user = load_user_file(opts.potentials_file) if opts.potentials_file else UserFile("")
     every_param = assign_parameters(cofactors, user, context_subclasses([c for c in cofactors if not c.is_ion_site],

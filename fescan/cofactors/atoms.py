@@ -127,9 +127,12 @@ class _Flat:
 
     __slots__ = ("pos", "elements", "names", "resnames", "chains", "resnums", "icodes", "altlocs", "occ", "b")
 
-    def __init__(self, model: gemmi.Model) -> None:
-        st = gemmi.Structure()
-        st.add_model(model)  # a copy: FlatStructure takes a structure, the caller's stays untouched
+    def __init__(self, model: gemmi.Model, structure: gemmi.Structure | None = None) -> None:
+        if structure is not None and len(structure) == 1:
+            st = structure  # the model is the structure's only one: read in place
+        else:
+            st = gemmi.Structure()
+            st.add_model(model)  # a copy: FlatStructure takes a structure, the caller's stays untouched
         flat = gemmi.FlatStructure(st)
         flat.strings_as_numbers = False
         self.pos = flat.pos
@@ -174,51 +177,89 @@ class ModelIndex:
     bulk : bool, optional
         Read the columns in compiled code (default). ``False`` reads atom by atom
         (the reference the bulk path is tested against).
+    structure : gemmi.Structure, optional
+        The structure whose only model is ``model``: its columns are read in place
+        (without it, from a copy of the model).
     """
 
-    def __init__(self, model: gemmi.Model, skip: frozenset[str] = frozenset(), *, bulk: bool = True) -> None:
+    def __init__(self, model: gemmi.Model, skip: frozenset[str] = frozenset(), *, bulk: bool = True,
+                 structure: gemmi.Structure | None = None) -> None:
         self._model = model
-        chain_names: list[str] = []
-        sizes: list[list[int]] = []
-        for ch in model:
-            chain_names.append(ch.name)
-            sizes.append([len(res) for res in ch])
-        per_chain = np.asarray([len(s) for s in sizes], dtype=np.intp)
-        size_all = np.asarray([n for s in sizes for n in s], dtype=np.intp)
-        start_all = np.cumsum(size_all) - size_all
-        chain_all = np.repeat(np.arange(len(chain_names)), per_chain)
-        keep = size_all > 0  # empty residues are not indexed
-        self._size = size_all[keep]
-        self._start = start_all[keep]
-        self._chain_of = chain_all[keep]
-        self._chain_names = chain_names
+        chains = list(model)
+        self._chain_names = [ch.name for ch in chains]
         self._flat: _Flat | None = None
+        n_atoms, chain_atoms = 0, []
         if bulk:
+            chain_atoms = [ch.count_atom_sites() for ch in chains]
+            n_atoms = sum(chain_atoms)
             try:
-                flat: _Flat | None = _Flat(model)
+                flat: _Flat | None = _Flat(model, structure)
             except (RuntimeError, ValueError):  # gemmi refuses names longer than its columns
                 flat = None
-            if flat is not None and len(flat.pos) == int(size_all.sum()) and flat.faithful():
+            if flat is not None and len(flat.pos) == n_atoms and flat.faithful():
                 self._flat = flat
+        if self._flat is None or not self._residues_from_columns(self._flat, chains, chain_atoms):
+            self._residues_from_model(chains)
         if self._flat is not None:
             first = self._start
             self.rep_xyz = np.array(self._flat.pos[first], dtype=float).reshape(-1, 3)
-            res_names = _text(self._flat.resnames[first]) if len(first) else np.zeros(0, dtype=object)
+            raw_names = self._flat.resnames[first]
+            if len(first):  # names decoded once per distinct name, not once per residue
+                codes, inverse = np.unique(raw_names, return_inverse=True)
+                names = _text(codes)
+            else:
+                names, inverse = np.zeros(0, dtype=object), np.zeros(0, dtype=np.intp)
         else:
             # residue lists by the same (chain, residue) order; gemmi objects only on this path
-            residues = [res for ch in model for res in ch if len(res)]
+            residues = [res for ch in chains for res in ch if len(res)]
             self.rep_xyz = np.asarray([res[0].pos.tolist() for res in residues], dtype=float).reshape(-1, 3)
-            res_names = np.asarray([res.name for res in residues], dtype=object)
             self._residues = residues
-        self._res_names = res_names
-        names, inverse = np.unique(res_names.astype(str), return_inverse=True) if len(res_names) \
-            else (np.zeros(0, dtype=str), np.zeros(0, dtype=np.intp))
+            listed = np.asarray([res.name for res in residues], dtype=object)
+            names, inverse = np.unique(listed.astype(str), return_inverse=True) if len(listed) \
+                else (np.zeros(0, dtype=str), np.zeros(0, dtype=np.intp))
+            names = names.astype(object)
+        inverse = np.asarray(inverse, dtype=np.intp).reshape(-1)
+        self._res_names = names[inverse] if len(inverse) else np.zeros(0, dtype=object)
+        self._name_table, self._name_of = names, inverse
         std = np.asarray([n in STANDARD_RESIDUES or n in WATER_NAMES for n in names], dtype=bool)
         skipped = np.asarray([n in skip for n in names], dtype=bool)
         self._standard = std[inverse].reshape(-1)
         self.is_candidate = ~(std | skipped)[inverse].reshape(-1)
         self._rep_tree: NeighbourTree | None = None
         self.hidden: frozenset[int] = frozenset()
+
+    def _residues_from_model(self, chains: list) -> None:
+        """Residue sizes, first rows and chains, residue by residue (the reference)."""
+        sizes = [[len(res) for res in ch] for ch in chains]
+        per_chain = np.asarray([len(s) for s in sizes], dtype=np.intp)
+        size_all = np.asarray([n for s in sizes for n in s], dtype=np.intp)
+        start_all = np.cumsum(size_all) - size_all
+        chain_all = np.repeat(np.arange(len(chains)), per_chain)
+        keep = size_all > 0  # empty residues are not indexed
+        self._size, self._start, self._chain_of = size_all[keep], start_all[keep], chain_all[keep]
+
+    def _residues_from_columns(self, flat: _Flat, chains: list, chain_atoms: list[int]) -> bool:
+        """Residue sizes, first rows and chains from the atom columns; False when they cannot be trusted.
+
+        A residue starts where the chain, number, insertion code or name changes.
+        Every such change is a true residue start, so when their count equals the
+        model's number of residues (no empty residue, no two neighbours with the
+        same id) the residues are exactly these; otherwise the model is walked.
+        """
+        chain_of_atom = np.repeat(np.arange(len(chains)), chain_atoms)
+        n = len(chain_of_atom)
+        if n == 0:
+            return False
+        change = np.ones(n, dtype=bool)
+        change[1:] = ((chain_of_atom[1:] != chain_of_atom[:-1]) | (flat.resnums[1:] != flat.resnums[:-1])
+                      | (flat.icodes[1:] != flat.icodes[:-1]) | (flat.resnames[1:] != flat.resnames[:-1]))
+        start = np.flatnonzero(change)
+        if len(start) != sum(len(ch) for ch in chains):
+            return False
+        self._start = start.astype(np.intp)
+        self._size = np.diff(np.append(start, n)).astype(np.intp)
+        self._chain_of = chain_of_atom[start]
+        return True
 
     def hide(self, res_ids) -> None:
         """Leave these residues out of every later extraction (alternative states of a kept residue)."""
@@ -230,8 +271,8 @@ class ModelIndex:
         """Number of amino-acid residues (gemmi's table of components) in each chain."""
         if not len(self._res_names):
             return {}
-        names, inverse = np.unique(self._res_names.astype(str), return_inverse=True)
-        amino = np.asarray([(info := gemmi.find_tabulated_residue(n)) is not None and info.is_amino_acid()
+        names, inverse = self._name_table, self._name_of
+        amino = np.asarray([(info := gemmi.find_tabulated_residue(str(n))) is not None and info.is_amino_acid()
                             for n in names], dtype=bool)
         counts = np.bincount(self._chain_of[amino[inverse.reshape(-1)]], minlength=len(self._chain_names))
         out: dict[str, int] = {}

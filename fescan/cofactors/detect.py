@@ -109,10 +109,10 @@ class _Builder(OrganicMixin):
     """Collects cofactors of one model."""
 
     def __init__(self, model: gemmi.Model, model_number: int, resolution: float | None,
-                 coordinate_error: float | None = None) -> None:
+                 coordinate_error: float | None = None, structure: gemmi.Structure | None = None) -> None:
         self.table = ccd_table()
         skip = frozenset(k for k, v in self.table.items() if v.category == "not analysed")
-        self.index = ModelIndex(model, skip=skip)
+        self.index = ModelIndex(model, skip=skip, structure=structure)
         cand = self.index.candidates()
         self.states = find_alternative_states(cand)
         hidden = [st.res_id for group in self.states.values() for st in group[1:]]
@@ -341,7 +341,7 @@ class _Builder(OrganicMixin):
 
 
 def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: float | None = None,
-                   coordinate_error: float | None = None) -> list[Cofactor]:
+                   coordinate_error: float | None = None, structure: gemmi.Structure | None = None) -> list[Cofactor]:
     """Find, classify and check every redox cofactor of one model.
 
     Parameters
@@ -354,13 +354,16 @@ def find_cofactors(model: gemmi.Model, *, model_number: int = 1, resolution: flo
         Resolution of the data (Å); widens the bond windows (``ligation.bond_margin``).
     coordinate_error : float or None, optional
         Deposited overall coordinate error (Å), preferred over the resolution for that.
+    structure : gemmi.Structure, optional
+        The structure whose only model is ``model`` (as the reader leaves it): its
+        atoms are then read in place instead of from a copy.
 
     Returns
     -------
     list of Cofactor
         In file order of the residue naming each cofactor.
     """
-    b = _Builder(model, model_number, resolution, coordinate_error)
+    b = _Builder(model, model_number, resolution, coordinate_error, structure)
     heme_fe = b.heme_iron()
     sites = b.find_sites(heme_fe)
     points = [b.cand.xyz[i] for i in heme_fe.values()]
