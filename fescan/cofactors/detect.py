@@ -80,8 +80,12 @@ class _Composition:
 
     def __init__(self, atoms: AtomArrays) -> None:
         ids, inverse = np.unique(np.asarray(atoms.res_id, dtype=np.int64), return_inverse=True)
+        keys = ids.tolist()
         el = atoms.element
-        count = lambda mask: dict(zip(ids.tolist(), np.bincount(inverse, weights=mask, minlength=len(ids)).astype(int).tolist()))  # noqa: E731
+
+        def count(mask: np.ndarray) -> dict[int, int]:
+            return dict(zip(keys, np.bincount(inverse.reshape(-1), weights=mask, minlength=len(keys)).astype(int).tolist()))
+
         self.n = count(np.ones(len(el)))
         self.c = count(el == "C")
         self.nitrogen = count(el == "N")
