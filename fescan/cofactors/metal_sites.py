@@ -15,7 +15,6 @@ from __future__ import annotations
 from collections import Counter
 from dataclasses import dataclass
 
-import networkx as nx
 import numpy as np
 
 from fescan.cofactors.atoms import AtomArrays
@@ -120,37 +119,35 @@ def find_metal_sites(
     tree = NeighbourTree(atoms.xyz)
     near = sorted({j for h in tree.query_ball_point(atoms.xyz[redox_seeds], r=METAL_BRIDGE_MAX) for j in h})
     inorganic = _inorganic_mask(atoms, tree, np.asarray(near, dtype=int))
-    g = nx.Graph()
-    g.add_nodes_from(int(i) for i in seeds)
+    links = _Components(int(i) for i in seeds)
     bonds: list[tuple[int, int]] = []
-    for i, nbrs in zip(seeds, tree.query_ball_point(atoms.xyz[seeds], r=MN_LINK_MAX)):
-        for j in nbrs:
-            if j == i or j in exclude:
-                continue
-            alt_i, alt_j = atoms.altloc[i], atoms.altloc[j]
-            if alt_i and alt_j and alt_i != alt_j:
-                continue  # two alternative conformations never bond
-            d = float(np.linalg.norm(atoms.xyz[i] - atoms.xyz[j]))
-            ej = el[j]
-            link = False
-            if not is_metal[i]:  # a structural ion: only the Ca of the Mn4Ca cluster links (to Mn)
-                if el[i] == "CA" and ej == "MN" and is_metal[j] and d <= MN_LINK_MAX:
-                    g.add_edge(int(i), int(j))
-                continue
-            if is_metal[j] and d < METAL_METAL_MIN:
-                continue  # two positions of one metal (alternative states), never a bond
-            if is_metal[j] and d <= (MN_LINK_MAX if "MN" in (el[i], ej) else METAL_METAL_MAX):
-                link = True
-            elif inorganic[j] and ej in _BRIDGE_S and d <= METAL_BRIDGE_MAX:
-                link = True
-            elif inorganic[j] and ej in _INTERSTITIAL and d <= INTERSTITIAL_MAX:
-                link = True
-            elif ej == "CA" and el[i] == "MN" and d <= MN_LINK_MAX:
-                link = True
-            if link:
-                g.add_edge(int(i), int(j))
-                if not (is_metal[j] and j < i):
-                    bonds.append((int(i), int(j)))
+    q, p, dist = tree.within(atoms.xyz[seeds], MN_LINK_MAX)
+    for i, j, d in zip(seeds[q].tolist(), p.tolist(), dist.tolist()):
+        if j == i or j in exclude:
+            continue
+        alt_i, alt_j = atoms.altloc[i], atoms.altloc[j]
+        if alt_i and alt_j and alt_i != alt_j:
+            continue  # two alternative conformations never bond
+        ej = el[j]
+        link = False
+        if not is_metal[i]:  # a structural ion: only the Ca of the Mn4Ca cluster links (to Mn)
+            if el[i] == "CA" and ej == "MN" and is_metal[j] and d <= MN_LINK_MAX:
+                links.join(i, j)
+            continue
+        if is_metal[j] and d < METAL_METAL_MIN:
+            continue  # two positions of one metal (alternative states), never a bond
+        if is_metal[j] and d <= (MN_LINK_MAX if "MN" in (el[i], ej) else METAL_METAL_MAX):
+            link = True
+        elif inorganic[j] and ej in _BRIDGE_S and d <= METAL_BRIDGE_MAX:
+            link = True
+        elif inorganic[j] and ej in _INTERSTITIAL and d <= INTERSTITIAL_MAX:
+            link = True
+        elif ej == "CA" and el[i] == "MN" and d <= MN_LINK_MAX:
+            link = True
+        if link:
+            links.join(i, j)
+            if not (is_metal[j] and j < i):
+                bonds.append((i, j))
     # keep every atom of a residue with a known cluster code in the same site
     if cluster_codes:
         by_res: dict[tuple[int, str], list[int]] = {}  # alternative conformations stay apart
@@ -158,12 +155,13 @@ def find_metal_sites(
             by_res.setdefault((int(atoms.res_id[i]), str(atoms.altloc[i])), []).append(int(i))
         for members in by_res.values():
             members = [m for m in members if m not in exclude]
-            g.add_nodes_from(members)
+            for m in members:
+                links.add(m)
             for a, b in zip(members, members[1:]):
-                g.add_edge(a, b, same_residue=True)
+                links.join(a, b)
     seed_set = set(seeds.tolist())
     sites = []
-    for comp in nx.connected_components(g):
+    for comp in links.components():
         if not any(i in seed_set for i in comp):
             continue
         core = sorted(comp)
@@ -172,6 +170,42 @@ def find_metal_sites(
         sites.append(MetalSite(core=core, bonds=site_bonds))
     sites.sort(key=lambda s: s.core[0])
     return sites
+
+
+class _Components:
+    """Atoms joined into connected groups (union-find over row numbers)."""
+
+    __slots__ = ("parent",)
+
+    def __init__(self, nodes=()) -> None:
+        self.parent: dict[int, int] = {n: n for n in nodes}
+
+    def add(self, n: int) -> None:
+        self.parent.setdefault(n, n)
+
+    def _root(self, n: int) -> int:
+        parent = self.parent
+        root = n
+        while parent[root] != root:
+            root = parent[root]
+        while parent[n] != root:  # path compression
+            parent[n], n = root, parent[n]
+        return root
+
+    def join(self, a: int, b: int) -> None:
+        """Put ``a`` and ``b`` (added if new) in one group."""
+        self.add(a)
+        self.add(b)
+        ra, rb = self._root(a), self._root(b)
+        if ra != rb:
+            self.parent[max(ra, rb)] = min(ra, rb)
+
+    def components(self) -> list[set[int]]:
+        """Every group, as a set of atoms."""
+        groups: dict[int, set[int]] = {}
+        for n in self.parent:
+            groups.setdefault(self._root(n), set()).add(n)
+        return list(groups.values())
 
 
 def _bare_structural_ions(atoms: AtomArrays) -> np.ndarray:

@@ -26,6 +26,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from fescan.cofactors.atoms import AtomArrays
+from fescan.core.neighbours import pairwise_distances
 from fescan.core.records import Cofactor, Ligand
 
 __all__ = [
@@ -84,6 +85,11 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
         r for r in ligand_rows if env.element[r] in ("S", "SE")]
     names = env.name[near]
     backbone = near[env.standard[near] & ((names == "N") | (names == "CA") | (names == "C"))]
+    if s_rows:  # only residues whose N (or the next residue's N) reaches a sulfur are keyed
+        n_rows = backbone[env.name[backbone] == "N"]
+        reach_n = n_rows[pairwise_distances(env.xyz[n_rows], env.xyz[s_rows]).min(axis=1, initial=np.inf) <= NH_S_MAX]
+        nums = env.seqnum[reach_n]
+        backbone = backbone[np.isin(env.seqnum[backbone], np.union1d(nums, nums - 1))]
     key = {}
     for ch, num, ic, name, i in zip(env.chain[backbone].tolist(), env.seqnum[backbone].tolist(),
                                     env.icode[backbone].tolist(), env.name[backbone].tolist(), backbone.tolist()):

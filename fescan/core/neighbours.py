@@ -17,7 +17,7 @@ import math
 
 import numpy as np
 
-__all__ = ["NeighbourTree"]
+__all__ = ["NeighbourTree", "pairwise_distances"]
 
 _BRUTE_CELLS = 4_000_000  # query x point distances computed at once by the unbounded nearest search
 _BRUTE_PAIRS = 200_000  # below this many query x point pairs, no grid is built
@@ -25,7 +25,7 @@ _SMALL_PAIRS = 4_096  # below this many, not even the bounding box is looked for
 _OFFSETS = np.array([(i, j, k) for i in (-1, 0, 1) for j in (-1, 0, 1) for k in (-1, 0, 1)], dtype=np.int64)
 
 
-def _distances(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+def pairwise_distances(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Every distance between the rows of ``a`` and of ``b``, shape ``(len(a), len(b))``.
 
     Axis by axis (no ``(m, n, 3)`` temporary); the sum runs x, y, z in that order,
@@ -125,12 +125,12 @@ class NeighbourTree:
             empty = np.zeros(0, dtype=np.intp)
             return empty, empty, np.zeros(0)
         if len(points) * self.n <= _SMALL_PAIRS:  # tiny: every distance at once
-            dist = _distances(points, self.data)
+            dist = pairwise_distances(points, self.data)
             q, p = np.nonzero(dist <= r)  # by query, then point
             return q, p, dist[q, p]
         near = self._box(points, r)
         if len(points) * len(near) <= _BRUTE_PAIRS:  # compact query (one site): distances to the atoms of its box
-            dist = _distances(points, self.data[near])
+            dist = pairwise_distances(points, self.data[near])
             q, p = np.nonzero(dist <= r)  # by query, then point (``near`` is sorted)
             return q, near[p], dist[q, p]
         q, p = self._grid(r).candidates(points)
