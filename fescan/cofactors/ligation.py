@@ -29,7 +29,7 @@ import numpy as np
 
 from fescan.cofactors.atoms import WATER_NAMES, AtomArrays
 from fescan.cofactors.registry import bond_range
-from fescan.core.neighbours import NeighbourTree
+from fescan.core.neighbours import NeighbourTree, pairwise_distances
 from fescan.core.records import Flag, Ligand
 
 __all__ = [
@@ -331,7 +331,7 @@ def _window_flag(bond: str, cls: str, label: str, d: float, margin: BondMargin) 
 
 def _nearest_hint(env: AtomArrays, m: int, skip: set[int]) -> str:
     """Name the nearest protein side-chain atom beyond the ligand cut-off (a hint, within 5 Å)."""
-    d = np.linalg.norm(env.xyz - env.xyz[m], axis=1)
+    d = pairwise_distances(env.xyz[m][None, :], env.xyz)[0]
     best = None
     for j in np.argsort(d):
         if d[j] > 5.0:

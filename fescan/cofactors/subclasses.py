@@ -79,7 +79,7 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
     """
     core_rows = list(core_rows)
     centre = env.xyz[core_rows].mean(axis=0)
-    dist = np.linalg.norm(env.xyz - centre, axis=1)
+    dist = pairwise_distances(centre[None, :], env.xyz)[0]
     near = np.flatnonzero(dist <= _DISULFIDE_RADIUS + 4.0)
     s_rows = [r for r in core_rows if env.element[r] in ("S", "SE")] + [
         r for r in ligand_rows if env.element[r] in ("S", "SE")]
@@ -89,7 +89,8 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
         n_rows = backbone[env.name[backbone] == "N"]
         reach_n = n_rows[pairwise_distances(env.xyz[n_rows], env.xyz[s_rows]).min(axis=1, initial=np.inf) <= NH_S_MAX]
         nums = env.seqnum[reach_n]
-        backbone = backbone[np.isin(env.seqnum[backbone], np.union1d(nums, nums - 1))]
+        wanted = np.concatenate((nums, nums - 1))
+        backbone = backbone[(env.seqnum[backbone][:, None] == wanted[None, :]).any(axis=1)]
     key = {}
     for ch, num, ic, name, i in zip(env.chain[backbone].tolist(), env.seqnum[backbone].tolist(),
                                     env.icode[backbone].tolist(), env.name[backbone].tolist(), backbone.tolist()):
@@ -100,7 +101,7 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
         amide = [i for (_, _, _, name), i in key.items() if name == "N"]
         amide = [i for i, rn in zip(amide, env.resname[amide].tolist()) if rn != "PRO"]
         if amide:  # only amide N within reach of a sulfur are looked at
-            d_all = np.linalg.norm(env.xyz[amide][:, None, :] - s_xyz[None, :, :], axis=2)
+            d_all = pairwise_distances(env.xyz[amide], s_xyz)
             reach = d_all.min(axis=1) <= NH_S_MAX
             amide = [i for i, ok in zip(amide, reach.tolist()) if ok]
             d_all = d_all[reach]
@@ -137,7 +138,7 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
     sg = [i for i in near[sg_mask].tolist() if i not in lig_sg]
     disulfides = 0
     if len(sg) > 1:
-        pair = np.linalg.norm(env.xyz[sg][:, None, :] - env.xyz[sg][None, :, :], axis=2)
+        pair = pairwise_distances(env.xyz[sg], env.xyz[sg])
         disulfides = int(np.triu(pair <= _DISULFIDE_MAX, k=1).sum())
     chains = [str(env.chain[r]) for r in ligand_rows if env.standard[r]]
     main = max(sorted(set(chains)), key=chains.count) if chains else None
