@@ -91,9 +91,8 @@ class AtomArrays:
                    self.resname[idx].tolist(), self.name[idx].tolist(), self.element[idx].tolist(),
                    self.xyz[idx].tolist(), self.occ[idx].tolist(), self.b[idx].tolist(),
                    self.altloc[idx].tolist())
-        return [AtomRef(chain=str(c), seqnum=int(n), icode=str(i), resname=str(r), name=str(a), element=str(e),
-                        xyz=(round(x, 4), round(y, 4), round(z, 4)), occupancy=float(o), b_iso=float(b),
-                        altloc=str(al))
+        # tolist() gives Python str, int and float already: no per-value conversion
+        return [AtomRef(c, n, i, r, a, e, (round(x, 4), round(y, 4), round(z, 4)), o, b, al)
                 for c, n, i, r, a, e, (x, y, z), o, b, al in cols]
 
     def subset(self, idx: np.ndarray) -> AtomArrays:

@@ -164,7 +164,10 @@ def find_ligands(
     core = sorted(int(c) for c in core_rows)
     if core:
         q, p, dist = tree.within(env.xyz[core], CLASH_MAX)
-        other = ~np.isin(p, list(core_rows | ligand_rows)) & ~np.isin(env.res_id[p], list(own_res_ids))
+        taken = np.zeros(len(env), dtype=bool)
+        taken[list(core_rows | ligand_rows)] = True
+        own = np.asarray(sorted(own_res_ids), dtype=np.int64)
+        other = ~taken[p] & ~(env.res_id[p][:, None] == own[None, :]).any(axis=1)
         for k, j, d in zip(q[other].tolist(), p[other].tolist(), dist[other].tolist()):
             c = core[k]
             if alt[c] and alt[j] and alt[j] != alt[c]:
