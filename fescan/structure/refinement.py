@@ -20,6 +20,7 @@ import math
 import re
 import zlib
 from dataclasses import asdict, dataclass
+from functools import cache
 from typing import Any
 
 import gemmi
@@ -120,10 +121,23 @@ def _remark3(text: str) -> list[str]:
     return [ln[10:].rstrip() for ln in text.splitlines() if ln.startswith("REMARK   3")]
 
 
-def _pdb_first(lines: list[str], patterns: tuple[str, ...]) -> float | None:
+_LITERAL = re.compile(r"[A-Z0-9 ]*")
+
+
+@cache
+def _item(pattern: str) -> tuple[re.Pattern[str], str]:
+    """The compiled item expression, and its leading literal words (a line without them cannot match)."""
+    rx = re.compile(r"^\s*" + pattern + r"\s*" + _N + r"\s*$", re.IGNORECASE)
+    return rx, _LITERAL.match(pattern).group(0).strip()
+
+
+def _pdb_first(lines: list[str], patterns: tuple[str, ...], upper: list[str] | None = None) -> float | None:
+    upper = [ln.upper() for ln in lines] if upper is None else upper
     for p in patterns:
-        rx = re.compile(r"^\s*" + p + r"\s*" + _N + r"\s*$", re.IGNORECASE)
-        for ln in lines:
+        rx, literal = _item(p)
+        for ln, up in zip(lines, upper):
+            if literal not in up:  # cheap test first: the expression needs these words (any case)
+                continue
             m = rx.match(ln)
             if m:
                 v = _num(m.group(1))
@@ -153,7 +167,8 @@ def _from_pdb(text: str) -> RefinementStats:
     lines = _remark3(text)
     if not lines:
         return RefinementStats(file_format="pdb", notes=("the file has no REMARK 3 refinement statistics",))
-    vals = {k: _pdb_first(lines, p) for k, p in _PDB_ITEMS.items()}
+    upper = [ln.upper() for ln in lines]
+    vals = {k: _pdb_first(lines, p, upper) for k, p in _PDB_ITEMS.items()}
     n_refl = vals.pop("n_reflections")
     comp = vals.pop("completeness")
     return RefinementStats(**vals, n_reflections=int(n_refl) if n_refl else None,
@@ -245,7 +260,16 @@ def refinement_stats_from_block(block: gemmi.cif.Block) -> RefinementStats:
 
 
 # --- entry points ----------------------------------------------------------------------
-_PDB_COORD = re.compile(r"^(?:ATOM  |HETATM)", re.MULTILINE)
+def _first_atom_record(text: str) -> int:
+    """Offset of the first ATOM or HETATM record (``len(text)`` if none), found with ``str.find``."""
+    first = len(text)
+    for word in ("ATOM  ", "HETATM"):
+        if text.startswith(word):
+            return 0
+        at = text.find("\n" + word, 0, first)
+        if at >= 0:
+            first = at + 1
+    return first
 
 
 def refinement_stats_from_text(text: str) -> RefinementStats:
@@ -271,8 +295,7 @@ def refinement_stats_from_text(text: str) -> RefinementStats:
         return RefinementStats(file_format="mmjson", notes=("refinement statistics are not read from mmJSON",))
     if re.match(r"(?:#[^\n]*\n\s*)*data_", stripped, re.IGNORECASE):
         return _from_cif(stripped)
-    m = _PDB_COORD.search(text)
-    return _from_pdb(text[: m.start()] if m else text)
+    return _from_pdb(text[: _first_atom_record(text)])
 
 
 def read_refinement_stats(path: str) -> RefinementStats:
