@@ -95,6 +95,22 @@ def _best(fn, repeats: int) -> float:
     return min(times)
 
 
+def _best_alternating(fns, repeats: int) -> list[float]:
+    """Best time of each function, the functions run in turn ``repeats`` times.
+
+    Run in turn, not one after the other, so that a slow spell of the machine (a
+    shared 2-core machine drifts by tens of per cent over a minute) falls on both
+    sides of a ratio.
+    """
+    best = [float("inf")] * len(fns)
+    for _ in range(repeats):
+        for k, fn in enumerate(fns):
+            t = time.perf_counter()
+            fn()
+            best[k] = min(best[k], time.perf_counter() - t)
+    return best
+
+
 def _biopython_parse(path: Path) -> None:
     from Bio.PDB import MMCIFParser, PDBParser
 
@@ -108,14 +124,18 @@ def _biopython_parse(path: Path) -> None:
 
 
 def per_file(files: list[Path], repeats: int) -> list[dict]:
-    """Time gemmi, Biopython and fescan on each file (best of ``repeats``; Biopython once on big files)."""
+    """Time gemmi, Biopython and fescan on each file (best of ``repeats``; Biopython once on big files).
+
+    gemmi and fescan run in turn (:func:`_best_alternating`), so their ratio is measured
+    under the same machine load.
+    """
     rows = []
     for f in files:
         n_atoms = gemmi.read_structure(str(f))[0].count_atom_sites()
         big = n_atoms > 50_000
-        tg = _best(lambda f=f: gemmi.read_structure(str(f)), repeats)
+        tg, tf = _best_alternating([lambda f=f: gemmi.read_structure(str(f)), lambda f=f: fescan.scan(str(f))],
+                                   repeats)
         tb = _best(lambda f=f: _biopython_parse(f), 1 if big else repeats)
-        tf = _best(lambda f=f: fescan.scan(str(f)), repeats)
         rows.append({"file": f.name, "atoms": n_atoms, "gemmi_s": tg, "biopython_s": tb, "fescan_s": tf,
                      "fescan_over_gemmi": tf / tg, "biopython_over_fescan": tb / tf})
         print(f"  {f.name:<22}{n_atoms:>8}{tg:>10.4f}{tb:>11.3f}{tf:>10.4f}{tf / tg:>9.2f}{tb / tf:>9.1f}",
