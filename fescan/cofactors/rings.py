@@ -142,12 +142,14 @@ def bond_graph(xyz: np.ndarray, element: np.ndarray) -> BondGraph:
 
 
 def _two_oxo_ring_carbons(element: np.ndarray, idx: list[int], a: np.ndarray, b: np.ndarray) -> bool:
-    """Whether two carbons each carry a terminal O and have two carbon neighbours.
+    """Whether two unbonded carbons each carry a terminal O and sit in an all-carbon neighbourhood.
 
-    A para-quinone/quinol ring of six carbons needs that (each O-bearing ring
-    carbon is bonded to its two ring neighbours), so a residue without it holds
-    none (an ester's carbonyl carbon has one carbon neighbour): the bond graph
-    is then never built.
+    A para-quinone/quinol ring of six carbons needs that: each O-bearing ring carbon
+    is bonded to its two ring neighbours, carbons that themselves have two carbon
+    neighbours, and the two O-bearing carbons (para) are not bonded. A residue
+    without such a pair holds no quinone ring (an ester's carbonyl carbon has one
+    carbon neighbour; the hydroxyl carbons of a sugar ring that pass are bonded to
+    each other), so its bond graph is never built.
     """
     if not len(a):
         return False
@@ -156,12 +158,19 @@ def _two_oxo_ring_carbons(element: np.ndarray, idx: list[int], a: np.ndarray, b:
     ends = np.concatenate((a, b))
     other = np.concatenate((b, a))
     degree = np.bincount(ends, minlength=n)
-    terminal_o = (el[ends] == "O") & (degree[ends] == 1) & (el[other] == "C")
+    is_c = el == "C"
+    terminal_o = (el[ends] == "O") & (degree[ends] == 1) & is_c[other]
     carriers = np.unique(other[terminal_o])
     if len(carriers) < 2:
         return False
-    c_neighbours = np.bincount(ends[el[other] == "C"], minlength=n)
-    return int(np.sum(c_neighbours[carriers] >= 2)) >= 2
+    c_neighbours = np.bincount(ends[is_c[other]], minlength=n)
+    ring_like = is_c & (c_neighbours >= 2)  # a carbon that could sit in an all-carbon ring
+    ring_neighbours = np.bincount(ends[ring_like[other]], minlength=n)
+    carriers = carriers[ring_neighbours[carriers] >= 2].tolist()
+    if len(carriers) < 2:
+        return False
+    bonded = set(zip(a.tolist(), b.tolist()))
+    return any((u, v) not in bonded for k, u in enumerate(carriers) for v in carriers[k + 1:])
 
 
 def _ring_distance(g: BondGraph, ring: frozenset[int], a: int, b: int) -> int | None:
