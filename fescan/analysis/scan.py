@@ -6,6 +6,7 @@ it unchanged. Its result is plain data (picklable) with ``to_dict()``.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -318,9 +319,36 @@ def _assembly_chains(st: Any) -> list[set[str]]:
     return out
 
 
-def _landmarks(model: Any) -> dict[str, np.ndarray]:
-    """Atoms the context rules use (:mod:`fescan.transfer.context`): Trp side chains."""
-    trp = gemmi.Selection("(TRP)").copy_model_selection(model)  # compiled: no loop over the whole model
-    pts = [(a.pos.x, a.pos.y, a.pos.z) for ch in trp for res in ch
-           for a in res if a.name not in ("N", "CA", "C", "O", "CB")]
-    return {"trp_side_chain": np.asarray(pts, dtype=float).reshape(-1, 3)}
+class _Landmarks(Mapping):
+    """Atoms the context rules use (:mod:`fescan.transfer.context`), read from the model when first asked for.
+
+    ``trp_side_chain``: side-chain atoms of tryptophans (only a rule on two
+    plastoquinones asks, so most scans never read them).
+    """
+
+    _KEYS = ("trp_side_chain",)
+
+    def __init__(self, model: Any) -> None:
+        self._model = model
+        self._cache: dict[str, np.ndarray] = {}
+
+    def __getitem__(self, key: str) -> np.ndarray:
+        if key not in self._KEYS:
+            raise KeyError(key)
+        if key not in self._cache:
+            trp = gemmi.Selection("(TRP)").copy_model_selection(self._model)  # compiled: no loop over the model
+            pts = [(a.pos.x, a.pos.y, a.pos.z) for ch in trp for res in ch
+                   for a in res if a.name not in ("N", "CA", "C", "O", "CB")]
+            self._cache[key] = np.asarray(pts, dtype=float).reshape(-1, 3)
+        return self._cache[key]
+
+    def __iter__(self):
+        return iter(self._KEYS)
+
+    def __len__(self) -> int:
+        return len(self._KEYS)
+
+
+def _landmarks(model: Any) -> Mapping[str, np.ndarray]:
+    """Atoms the context rules use, read lazily (:class:`_Landmarks`)."""
+    return _Landmarks(model)

@@ -30,6 +30,7 @@ from collections.abc import Mapping, Sequence
 import networkx as nx
 import numpy as np
 
+from fescan.core.neighbours import pairwise_distances
 from fescan.core.records import Cofactor
 
 __all__ = ["GROUP_STEP", "HEME_CU_MAX", "TRP_STACK_MAX", "cofactor_groups", "context_subclasses"]
@@ -124,9 +125,10 @@ def context_subclasses(
         if len(pq) == 2 and trp is not None and len(trp):
             def trp_distance(c: Cofactor) -> float:
                 xyz = np.asarray([a.xyz for a in c.redox_atoms or c.atoms], dtype=float).reshape(-1, 3)
-                return float(np.min(np.linalg.norm(xyz[:, None] - trp[None], axis=-1))) if len(xyz) else np.inf
-            qa, qb = sorted(pq, key=trp_distance)
-            da, db = trp_distance(qa), trp_distance(qb)
+                return float(np.min(pairwise_distances(xyz, trp))) if len(xyz) else np.inf
+            near_trp = {c.uid: trp_distance(c) for c in pq}
+            qa, qb = sorted(pq, key=lambda c: near_trp[c.uid])
+            da, db = near_trp[qa.uid], near_trp[qb.uid]
             if da <= TRP_STACK_MAX < db:
                 out[qa.uid] = ("photosystem II QA", f"by context: the plastoquinone with a Trp ring stacked on it "
                                                     f"({da:.1f} Å; D2-Trp253 at QA)")
