@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fescan.core.neighbours import NeighbourTree
+from fescan.core.neighbours import NeighbourTree, pairwise_distances
 
 __all__ = ["OVERLAP_MAX", "AlternativeState", "find_alternative_states"]
 
@@ -50,6 +50,7 @@ class AlternativeState:
 
 
 _METALS = frozenset({"FE", "NI", "MO", "V", "W", "CU", "MN", "CO", "ZN"})
+_DENSE_PAIRS = 250_000  # atom pairs of two states compared with one distance matrix
 
 
 def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
@@ -79,32 +80,14 @@ def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
         return {}
     sel = np.flatnonzero(keep)
     starts, sizes = first[sel], counts[sel]
-    rows_all = order[np.concatenate([np.arange(a, a + n) for a, n in zip(starts.tolist(), sizes.tolist())])]
-    xyz_all = np.asarray(atoms.xyz, dtype=float)[rows_all]
     offsets = np.concatenate([[0], np.cumsum(sizes)[:-1]])
+    rows_all = order[np.repeat(starts - offsets, sizes) + np.arange(int(sizes.sum()))]
+    xyz_all = np.asarray(atoms.xyz, dtype=float)[rows_all]
     centres = np.add.reduceat(xyz_all, offsets, axis=0) / sizes[:, None]
     spread = np.linalg.norm(xyz_all - np.repeat(centres, sizes, axis=0), axis=1)
     extent = float(spread.max())
-    metal_row = np.isin(np.asarray(atoms.element, dtype=object)[rows_all], tuple(_METALS))
     keys = [int(ids[k]) for k in sel]
-    data = {}
-    for n, key in enumerate(keys):
-        lo, hi = int(offsets[n]), int(offsets[n] + sizes[n])
-        r0 = int(rows_all[lo])
-        name = str(atoms.resname[r0])
-        label = f"{name} {atoms.chain[r0]}/{int(atoms.seqnum[r0])}{str(atoms.icode[r0]).strip()}"
-        metals = frozenset(str(e) for e in atoms.element[rows_all[lo:hi][metal_row[lo:hi]]])
-        kind = (metals,) if metals else (metals, name)  # metal-free twins must share their code
-        data[key] = (xyz_all[lo:hi], float(occ[sel[n]]), label, kind)
     tree = NeighbourTree(centres)
-    parent = {k: k for k in keys}
-
-    def find(k: int) -> int:
-        while parent[k] != k:
-            parent[k] = parent[parent[k]]
-            k = parent[k]
-        return k
-
     reach = np.maximum.reduceat(spread, offsets)  # each residue's own extent around its centre
     pairs = tree.query_pairs(r=2 * extent + OVERLAP_MAX, output_type="ndarray")
     if len(pairs):
@@ -113,6 +96,27 @@ def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
         near = np.linalg.norm(centres[pa] - centres[pb], axis=1) <= reach[pa] + reach[pb] + OVERLAP_MAX
         summed = occ_sel[pa] + occ_sel[pb]
         pairs = pairs[near & (summed >= _OCC_SUM[0]) & (summed <= _OCC_SUM[1])]
+    if not len(pairs):
+        return {}
+    involved = np.unique(pairs)  # only residues of a candidate pair are described
+    data = {}
+    for n in involved.tolist():
+        key = keys[n]
+        lo, hi = int(offsets[n]), int(offsets[n] + sizes[n])
+        r0 = int(rows_all[lo])
+        name = str(atoms.resname[r0])
+        label = f"{name} {atoms.chain[r0]}/{int(atoms.seqnum[r0])}{str(atoms.icode[r0]).strip()}"
+        metals = frozenset(str(e) for e in atoms.element[rows_all[lo:hi]].tolist()) & _METALS
+        kind = (metals,) if metals else (metals, name)  # metal-free twins must share their code
+        data[key] = (xyz_all[lo:hi], float(occ[sel[n]]), label, kind)
+    parent = {k: k for k in data}
+
+    def find(k: int) -> int:
+        while parent[k] != k:
+            parent[k] = parent[parent[k]]
+            k = parent[k]
+        return k
+
     for a, b in sorted(map(tuple, pairs.tolist())):
         ka, kb = keys[a], keys[b]
         xa, oa, _, kind_a = data[ka]
@@ -120,12 +124,16 @@ def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
         if kind_a != kind_b or not _OCC_SUM[0] <= oa + ob <= _OCC_SUM[1]:
             continue
         small, big = (xa, xb) if len(xa) <= len(xb) else (xb, xa)
-        d, _ = NeighbourTree(big).query(small, k=1)
+        if len(small) * len(big) <= _DENSE_PAIRS:  # nearest atom of the other state: all distances at once
+            d = pairwise_distances(small, big).min(axis=1)
+        else:
+            d, _ = NeighbourTree(big).query(small, k=1)
         if np.mean(d <= OVERLAP_MAX) >= _OVERLAP_FRACTION:
             parent[find(kb)] = find(ka)
     groups: dict[int, list[int]] = {}
     for k in keys:
-        groups.setdefault(find(k), []).append(k)
+        if k in parent:
+            groups.setdefault(find(k), []).append(k)
     out = {}
     for members in groups.values():
         if len(members) < 2:
