@@ -25,6 +25,7 @@ __all__ = [
 
 _ORGANIC = frozenset({"C", "N", "O", "S", "P", "SE"})
 _MAX_BOND = 1.9  # Å between heavy organic atoms (C-S 1.82 is the longest we need)
+_HEAVY = frozenset({"S", "P", "SE"})  # bonds to these reach 1.9 Å
 _DENSE_MAX = 400  # atoms: up to this, all distances of a residue are computed at once
 
 
@@ -97,7 +98,7 @@ def _bonds(xyz: np.ndarray, element: np.ndarray) -> tuple[list[int], np.ndarray,
         return idx, empty, empty
     rows = np.asarray(idx, dtype=np.intp)
     sub = np.asarray(xyz, dtype=float)[rows]
-    heavy = np.isin(np.asarray(element, dtype=object)[rows], ("S", "P", "SE"))
+    heavy = np.fromiter((element[i] in _HEAVY for i in idx), dtype=bool, count=len(idx))
     if len(rows) <= _DENSE_MAX:  # every distance at once
         diff = sub[:, None, :] - sub[None, :, :]
         d = np.sqrt(np.einsum("ijk,ijk->ij", diff, diff))
@@ -142,14 +143,15 @@ def bond_graph(xyz: np.ndarray, element: np.ndarray) -> BondGraph:
 
 
 def _two_oxo_ring_carbons(element: np.ndarray, idx: list[int], a: np.ndarray, b: np.ndarray) -> bool:
-    """Whether two unbonded carbons each carry a terminal O and sit in an all-carbon neighbourhood.
+    """Whether two unbonded carbons carrying a terminal O could be para on a six-carbon ring.
 
     A para-quinone/quinol ring of six carbons needs that: each O-bearing ring carbon
     is bonded to its two ring neighbours, carbons that themselves have two carbon
-    neighbours, and the two O-bearing carbons (para) are not bonded. A residue
-    without such a pair holds no quinone ring (an ester's carbonyl carbon has one
-    carbon neighbour; the hydroxyl carbons of a sugar ring that pass are bonded to
-    each other), so its bond graph is never built.
+    neighbours; the two O-bearing carbons (para) are not bonded and are joined by
+    two paths of three C-C bonds. A residue without such a pair holds no quinone
+    ring (an ester's carbonyl carbon has one carbon neighbour; the hydroxyl carbons
+    of a sugar ring are not joined twice through carbons), so its rings are never
+    searched.
     """
     if not len(a):
         return False
@@ -170,7 +172,19 @@ def _two_oxo_ring_carbons(element: np.ndarray, idx: list[int], a: np.ndarray, b:
     if len(carriers) < 2:
         return False
     bonded = set(zip(a.tolist(), b.tolist()))
-    return any((u, v) not in bonded for k, u in enumerate(carriers) for v in carriers[k + 1:])
+    pairs = [(u, v) for k, u in enumerate(carriers) for v in carriers[k + 1:] if (u, v) not in bonded]
+    if not pairs or n > _DENSE_MAX:
+        return bool(pairs)
+    # para carbons of a six-carbon ring are joined by two paths of three C-C bonds (one each
+    # way round); with u and v not bonded every 3-step walk from u to v is such a path
+    cc = is_c[a] & is_c[b]
+    adj = np.zeros((n, n), dtype=np.int64)
+    adj[a[cc], b[cc]] = 1
+    adj[b[cc], a[cc]] = 1
+    us = sorted({u for u, _ in pairs})
+    walks = adj[us] @ adj @ adj  # 3-step walks from each u
+    row = {u: k for k, u in enumerate(us)}
+    return any(walks[row[u], v] >= 2 for u, v in pairs)
 
 
 def _ring_distance(g: BondGraph, ring: frozenset[int], a: int, b: int) -> int | None:
