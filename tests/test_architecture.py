@@ -147,3 +147,20 @@ def test_scan_command_loads_no_scipy_spatial_or_pandas(tmp_path):
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
                          cwd=tmp_path).stdout.strip().splitlines()[-1]
     assert out == "[]", out
+
+
+def test_small_scan_does_not_load_numpy_masked_arrays(tmp_path):
+    # numpy 2's plain np.unique imports numpy.ma at first use (about 15 ms of a one-file
+    # scan's start-up); fescan.core.arrays.distinct avoids it. A scan whose wire needs no
+    # scipy (which loads numpy.ma itself) must not load it.
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "example_structures" / "rb5_rieske_heme.cif"
+    code = ("import sys\nfrom fescan.cli.main import main\n"
+            f"rc = main(['scan', {str(demo)!r}, '--brief'])\n"
+            "print(['scipy' in sys.modules, 'numpy.ma' in sys.modules])")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                         cwd=tmp_path).stdout.strip().splitlines()[-1]
+    assert out == "[False, False]", out

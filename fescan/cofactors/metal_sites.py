@@ -18,6 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fescan.cofactors.atoms import AtomArrays
+from fescan.core.arrays import distinct
 from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import ION_SITE_METALS
 
@@ -113,7 +114,7 @@ def find_metal_sites(
         is_metal[i] = False
     redox_seeds = np.flatnonzero(is_metal)
     bare = _bare_structural_ions(atoms)
-    seeds = np.union1d(redox_seeds, bare).astype(int)
+    seeds = distinct(np.concatenate((redox_seeds, bare))).astype(int)
     if len(seeds) == 0:
         return []
     tree = NeighbourTree(atoms.xyz)
@@ -213,7 +214,7 @@ def _bare_structural_ions(atoms: AtomArrays) -> np.ndarray:
     rows = np.flatnonzero(np.isin(atoms.element, list(STRUCTURAL_METALS)))
     if len(rows) == 0:
         return rows
-    organic_res = np.unique(atoms.res_id[np.isin(atoms.element, _NOT_BARE)])
+    organic_res = distinct(atoms.res_id[np.isin(atoms.element, _NOT_BARE)])
     return rows[~np.isin(atoms.res_id[rows], organic_res)]
 
 

@@ -10,6 +10,7 @@ from collections.abc import Iterable, Iterator
 
 import numpy as np
 
+from fescan.core.arrays import distinct
 from fescan.core.neighbours import NeighbourTree
 
 __all__ = [
@@ -162,7 +163,7 @@ def _two_oxo_ring_carbons(element: np.ndarray, idx: list[int], a: np.ndarray, b:
     degree = np.bincount(ends, minlength=n)
     is_c = el == "C"
     terminal_o = (el[ends] == "O") & (degree[ends] == 1) & is_c[other]
-    carriers = np.unique(other[terminal_o])
+    carriers = distinct(other[terminal_o])
     if len(carriers) < 2:
         return False
     c_neighbours = np.bincount(ends[is_c[other]], minlength=n)

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from fescan.core.arrays import distinct
 from fescan.core.neighbours import NeighbourTree, pairwise_distances
 
 __all__ = ["OVERLAP_MAX", "AlternativeState", "find_alternative_states"]
@@ -98,7 +99,7 @@ def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
         pairs = pairs[near & (summed >= _OCC_SUM[0]) & (summed <= _OCC_SUM[1])]
     if not len(pairs):
         return {}
-    involved = np.unique(pairs)  # only residues of a candidate pair are described
+    involved = distinct(pairs)  # only residues of a candidate pair are described
     data = {}
     for n in involved.tolist():
         key = keys[n]

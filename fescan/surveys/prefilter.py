@@ -42,6 +42,8 @@ from pathlib import Path
 
 import numpy as np
 
+from fescan.core.arrays import distinct
+
 __all__ = ["Verdict", "can_hold_candidate", "screen_text", "NO_CANDIDATE"]
 
 #: Status of a survey row for a file the prefilter set aside.
@@ -163,18 +165,18 @@ def _pdb_columns(text: bytes) -> Verdict:
         raw[idx >= ends[:, None]] = 32  # past the end of a short line: blank
         return raw
 
-    resnames = {_word(k, 3) for k in np.unique(_key(column(17, 3)))}
+    resnames = {_word(k, 3) for k in distinct(_key(column(17, 3)))}
     found = sorted(resnames & codes)
     if found:
         return Verdict(True, f"residue {found[0]}")
     elements = column(76, 2)
     blank = (elements == 32).all(1)
-    symbols = {_word(k, 2).upper() for k in np.unique(_key(elements[~blank]))}
+    symbols = {_word(k, 2).upper() for k in distinct(_key(elements[~blank]))}
     hit = sorted(symbols & metals)
     if hit:
         return Verdict(True, f"element {hit[0]}")
     if blank.any():  # no element column: gemmi takes the element from the atom name
-        for k in np.unique(_key(column(12, 2)[blank])):
+        for k in distinct(_key(column(12, 2)[blank])):
             word = _word(k, 2).upper()
             if word in metals or word[:1] in metals:
                 return Verdict(True, f"atom name {word}")
@@ -256,8 +258,8 @@ def _cif_loop_values(text: bytes) -> dict[str, set[str]] | None:
         raw = padded[s0[:, None] + np.arange(8)]
         raw[np.arange(8)[None, :] >= width] = 0
         long = width[:, 0] > 8
-        distinct = np.unique(raw.view(np.uint64).ravel()).astype(np.uint64).view("S8")  # same bytes, sorted fast
-        vals = {v.decode("ascii", "replace").strip("'\"") for v in distinct}
+        keys = distinct(raw.view(np.uint64).ravel()).astype(np.uint64).view("S8")  # same bytes, sorted fast
+        vals = {v.decode("ascii", "replace").strip("'\"") for v in keys}
         if long.any():
             vals.add("<long>")
         out[col] = vals

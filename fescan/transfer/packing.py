@@ -49,6 +49,7 @@ import gemmi
 import numpy as np
 
 from fescan.cofactors.atoms import WATER_NAMES, index_model
+from fescan.core.arrays import distinct
 from fescan.core.errors import ConfigError
 from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import Cofactor
@@ -198,7 +199,7 @@ def _inside_any(points: np.ndarray, xyz: np.ndarray, radius: np.ndarray) -> np.n
     inside = np.zeros(len(points), dtype=bool)
     if len(points) == 0 or len(xyz) == 0:
         return inside
-    for r in np.unique(radius):
+    for r in distinct(radius):
         sel = xyz[radius == r]
         d, _ = NeighbourTree(sel).query(points, k=1, distance_upper_bound=float(r))
         inside |= d <= r
