@@ -84,3 +84,13 @@ def test_compact_queries_match_the_kd_tree(r):
         d, i = mine.query(queries, k=1, distance_upper_bound=r)
         d_ref, i_ref = ref.query(queries, k=1, distance_upper_bound=r)
         assert np.array_equal(i, i_ref)
+
+
+def test_distinct_equals_numpy_unique():
+    # fescan.core.arrays.distinct stands for np.unique (without its masked-array import)
+    from fescan.core.arrays import distinct
+
+    rng = np.random.default_rng(3)
+    for values in (rng.integers(0, 50, 500), rng.normal(size=200).round(1), np.array([], dtype=np.int64),
+                   np.array([b"SF4", b"FES", b"SF4", b"HEM"]), np.array([3.0, np.nan, 1.0, np.nan])):
+        assert np.array_equal(distinct(values), np.unique(values), equal_nan=values.dtype.kind == "f")
