@@ -121,8 +121,8 @@ def context_subclasses(
                     out[h.uid] = ("heme a3", why)
                     out[cu.uid] = ("CuB", why)
         pq = by_cls.get("plastoquinone", [])
-        trp = landmarks.get("trp_side_chain")
-        if len(pq) == 2 and trp is not None and len(trp):
+        trp = landmarks.get("trp_side_chain") if len(pq) == 2 else None  # read only when the rule applies
+        if trp is not None and len(trp):
             def trp_distance(c: Cofactor) -> float:
                 xyz = np.asarray([a.xyz for a in c.redox_atoms or c.atoms], dtype=float).reshape(-1, 3)
                 return float(np.min(pairwise_distances(xyz, trp))) if len(xyz) else np.inf
