@@ -121,13 +121,29 @@ def _chars(codes: np.ndarray, blank: int) -> np.ndarray:
     return table[codes.astype(np.uint8)]
 
 
+def _ends(model: gemmi.Model) -> list[tuple[float, float, float]]:
+    """Positions of the first and last atom of the model (empty when it has none)."""
+    chains = [ch for ch in model if len(ch)]
+    if not chains:
+        return []
+    first = next((res[0] for res in chains[0] if len(res)), None)
+    tail = chains[-1]
+    last = next((tail[k][len(tail[k]) - 1] for k in range(len(tail) - 1, -1, -1) if len(tail[k])), None)
+    return [a.pos.tolist() for a in (first, last) if a is not None]
+
+
+def _looks_same(a: gemmi.Model, b: gemmi.Model) -> bool:
+    """Whether ``a`` is (as far as a cheap look tells) the model ``b``: same atom count, same end atoms."""
+    return a.count_atom_sites() == b.count_atom_sites() and _ends(a) == _ends(b)
+
+
 class _Flat:
     """The model's atoms as whole-model numpy columns, read by gemmi in compiled code."""
 
     __slots__ = ("pos", "elements", "names", "resnames", "chains", "resnums", "icodes", "altlocs", "occ", "b")
 
     def __init__(self, model: gemmi.Model, structure: gemmi.Structure | None = None) -> None:
-        if structure is not None and len(structure) == 1:
+        if structure is not None and len(structure) == 1 and _looks_same(structure[0], model):
             st = structure  # the model is the structure's only one: read in place
         else:
             st = gemmi.Structure()

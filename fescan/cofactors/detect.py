@@ -76,7 +76,7 @@ def _rows_by_residue(atoms: AtomArrays) -> dict[int, np.ndarray]:
 class _Composition:
     """Per-residue atom counts of the candidate atoms (one vectorised pass)."""
 
-    __slots__ = ("n", "c", "nitrogen", "o", "fe", "metal")
+    __slots__ = ("n", "c", "nitrogen", "o", "fe", "metal", "metal_or_mg")
 
     def __init__(self, atoms: AtomArrays) -> None:
         ids, inverse = np.unique(np.asarray(atoms.res_id, dtype=np.int64), return_inverse=True)
@@ -91,7 +91,8 @@ class _Composition:
         self.nitrogen = count(el == "N")
         self.o = count(el == "O")
         self.fe = count(el == "FE")
-        self.metal = count(np.isin(el, sorted(METALS | {"MG", "ZN"})))
+        self.metal = count(np.isin(el, sorted(METALS | {"MG", "ZN"})))  # the quinone screen's metals
+        self.metal_or_mg = count(np.isin(el, sorted(METALS | {"MG"})))  # the flavin screen's (Zn allowed)
 
 
 def _is_heme_geometry(atoms: AtomArrays, rows: np.ndarray) -> int | None:
@@ -105,8 +106,8 @@ def _is_heme_geometry(atoms: AtomArrays, rows: np.ndarray) -> int | None:
 
 
 def _might_be_flavin(comp: _Composition, rid: int) -> bool:
-    """Enough N and O for an isoalloxazine, and no metal (Mg, Zn included)."""
-    return not comp.metal[rid] and comp.n[rid] >= 16 and comp.nitrogen[rid] >= 4 and comp.o[rid] >= 2
+    """Enough N and O for an isoalloxazine, and no redox metal or Mg (a Zn does not exclude it)."""
+    return not comp.metal_or_mg[rid] and comp.n[rid] >= 16 and comp.nitrogen[rid] >= 4 and comp.o[rid] >= 2
 
 
 class _Builder(OrganicMixin):

@@ -106,6 +106,11 @@ def ligand_kind(resname: str, atom_name: str, element: str) -> str:
     return f"{resname} {element.capitalize()}"
 
 
+def _distance(a: np.ndarray, b: np.ndarray) -> float:
+    """Distance of two atoms, computed as every bond length fescan reports is (so a value at a window's edge is judged alike)."""
+    return float(np.linalg.norm(a - b))
+
+
 def find_ligands(
     env: AtomArrays,
     metal_rows: Iterable[int],
@@ -140,13 +145,14 @@ def find_ligands(
     alt = env.altloc
     metals = [int(m) for m in metal_rows]
     if metals:  # one batched search for every metal of the site
-        q, p, dist = tree.within(env.xyz[metals], 3.0)
-        near_metal = zip((metals[k] for k in q.tolist()), p.tolist(), dist.tolist())
+        q, p, _ = tree.within(env.xyz[metals], 3.0)
+        near_metal = zip((metals[k] for k in q.tolist()), p.tolist())
     else:
         near_metal = iter(())
-    for m, j, d in near_metal:
+    for m, j in near_metal:
         if j in core_rows or (alt[m] and alt[j] and alt[j] != alt[m]):  # another conformation
             continue
+        d = _distance(env.xyz[m], env.xyz[j])
         e = env.element[j]
         limit = _ION_LIGAND_MAX.get((env.element[m], e), LIGAND_MAX.get(e))
         if limit is None and e == "C" and int(env.res_id[j]) in own_res_ids:
@@ -168,11 +174,11 @@ def find_ligands(
         taken[list(core_rows | ligand_rows)] = True
         own = np.asarray(sorted(own_res_ids), dtype=np.int64)
         other = ~taken[p] & ~(env.res_id[p][:, None] == own[None, :]).any(axis=1)
-        for k, j, d in zip(q[other].tolist(), p[other].tolist(), dist[other].tolist()):
+        for k, j in zip(q[other].tolist(), p[other].tolist()):
             c = core[k]
             if alt[c] and alt[j] and alt[j] != alt[c]:
                 continue
-            clashes.append((c, j, d))
+            clashes.append((c, j, _distance(env.xyz[c], env.xyz[j])))
     return ligands, clashes
 
 

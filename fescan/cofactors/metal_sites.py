@@ -122,13 +122,14 @@ def find_metal_sites(
     inorganic = _inorganic_mask(atoms, tree, np.asarray(near, dtype=int))
     links = _Components(int(i) for i in seeds)
     bonds: list[tuple[int, int]] = []
-    q, p, dist = tree.within(atoms.xyz[seeds], MN_LINK_MAX)
-    for i, j, d in zip(seeds[q].tolist(), p.tolist(), dist.tolist()):
+    q, p, _ = tree.within(atoms.xyz[seeds], MN_LINK_MAX)
+    for i, j in zip(seeds[q].tolist(), p.tolist()):
         if j == i or j in exclude:
             continue
         alt_i, alt_j = atoms.altloc[i], atoms.altloc[j]
         if alt_i and alt_j and alt_i != alt_j:
             continue  # two alternative conformations never bond
+        d = float(np.linalg.norm(atoms.xyz[i] - atoms.xyz[j]))  # as the bond checks measure it
         ej = el[j]
         link = False
         if not is_metal[i]:  # a structural ion: only the Ca of the Mn4Ca cluster links (to Mn)

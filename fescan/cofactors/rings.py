@@ -11,7 +11,7 @@ from collections.abc import Iterable, Iterator
 import numpy as np
 
 from fescan.core.arrays import distinct
-from fescan.core.neighbours import NeighbourTree
+from fescan.core.neighbours import NeighbourTree, pairwise_distances
 
 __all__ = [
     "BondGraph",
@@ -100,9 +100,8 @@ def _bonds(xyz: np.ndarray, element: np.ndarray) -> tuple[list[int], np.ndarray,
     rows = np.asarray(idx, dtype=np.intp)
     sub = np.asarray(xyz, dtype=float)[rows]
     heavy = np.fromiter((element[i] in _HEAVY for i in idx), dtype=bool, count=len(idx))
-    if len(rows) <= _DENSE_MAX:  # every distance at once
-        diff = sub[:, None, :] - sub[None, :, :]
-        d = np.sqrt(np.einsum("ijk,ijk->ij", diff, diff))
+    if len(rows) <= _DENSE_MAX:  # every distance at once (the same arithmetic as a norm along x, y, z)
+        d = pairwise_distances(sub, sub)
         limit = np.where(heavy[:, None] | heavy[None, :], 1.9, 1.75)
         a, b = np.nonzero(np.triu((d < limit) & (d > 0.9), k=1))
     else:
@@ -424,11 +423,19 @@ def porphyrin_atoms(xyz: np.ndarray, element: np.ndarray, metal: int) -> list[in
     xyz = np.asarray(xyz, dtype=float)
     g = bond_graph(xyz, element)
     near_n = {i for i in g.nodes if element[i] == "N" and np.linalg.norm(xyz[i] - xyz[metal]) < 2.6}
-    pyrroles = []
-    for ring in small_rings(g, (5,), through=near_n):  # a pyrrole holds its N: only the N's bonds are searched
-        ns = [i for i in ring if element[i] == "N"]
-        if len(ns) == 1 and ns[0] in near_n:
-            pyrroles.append(ring)
+    def pyrroles_of(rings: list[frozenset[int]]) -> list[frozenset[int]]:
+        out = []
+        for ring in rings:
+            ns = [i for i in ring if element[i] == "N"]
+            if len(ns) == 1 and ns[0] in near_n:
+                out.append(ring)
+        return out
+
+    # a pyrrole holds its N: the N's bonds are searched first; when a smaller ring shares a bond
+    # of an N (a badly modelled heme, overlapping conformations) every bond is searched
+    pyrroles = pyrroles_of(small_rings(g, (5,), through=near_n))
+    if len(pyrroles) < 4:
+        pyrroles = pyrroles_of(small_rings(g, (5,)))
     if len(pyrroles) < 4:
         return None
     ring_atoms = set().union(*pyrroles)

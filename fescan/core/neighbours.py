@@ -22,6 +22,7 @@ __all__ = ["NeighbourTree", "pairwise_distances"]
 _BRUTE_CELLS = 4_000_000  # query x point distances computed at once by the unbounded nearest search
 _BRUTE_PAIRS = 200_000  # below this many query x point pairs, no grid is built
 _SMALL_PAIRS = 4_096  # below this many, not even the bounding box is looked for
+_BOX_SLACK = 1e-9  # relative widening of a query's bounding box (the distance test itself stays exact)
 _OFFSETS = np.array([(i, j, k) for i in (-1, 0, 1) for j in (-1, 0, 1) for k in (-1, 0, 1)], dtype=np.int64)
 
 
@@ -111,7 +112,8 @@ class NeighbourTree:
         if self._xorder is None:
             self._xorder = np.argsort(self.data[:, 0], kind="stable")
             self._xsorted = self.data[self._xorder, 0]
-        lo, hi = points.min(axis=0) - r, points.max(axis=0) + r
+        reach = r + _BOX_SLACK * (1.0 + r)  # a little wider: a point at exactly r must not fall outside by rounding
+        lo, hi = points.min(axis=0) - reach, points.max(axis=0) + reach
         first = int(np.searchsorted(self._xsorted, lo[0], side="left"))
         last = int(np.searchsorted(self._xsorted, hi[0], side="right"))
         slab = self._xorder[first:last]
@@ -128,7 +130,7 @@ class NeighbourTree:
             dist = pairwise_distances(points, self.data)
             q, p = np.nonzero(dist <= r)  # by query, then point
             return q, p, dist[q, p]
-        near = self._box(points, r)
+        near = self._box(points, r) if np.isfinite(points).all() else np.arange(self.n)
         if len(points) * len(near) <= _BRUTE_PAIRS:  # compact query (one site): distances to the atoms of its box
             dist = pairwise_distances(points, self.data[near])
             q, p = np.nonzero(dist <= r)  # by query, then point (``near`` is sorted)

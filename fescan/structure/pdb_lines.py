@@ -197,6 +197,8 @@ def _record_starts(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     ends = np.concatenate((nl, [len(buf)]))
     keep = ends - starts >= 4
     starts, ends = starts[keep], ends[keep]
+    if len(buf) < 4 or not len(starts):
+        return starts, ends - starts
     # the first four bytes of each line as one little-endian number, read in place
     words = np.ndarray((len(buf) - 3,), dtype="<u4", buffer=buf, strides=(1,))
     word = words[starts]
