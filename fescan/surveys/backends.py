@@ -266,7 +266,7 @@ class ProcessPool:
         self._ever_ready = False
         if "forkserver" in mp.get_all_start_methods():
             self._ctx = mp.get_context("forkserver")
-            self._ctx.set_forkserver_preload(["fescan.surveys.run"])
+            self._ctx.set_forkserver_preload(["fescan.surveys.worker"])
         else:  # pragma: no cover - Windows
             self._ctx = mp.get_context("spawn")
 

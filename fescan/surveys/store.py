@@ -281,7 +281,7 @@ class SurveyStore:
         Parameters
         ----------
         outcomes : list of dict
-            Outcomes of :func:`fescan.surveys.run.analyse_file` (or failures made by
+            Outcomes of :func:`fescan.surveys.worker.analyse_file` (or failures made by
             the parent), each with ``file``, ``status``, ``structure``, and
             ``rows`` (table name → rows) and/or ``failure``.
         keys : list of FileKey
