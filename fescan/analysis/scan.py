@@ -14,6 +14,7 @@ import gemmi
 import networkx as nx
 import numpy as np
 
+from fescan.analysis.caution import CAUTION
 from fescan.cofactors import count_not_analysed, find_cofactors
 from fescan.cofactors.header_check import missing_cofactor_notes, models_with_cofactors
 from fescan.cofactors.inventory import with_altloc_states
@@ -43,12 +44,6 @@ from fescan.transfer.potentials import (
 
 __all__ = ["CAUTION", "ScanResult", "scan", "finite_json"]
 
-#: Printed with every rate and time fescan reports.
-CAUTION = (
-    "Rates and transfer times are estimates from the empirical Moser-Dutton tunnelling "
-    "law (Page, Moser, Chen & Dutton 1999, Nature 402:47), good to about +/-0.8 decade "
-    "for natural proteins; they are not measurements."
-)
 
 
 @dataclass

@@ -245,7 +245,7 @@ def _report_link(survey_dir: Path, out_dir: Path, file: str) -> str | None:
     name = name[:-3] if name.lower().endswith(".gz") else name
     candidates = []
     try:
-        from fescan.surveys.run import report_stem  # the survey names the folders
+        from fescan.surveys.outcomes import report_stem  # the survey names the folders
         candidates.append(base / report_stem(file))
     except ImportError:  # pragma: no cover - survey module absent
         pass

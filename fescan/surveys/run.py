@@ -56,15 +56,16 @@ from dataclasses import asdict, dataclass, field
 from pathlib import Path
 from typing import Any
 
-from fescan.analysis.scan import CAUTION
+from fescan.analysis.caution import CAUTION
 from fescan.analysis.tables import SCHEMAS
 from fescan.core.errors import ConfigError, StructureNotFound
 from fescan.core.options import ScanOptions
 from fescan.structure.reading import detect_format
 from fescan.surveys.backends import DaskEngine, ProcessPool, TaskResult, default_workers
+from fescan.surveys.outcomes import _failure, report_stem
 from fescan.surveys.prefilter import NO_CANDIDATE
 from fescan.surveys.store import TABLE_NAMES, FileKey, SurveyStore, file_key
-from fescan.surveys.worker import _failure, analyse_file, report_stem
+from fescan.surveys.tasks import analyse_file
 
 __all__ = ["STRUCTURE_SUFFIXES", "SurveySummary", "analyse_file", "find_structure_files", "read_file_list", "survey"]
 

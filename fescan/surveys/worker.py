@@ -8,9 +8,7 @@ and about 60 MB per process, paid at every survey's start).
 
 from __future__ import annotations
 
-import hashlib
 import os
-import re
 import time
 import traceback
 from collections import Counter
@@ -22,6 +20,7 @@ from fescan.analysis.scan import scan
 from fescan.analysis.tables import result_rows
 from fescan.core.errors import FescanError
 from fescan.core.records import CATEGORIES
+from fescan.surveys.outcomes import _failure, report_stem
 from fescan.surveys.prefilter import NO_CANDIDATE, can_hold_candidate
 
 __all__ = ["analyse_file", "report_stem"]
@@ -42,16 +41,6 @@ def _test_hooks(path: str) -> None:
         hog = []
         while True:  # address space, untouched: fails fast under the cap without filling memory
             hog.append(np.empty(64 << 20, dtype=np.uint8))
-
-
-def _failed_structure_row(path: str) -> dict[str, Any]:
-    return {"file": path, "status": "failed"}
-
-
-def _failure(path: str, error_class: str, message: str, reason: str, seconds: float) -> dict[str, Any]:
-    return {"file": path, "status": "failed", "seconds": seconds,
-            "structure": _failed_structure_row(path),
-            "failure": {"file": path, "error_class": error_class, "message": message, "reason": reason}}
 
 
 def _no_candidate(path: str, seconds: float) -> dict[str, Any]:
@@ -146,13 +135,3 @@ def _relabel(value: Any, path: str, label: str) -> Any:
     if isinstance(value, list):
         return [_relabel(v, path, label) for v in value]
     return value
-
-
-def report_stem(path: str) -> str:
-    """A file-name-safe, unique stem for the per-structure report of ``path``."""
-    name = Path(path).name
-    name = name[:-3] if name.lower().endswith(".gz") else name
-    safe = re.sub(r"[^A-Za-z0-9._-]+", "_", name).strip("._") or "structure"
-    # hash of the path as given (not resolved), so the same command run elsewhere names folders alike
-    digest = hashlib.sha1(Path(path).as_posix().encode("utf-8", "surrogateescape")).hexdigest()[:8]
-    return f"{safe}-{digest}"
