@@ -164,3 +164,18 @@ def test_small_scan_does_not_load_numpy_masked_arrays(tmp_path):
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
                          cwd=tmp_path).stdout.strip().splitlines()[-1]
     assert out == "[False, False]", out
+
+
+@pytest.mark.parametrize(("module", "absent"), [
+    ("fescan.surveys.run", ("networkx", "fescan.analysis.scan", "fescan.surveys.worker")),  # the survey's parent
+    ("fescan.surveys.worker", ("pandas", "pyarrow", "fescan.surveys.run", "fescan.surveys.store")),  # its workers
+])
+def test_survey_parent_and_workers_load_only_their_share(module, absent):
+    # the parent keeps the tables (pandas) and never the scan machinery; a worker (and the
+    # forkserver that preloads fescan.surveys.worker) keeps the scan and never the tables
+    import subprocess
+    import sys
+
+    code = f"import sys, {module}; print([m for m in {absent!r} if m in sys.modules])"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip()
+    assert out == "[]", f"{module} loads {out}"
