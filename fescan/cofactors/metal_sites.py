@@ -19,6 +19,7 @@ import numpy as np
 
 from fescan.cofactors.atoms import AtomArrays
 from fescan.core.arrays import distinct
+from fescan.core.groups import Components
 from fescan.core.neighbours import NeighbourTree
 from fescan.core.records import ION_SITE_METALS
 
@@ -120,7 +121,7 @@ def find_metal_sites(
     tree = NeighbourTree(atoms.xyz)
     near = sorted({j for h in tree.query_ball_point(atoms.xyz[redox_seeds], r=METAL_BRIDGE_MAX) for j in h})
     inorganic = _inorganic_mask(atoms, tree, np.asarray(near, dtype=int))
-    links = _Components(int(i) for i in seeds)
+    links = Components(int(i) for i in seeds)
     bonds: list[tuple[int, int]] = []
     q, p, _ = tree.within(atoms.xyz[seeds], MN_LINK_MAX)
     for i, j in zip(seeds[q].tolist(), p.tolist()):
@@ -172,42 +173,6 @@ def find_metal_sites(
         sites.append(MetalSite(core=core, bonds=site_bonds))
     sites.sort(key=lambda s: s.core[0])
     return sites
-
-
-class _Components:
-    """Atoms joined into connected groups (union-find over row numbers)."""
-
-    __slots__ = ("parent",)
-
-    def __init__(self, nodes=()) -> None:
-        self.parent: dict[int, int] = {n: n for n in nodes}
-
-    def add(self, n: int) -> None:
-        self.parent.setdefault(n, n)
-
-    def _root(self, n: int) -> int:
-        parent = self.parent
-        root = n
-        while parent[root] != root:
-            root = parent[root]
-        while parent[n] != root:  # path compression
-            parent[n], n = root, parent[n]
-        return root
-
-    def join(self, a: int, b: int) -> None:
-        """Put ``a`` and ``b`` (added if new) in one group."""
-        self.add(a)
-        self.add(b)
-        ra, rb = self._root(a), self._root(b)
-        if ra != rb:
-            self.parent[max(ra, rb)] = min(ra, rb)
-
-    def components(self) -> list[set[int]]:
-        """Every group, as a set of atoms."""
-        groups: dict[int, set[int]] = {}
-        for n in self.parent:
-            groups.setdefault(self._root(n), set()).add(n)
-        return list(groups.values())
 
 
 def _bare_structural_ions(atoms: AtomArrays) -> np.ndarray:

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from fescan.core.arrays import distinct
+from fescan.core.groups import Components
 from fescan.core.neighbours import NeighbourTree, pairwise_distances
 
 __all__ = ["OVERLAP_MAX", "AlternativeState", "find_alternative_states"]
@@ -110,13 +111,7 @@ def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
         metals = frozenset(str(e) for e in atoms.element[rows_all[lo:hi]].tolist()) & _METALS
         kind = (metals,) if metals else (metals, name)  # metal-free twins must share their code
         data[key] = (xyz_all[lo:hi], float(occ[sel[n]]), label, kind)
-    parent = {k: k for k in data}
-
-    def find(k: int) -> int:
-        while parent[k] != k:
-            parent[k] = parent[parent[k]]
-            k = parent[k]
-        return k
+    twins = Components(data)
 
     for a, b in sorted(map(tuple, pairs.tolist())):
         ka, kb = keys[a], keys[b]
@@ -130,15 +125,11 @@ def find_alternative_states(atoms) -> dict[int, list[AlternativeState]]:
         else:
             d, _ = NeighbourTree(big).query(small, k=1)
         if np.mean(d <= OVERLAP_MAX) >= _OVERLAP_FRACTION:
-            parent[find(kb)] = find(ka)
-    groups: dict[int, list[int]] = {}
-    for k in keys:
-        if k in parent:
-            groups.setdefault(find(k), []).append(k)
+            twins.join(ka, kb)
     out = {}
-    for members in groups.values():
-        if len(members) < 2:
+    for group in twins.components():
+        if len(group) < 2:
             continue
-        members.sort(key=lambda k: (-data[k][1], k))
+        members = sorted(group, key=lambda k: (-data[k][1], k))
         out[members[0]] = [AlternativeState(k, f"{data[k][2]} occ {data[k][1]:.2f}", data[k][1]) for k in members]
     return out
