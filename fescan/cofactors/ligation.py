@@ -29,7 +29,7 @@ import numpy as np
 
 from fescan.cofactors.atoms import WATER_NAMES, AtomArrays
 from fescan.cofactors.registry import bond_range
-from fescan.core.neighbours import NeighbourTree, pairwise_distances
+from fescan.core.neighbours import NeighbourTree, atom_distance, pairwise_distances
 from fescan.core.records import Flag, Ligand
 
 __all__ = [
@@ -106,11 +106,6 @@ def ligand_kind(resname: str, atom_name: str, element: str) -> str:
     return f"{resname} {element.capitalize()}"
 
 
-def _distance(a: np.ndarray, b: np.ndarray) -> float:
-    """Distance of two atoms, computed as every bond length fescan reports is (so a value at a window's edge is judged alike)."""
-    return float(np.linalg.norm(a - b))
-
-
 def find_ligands(
     env: AtomArrays,
     metal_rows: Iterable[int],
@@ -152,7 +147,7 @@ def find_ligands(
     for m, j in near_metal:
         if j in core_rows or (alt[m] and alt[j] and alt[j] != alt[m]):  # another conformation
             continue
-        d = _distance(env.xyz[m], env.xyz[j])
+        d = atom_distance(env.xyz[m], env.xyz[j])
         e = env.element[j]
         limit = _ION_LIGAND_MAX.get((env.element[m], e), LIGAND_MAX.get(e))
         if limit is None and e == "C" and int(env.res_id[j]) in own_res_ids:
@@ -178,7 +173,7 @@ def find_ligands(
             c = core[k]
             if alt[c] and alt[j] and alt[j] != alt[c]:
                 continue
-            clashes.append((c, j, _distance(env.xyz[c], env.xyz[j])))
+            clashes.append((c, j, atom_distance(env.xyz[c], env.xyz[j])))
     return ligands, clashes
 
 
@@ -412,7 +407,7 @@ def check_metal_site(
         n_bridge = 0
         bonded = []
         for s in bridges:
-            d = float(np.linalg.norm(env.xyz[m] - env.xyz[s]))
+            d = atom_distance(env.xyz[m], env.xyz[s])
             if d <= 3.0:
                 n_bridge += 1
                 bonded.append(f"{env.name[s]} {d:.2f} Å")
@@ -476,7 +471,7 @@ def check_metal_site(
     fe_rows = [m for m in metals if el[m] == "FE"]
     for i, a in enumerate(fe_rows):
         for b in fe_rows[i + 1:]:
-            d = float(np.linalg.norm(env.xyz[a] - env.xyz[b]))
+            d = atom_distance(env.xyz[a], env.xyz[b])
             if d < 3.4:
                 f = _window_flag("Fe...Fe", cls, f"{env.name[a]}-{env.name[b]}", d, margin)
                 if f:

@@ -20,7 +20,7 @@ import numpy as np
 from fescan.cofactors.atoms import AtomArrays
 from fescan.core.arrays import distinct
 from fescan.core.groups import Components
-from fescan.core.neighbours import NeighbourTree
+from fescan.core.neighbours import NeighbourTree, atom_distance
 from fescan.core.records import ION_SITE_METALS
 
 __all__ = [
@@ -130,7 +130,7 @@ def find_metal_sites(
         alt_i, alt_j = atoms.altloc[i], atoms.altloc[j]
         if alt_i and alt_j and alt_i != alt_j:
             continue  # two alternative conformations never bond
-        d = float(np.linalg.norm(atoms.xyz[i] - atoms.xyz[j]))  # as the bond checks measure it
+        d = atom_distance(atoms.xyz[i], atoms.xyz[j])
         ej = el[j]
         link = False
         if not is_metal[i]:  # a structural ion: only the Ca of the Mn4Ca cluster links (to Mn)

@@ -17,7 +17,7 @@ import math
 
 import numpy as np
 
-__all__ = ["NeighbourTree", "pairwise_distances"]
+__all__ = ["NeighbourTree", "atom_distance", "pairwise_distances"]
 
 _BRUTE_CELLS = 4_000_000  # query x point distances computed at once by the unbounded nearest search
 _BRUTE_PAIRS = 200_000  # below this many query x point pairs, no grid is built
@@ -39,6 +39,16 @@ def pairwise_distances(a: np.ndarray, b: np.ndarray) -> np.ndarray:
         t *= t
         d2 += t
     return np.sqrt(d2, out=d2)
+
+
+def atom_distance(a: np.ndarray, b: np.ndarray) -> float:
+    """Distance of two points (Å), as every length judged against a window is measured.
+
+    Bond, ligand, clash and metal-link lengths all take this one arithmetic
+    (``np.linalg.norm`` of the difference), so a value at a window's edge is judged
+    alike wherever it is computed; the neighbour searches only choose the pairs.
+    """
+    return float(np.linalg.norm(a - b))
 
 
 class _Grid:
