@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from fescan.core.neighbours import NeighbourTree
+from fescan.core.neighbours import NeighbourTree, pairwise_distances
 from fescan.core.records import Cofactor
 
 __all__ = ["EDGE_ATOMS", "EDGE_CONVENTION", "Pair", "edge_atoms", "redox_coordinates", "edge_distance",
@@ -142,7 +142,7 @@ def _closest(coords: list[np.ndarray], cutoff: float):
     out = {}
     for i, js in partners.items():  # one distance matrix from cofactor i to all its partners
         block = np.concatenate([coords[j] for j in js])
-        d_all = np.linalg.norm(coords[i][:, None, :] - block[None, :, :], axis=2)
+        d_all = pairwise_distances(coords[i], block)
         start = 0
         for j in js:
             d = d_all[:, start:start + len(coords[j])]
