@@ -24,7 +24,7 @@ except ImportError:  # pragma: no cover - isal is a dependency, but keep the rea
 
 from fescan.core.errors import StructureFileError, StructureNotFound
 
-__all__ = ["MAX_TEXT_BYTES", "MAX_GZIP_RATIO", "read_text", "normalise_text", "is_binary", "os_reason"]
+__all__ = ["MAX_TEXT_BYTES", "MAX_GZIP_RATIO", "read_text", "normalise_text", "is_binary", "os_reason", "first_record"]
 
 #: Largest structure text fescan reads, after decompression (bytes). The largest
 #: mmCIF files of the PDB archive are a few hundred MB (common practice, no source).
@@ -42,6 +42,29 @@ _CHUNK = 1 << 22
 # BEL, BS and ESC are let through: terminal escape sequences in a title are text to be
 # shown without them (fescan.report.text.strip_controls), not a reason to refuse the file.
 _TEXT_BYTES = bytes(range(32, 256)) + b"\t\n\r\f\v\x1a\x07\x08\x1b"
+
+
+def first_record(text: str | bytes, names: tuple) -> int:
+    """Offset of the first line starting with one of ``names``, or ``len(text)`` when none does.
+
+    ``text`` and ``names`` are both ``str`` or both ``bytes``. ``find`` per name (a fast
+    scan, each bounded by the best offset so far), not a multi-line regular expression:
+    the end of a PDB header is where the first coordinate record starts.
+
+    Examples
+    --------
+    >>> first_record("HEADER x\\nREMARK\\nATOM  1\\n", ("ATOM  ", "HETATM"))
+    16
+    """
+    newline = "\n" if isinstance(text, str) else b"\n"
+    first = len(text)
+    for word in names:
+        if text.startswith(word):
+            return 0
+        at = text.find(newline + word, 0, first)
+        if at >= 0:
+            first = at + 1
+    return first
 
 
 def os_reason(exc: Exception) -> str:

@@ -82,7 +82,7 @@ from fescan.structure.altlocs import (
 )
 from fescan.structure.header_codes import codes_from_block, codes_from_pdb_header
 from fescan.structure.pdb_lines import screen_pdb_records
-from fescan.structure.rawtext import is_binary, normalise_text, read_text
+from fescan.structure.rawtext import first_record, is_binary, normalise_text, read_text
 from fescan.structure.refinement import (
     RefinementStats,
     refinement_stats_from_block,
@@ -392,22 +392,7 @@ def read_structure(
     )
 
 
-_COORDINATE_STARTS = (b"ATOM  ", b"HETATM", b"MODEL ")
-
-
-def _first_coordinate(data: bytes) -> int:
-    """Offset of the first ATOM, HETATM or MODEL record (the end of the header); ``len(data)`` if none.
-
-    ``bytes.find`` per record name (a fast scan), not a multi-line regular expression.
-    """
-    first = len(data)
-    for word in _COORDINATE_STARTS:
-        if data.startswith(word):
-            return 0
-        at = data.find(b"\n" + word, 0, first)
-        if at >= 0:
-            first = at + 1
-    return first
+_COORDINATE_STARTS = (b"ATOM  ", b"HETATM", b"MODEL ")  # the header ends at the first of these
 
 
 def _header_facts(
@@ -418,7 +403,7 @@ def _header_facts(
         stats = (refinement_stats_from_block(block) if file_format == "mmcif"
                  else RefinementStats(file_format=file_format, notes=("refinement statistics are not read from mmJSON",)))
         return codes_from_block(block), stats
-    head = data[: _first_coordinate(data)].decode("latin-1")
+    head = data[: first_record(data, _COORDINATE_STARTS)].decode("latin-1")
     return codes_from_pdb_header(head), refinement_stats_from_text(head)
 
 

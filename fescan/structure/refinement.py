@@ -25,6 +25,8 @@ from typing import Any
 
 import gemmi
 
+from fescan.structure.rawtext import first_record
+
 __all__ = ["RefinementStats", "read_refinement_stats", "refinement_stats_from_block", "refinement_stats_from_text"]
 
 
@@ -260,18 +262,6 @@ def refinement_stats_from_block(block: gemmi.cif.Block) -> RefinementStats:
 
 
 # --- entry points ----------------------------------------------------------------------
-def _first_atom_record(text: str) -> int:
-    """Offset of the first ATOM or HETATM record (``len(text)`` if none), found with ``str.find``."""
-    first = len(text)
-    for word in ("ATOM  ", "HETATM"):
-        if text.startswith(word):
-            return 0
-        at = text.find("\n" + word, 0, first)
-        if at >= 0:
-            first = at + 1
-    return first
-
-
 def refinement_stats_from_text(text: str) -> RefinementStats:
     """Refinement statistics from a structure file's (decompressed) text.
 
@@ -295,7 +285,7 @@ def refinement_stats_from_text(text: str) -> RefinementStats:
         return RefinementStats(file_format="mmjson", notes=("refinement statistics are not read from mmJSON",))
     if re.match(r"(?:#[^\n]*\n\s*)*data_", stripped, re.IGNORECASE):
         return _from_cif(stripped)
-    return _from_pdb(text[: _first_atom_record(text)])
+    return _from_pdb(text[: first_record(text, ("ATOM  ", "HETATM"))])
 
 
 def read_refinement_stats(path: str) -> RefinementStats:
