@@ -48,11 +48,6 @@ class BondGraph:
     def __init__(self, nodes: Iterable[int] = ()) -> None:
         self.adj: dict[int, set[int]] = {int(n): set() for n in nodes}
 
-    def add_edge(self, u: int, v: int) -> None:
-        """Join ``u`` and ``v`` (both must be nodes)."""
-        self.adj[u].add(v)
-        self.adj[v].add(u)
-
     @property
     def nodes(self) -> list[int]:
         """Nodes in the order given."""
@@ -75,20 +70,6 @@ class BondGraph:
     def degree(self, n: int) -> int:
         """Number of bonds of ``n``."""
         return len(self.adj[n])
-
-    def has_edge(self, u: int, v: int) -> bool:
-        """Whether ``u`` and ``v`` are bonded."""
-        return v in self.adj.get(u, ())
-
-    def number_of_edges(self) -> int:
-        """Number of bonds."""
-        return sum(len(nb) for nb in self.adj.values()) // 2
-
-    def __contains__(self, n: object) -> bool:
-        return n in self.adj
-
-    def __len__(self) -> int:
-        return len(self.adj)
 
 
 def _bonds(xyz: np.ndarray, element: np.ndarray) -> tuple[list[int], np.ndarray, np.ndarray]:
@@ -196,7 +177,7 @@ def _ring_distance(g: BondGraph, ring: frozenset[int], a: int, b: int) -> int | 
         nxt = [n for x in frontier for n in g.adj[x] if n in ring and n not in seen]
         seen.update(nxt)
         frontier, steps = nxt, steps + 1
-    return steps if b in seen else None
+    return None
 
 
 def small_rings(g: BondGraph, sizes: tuple[int, ...] = (5, 6),
