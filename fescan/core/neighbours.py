@@ -1,8 +1,11 @@
 """Neighbour search among points in 3-D: pairs within a distance, points near others, nearest point.
 
-A uniform grid of cubic cells, one cell size per search radius (built on first use
-and kept): a query looks only at the 27 cells around each query point, every step
-a whole-array numpy operation. It answers the few questions the analysis asks,
+Three ways, chosen by size, every step a whole-array numpy operation: a tiny
+query computes every distance; a compact one (the atoms of one site) those to the
+points in its bounding box (an x-sorted slab, widened by a hair so a point at
+exactly the radius is never lost to rounding); any other looks at the 27 cells
+around each query point of a uniform grid of cubic cells (one cell size per
+search radius, built on first use and kept). It answers the few questions the analysis asks,
 with the call names of a k-d tree (``query_pairs``, ``query_ball_point``,
 ``query``) so either can stand behind the same code, and it loads nothing beyond
 numpy, which keeps a one-structure scan quick to start.
