@@ -84,9 +84,10 @@ def fes_pocket(env: AtomArrays, core_rows: Sequence[int], ligand_rows: Sequence[
     s_rows = [r for r in core_rows if env.element[r] in ("S", "SE")] + [
         r for r in ligand_rows if env.element[r] in ("S", "SE")]
     names = env.name[near]
-    backbone = near[env.standard[near] & ((names == "N") | (names == "CA") | (names == "C"))]
+    standard, is_n = env.standard[near], names == "N"
+    backbone = near[standard & (is_n | (names == "CA") | (names == "C"))]
     if s_rows:  # only residues whose N (or the next residue's N) reaches a sulfur are keyed
-        n_rows = backbone[env.name[backbone] == "N"]
+        n_rows = near[standard & is_n]
         reach_n = n_rows[pairwise_distances(env.xyz[n_rows], env.xyz[s_rows]).min(axis=1, initial=np.inf) <= NH_S_MAX]
         nums = env.seqnum[reach_n]
         wanted = np.concatenate((nums, nums - 1))
