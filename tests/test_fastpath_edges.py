@@ -11,7 +11,8 @@ Each case pits the fast code against the plain definition it replaces:
   out, as before the per-residue counts);
 - the porphyrin search through the Fe-bound N falls back to every bond when a smaller
   ring shares the N's bonds (a badly modelled heme), as the full search does;
-- the PDB record screen accepts texts shorter than one record name.
+- the PDB record screen accepts texts shorter than one record name;
+- the end of a PDB header (first coordinate record) is the first line starting with a record name.
 """
 
 from __future__ import annotations
@@ -27,6 +28,7 @@ from fescan.cofactors import find_cofactors
 from fescan.cofactors.rings import bond_graph, porphyrin_atoms, small_rings
 from fescan.core.neighbours import NeighbourTree, pairwise_distances
 from fescan.structure.pdb_lines import check_pdb_records, screen_pdb_records
+from fescan.structure.rawtext import first_record
 from tests.datafiles import entry_path, requires_shared
 
 
@@ -132,3 +134,37 @@ def test_a_structure_that_is_not_the_models_own_is_not_read_in_place():
     in_place = [c.centroid for c in find_cofactors(loaded.model, structure=loaded.structure)]
     wrong = [c.centroid for c in find_cofactors(loaded.model, structure=moved)]
     assert plain == in_place == wrong
+
+
+def _first_record_by_lines(text, names):
+    """The plain definition: the offset of the first line that starts with one of ``names``."""
+    offset = 0
+    for line in text.splitlines(keepends=True):
+        if any(line.startswith(word) for word in names):
+            return offset
+        offset += len(line)
+    return len(text)
+
+
+@pytest.mark.parametrize("as_bytes", [False, True])
+def test_header_end_matches_the_line_by_line_definition(as_bytes):
+    """The header end is found by the stem of each record name, its blanks checked after.
+
+    Cases: a name cut short at the end of the text, a name followed by no blank, a name
+    inside a line, a later name before an earlier one (common practice, no source).
+    """
+    names = ("ATOM  ", "HETATM", "MODEL ")
+    texts = [
+        "", "ATOM  1\n", "HEADER\nATOM", "HEADER\nATOM\nATOM  2\n", "REMARK ATOM  \nATOMS\nHETATM 1\n",
+        "HEADER x\nMODEL        1\nATOM  1\n", "X\nHETATM\nATOM  \n", "X\nATOMX \nATOM \nATOM  \n",
+        "X\nMODEL", "X\nMODEL \n", "X\nATOM \n", "\nATOM  ",
+    ]
+    rng = np.random.default_rng(3)
+    pieces = ["\n", "ATOM", "  ", " ", "HETATM", "MODEL", "X", "REMARK"]
+    texts += ["".join(rng.choice(pieces, size=rng.integers(1, 12))) for _ in range(400)]
+    for text in texts:
+        if as_bytes:
+            text, words = text.encode(), tuple(w.encode() for w in names)
+        else:
+            words = names
+        assert first_record(text, words) == _first_record_by_lines(text, words), repr(text)

@@ -120,6 +120,19 @@ def test_occupancy_outside_unit_is_told():
     assert screen_pdb_records("x", odd) is True
 
 
+def test_occupancy_outside_unit_matches_float_reading():
+    """Every ``%6.2f`` occupancy from -1.50 to 12.00, and zero-padded ones, told as ``float()`` reads them."""
+    good = b"ATOM      1  N   ALA A   1      11.104   6.134  -6.504  1.00 20.00           N\n"
+    fields = [f"{v / 100:6.2f}".encode() for v in range(-150, 1201, 7)]
+    fields += [b"001.00", b"000.99", b"001.01", b" 00.50", b" -0.00", b"  1.00", b"  0.00", b"  1.01"]
+    for field in fields:
+        line = good.replace(b"  1.00 20.00", field + b" 20.00")
+        want = not 0.0 <= float(field) <= 1.0 or field.strip().startswith(b"-")
+        assert screen_pdb_records("x", line * 3) is want, field
+        mixed = good * 2 + line  # the odd record among plain ones
+        assert screen_pdb_records("x", mixed) is want, field
+
+
 def _reference_rings(g, sizes):
     """Breadth-first search over every bond (no pruning)."""
     max_size, rings = max(sizes), set()

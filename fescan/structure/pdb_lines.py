@@ -151,14 +151,14 @@ _CLASS[ord("\r")] = _CRC
 _CLASS_TABLE = bytes(_CLASS.tolist())
 
 
-def _classes(raw: np.ndarray) -> np.ndarray:
-    """Character class of every byte of ``raw`` (2-D uint8), as a C-contiguous array of the same shape.
+def _classes(data: bytes) -> np.ndarray:
+    """Character class of every byte of the text, as a uint8 array.
 
     ``bytes.translate`` maps the bytes through the class table in compiled code, about
-    twice as fast as numpy's ``take`` (which first widens every byte to an index).
+    twice as fast as numpy's ``take`` (which first widens every byte to an index); the
+    whole text is mapped once, and the records' rows gathered from the result.
     """
-    flat = np.ascontiguousarray(raw).tobytes().translate(_CLASS_TABLE)
-    return np.frombuffer(flat, dtype=np.uint8).reshape(raw.shape)
+    return np.frombuffer(data.translate(_CLASS_TABLE), dtype=np.uint8)
 
 
 def _key_of(classes) -> int:
@@ -207,14 +207,14 @@ def _record_starts(buf: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return starts[rec], (ends - starts)[rec]
 
 
-def _rows(buf: np.ndarray, starts: np.ndarray) -> np.ndarray:
-    """The ``_WIDTH`` bytes from each start, one row per record (zeros past the end of the text)."""
-    if len(buf) >= _WIDTH:
-        inside = starts <= len(buf) - _WIDTH
+def _rows(buf: np.ndarray, starts: np.ndarray, width: int = _WIDTH) -> np.ndarray:
+    """The ``width`` bytes from each start, one C-contiguous row per record (zeros past the end of the text)."""
+    if len(buf) >= width:
+        inside = starts <= len(buf) - width
         if inside.all():  # the usual case: no copy of the whole text to pad it
-            return np.lib.stride_tricks.sliding_window_view(buf, _WIDTH)[starts]
-    padded = np.concatenate((buf, np.zeros(_WIDTH, dtype=np.uint8)))
-    return np.lib.stride_tricks.sliding_window_view(padded, _WIDTH)[starts]
+            return np.lib.stride_tricks.sliding_window_view(buf, width)[starts]
+    padded = np.concatenate((buf, np.zeros(width, dtype=np.uint8)))
+    return np.lib.stride_tricks.sliding_window_view(padded, width)[starts]
 
 
 def _field_key(classes: np.ndarray, first: int, width: int) -> np.ndarray:
@@ -237,13 +237,13 @@ def _blank_tail(classes: np.ndarray, length: np.ndarray, first: int) -> np.ndarr
     return ok.all(axis=1) & (length <= _WIDTH)
 
 
-def _standard(raw: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _standard(text_classes: np.ndarray, starts: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Records in the standard layout, and which of them have a written (not blank) occupancy.
 
     Never passes a record :func:`record_problem` would refuse (the tests pit the two
     against each other on real and damaged records).
     """
-    classes = _classes(raw[:, :_KEYED])  # C-contiguous (n, _KEYED): the columns the keys read
+    classes = _rows(text_classes, starts, _KEYED)  # C-contiguous (n, _KEYED): the columns the keys read
     ok = length >= 54
     ok &= np.isin(_field_key(classes, 6, 5), _SERIAL_KEYS)
     ok &= np.isin(_field_key(classes, 22, 4), _RESSEQ_KEYS)
@@ -257,10 +257,31 @@ def _standard(raw: np.ndarray, length: np.ndarray) -> tuple[np.ndarray, np.ndarr
     full = ok & occ_six & b_six
     rest = np.flatnonzero(ok & ~full)  # short or unusual tails: looked at only for these rows
     if len(rest):
-        sub_c, sub_l = _classes(raw[rest]), length[rest]  # every column of these few rows
+        sub_c, sub_l = _rows(text_classes, starts[rest]), length[rest]  # every column of these few rows
         tail = (occ_six[rest] & _blank_tail(sub_c, sub_l, 60)) | _blank_tail(sub_c, sub_l, 54)
         full[rest[tail]] = True
     return full, occ_number
+
+
+_OCC_ZERO = int.from_bytes(b"  0.", "little")  # "  0.dd": 0.00 to 0.99
+_OCC_ONE = int.from_bytes(b"  1.00", "little")
+
+
+def _occupancy_outside_rows(buf: np.ndarray, starts: np.ndarray) -> bool:
+    """Whether any ``%6.2f`` occupancy (columns 55-60) of the records starting at ``starts`` is negative or above 1.
+
+    Nearly every deposited occupancy is written ``  0.dd`` or ``  1.00``: the columns of
+    each record are read as one number and compared with those two; only when a record
+    is written otherwise are the digits read (:func:`_occupancy_outside`).
+    """
+    if not len(starts):
+        return False
+    occ = _rows(buf, starts + 54, 8)  # columns 55-62, C-contiguous
+    word = occ.view("<u8").reshape(-1)
+    plain = ((word & np.uint64(0xFFFFFFFF)) == _OCC_ZERO) | ((word & np.uint64(0xFFFFFFFFFFFF)) == _OCC_ONE)
+    if plain.all():
+        return False
+    return _occupancy_outside(occ[:, :6])
 
 
 def _occupancy_outside(occ: np.ndarray) -> bool:
@@ -309,9 +330,8 @@ def screen_pdb_records(name: str, data: bytes) -> bool:
     starts, length = _record_starts(buf)
     if not len(starts):
         return False
-    raw = _rows(buf, starts)
-    standard, occ_written = _standard(raw, length)
-    suspect = _occupancy_outside(raw[:, 54:60][standard & occ_written])
+    standard, occ_written = _standard(_classes(data), starts, length)
+    suspect = _occupancy_outside_rows(buf, starts[standard & occ_written])
     for k in np.flatnonzero(~standard).tolist():
         start = int(starts[k])
         line = data[start:start + int(length[k])]
