@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy.spatial import cKDTree
 
-from fescan.core.neighbours import NeighbourTree
+from fescan.core.neighbours import NeighbourTree, atom_distance
 from tests.datafiles import entry_path, requires_shared
 
 
@@ -94,3 +94,12 @@ def test_distinct_equals_numpy_unique():
     for values in (rng.integers(0, 50, 500), rng.normal(size=200).round(1), np.array([], dtype=np.int64),
                    np.array([b"SF4", b"FES", b"SF4", b"HEM"]), np.array([3.0, np.nan, 1.0, np.nan])):
         assert np.array_equal(distinct(values), np.unique(values), equal_nan=values.dtype.kind == "f")
+
+
+def test_atom_distance_is_numpy_norm_of_the_difference():
+    """Window lengths keep ``np.linalg.norm``'s arithmetic exactly (sqrt of the dot product): bit-equal."""
+    rng = np.random.default_rng(17)
+    a = np.round(rng.uniform(-300, 300, (5000, 3)), 3)  # PDB-like 3-decimal coordinates
+    b = a + np.round(rng.normal(0, 2.5, (5000, 3)), 3)
+    for x, y in zip(a, b):
+        assert atom_distance(x, y) == float(np.linalg.norm(x - y))

@@ -482,7 +482,7 @@ def _other_copies(g, cofactors, options, w: Wire, reservoirs, reservoirs_file) -
     for comp in sorted(nx.connected_components(u), key=lambda c: min(order[n] for n in c)):
         if comp is main or comp == main or sig(comp) != sig(main):
             continue
-        sub = g.subgraph(comp)
+        sub = g.subgraph(comp).copy()  # a plain graph: the views trace_wire takes of it stay one level deep
         cofs = [c for c in cofactors if c.uid in comp]
         cw = trace_wire(sub, cofs, options, choose_endpoints(sub, cofs, options), reservoirs, reservoirs_file,
                         copies=False)
