@@ -198,3 +198,22 @@ def test_1kf6_each_copy_gets_its_own_wire():
     assert "fumarate reductase" in other["how_chosen"]
     assert not any(h.crystal_contact for _, _, h in r.graph.edges(data="hop"))
     json.dumps(r.to_dict(), allow_nan=False)
+
+
+@pytest.mark.parametrize("pdb_id", ["6LK1", "1KF6"])
+def test_assemblies_read_alike_from_pdb_and_mmcif(pdb_id, tmp_path):
+    # A PDB file names an assembly's author chains (REMARK 350), an mmCIF file its label_asym_id
+    # subchains (wwPDB mmCIF dictionary, _pdbx_struct_assembly_gen.asym_id_list): the crystal-contact
+    # flags must not depend on the format. SOURCES.md: 6LK1 has two single-chain assemblies (A, B),
+    # so its one hop between the copies is a possible crystal contact; 1KF6's assembly 3 joins its two.
+    st = gemmi.read_structure(str(entry_path(pdb_id)))
+    st.setup_entities()
+    cif = tmp_path / f"{pdb_id}.cif"
+    st.make_mmcif_document().write_file(str(cif))
+    flags = {}
+    for path in (entry_path(pdb_id), cif):
+        pairs = fescan.scan(path).to_dict()["pairs"]
+        flags[path.suffix] = sorted((p["first"], p["second"], round(p["edge_distance"], 2),
+                                     p["possible_crystal_contact"]) for p in pairs)
+    assert flags[".pdb"] == flags[".cif"]
+    assert any(flag for *_, flag in flags[".pdb"]) is (pdb_id == "6LK1")

@@ -305,10 +305,23 @@ WIRE_ROLES = frozenset({"relay", "catalytic"})
 
 
 def _assembly_chains(st: Any) -> list[set[str]]:
-    """Author chain names of each biological assembly the file declares (PDB REMARK 350 style)."""
+    """Author chain names of each biological assembly the file declares.
+
+    A PDB file names the assembly's author chains (REMARK 350); an mmCIF file names
+    its label_asym_id subchains (``_pdbx_struct_assembly_gen.asym_id_list``), which are
+    mapped to the author chains that hold them, so both formats give the same copies.
+    """
     out = []
+    owner: dict[str, str] | None = None
     for asm in getattr(st, "assemblies", []):
-        chains = {c for gen in asm.generators for c in gen.chains}
+        chains: set[str] = set()
+        for gen in asm.generators:
+            chains.update(gen.chains)
+            if len(gen.subchains):
+                if owner is None:
+                    owner = {span.subchain_id(): ch.name for ch in (st[0] if len(st) else [])
+                             for span in ch.subchains()}
+                chains.update(owner[s] for s in gen.subchains if s in owner)
         if chains:
             out.append(chains)
     return out
