@@ -743,3 +743,98 @@ def test_deposited_pdb_cut_at_a_record_boundary_is_noted(tmp_path):
     info = read_structure(cut).info
     assert any("truncated" in n for n in info.notes)
     assert read_structure(entry_path("1FDN")).info.notes == ()
+
+
+def _without_atom_site_columns(src: Path, dst: Path, tags: tuple[str, ...]) -> None:
+    doc = gemmi.cif.read(str(src))
+    block = doc.sole_block()
+    loop = block.find_loop("_atom_site.id").get_loop()
+    for tag in tags:
+        if "_atom_site." + tag in loop.tags:  # gemmi leaves out some columns it does not need
+            loop.remove_column("_atom_site." + tag)
+    doc.write_file(str(dst))
+
+
+@requires_shared
+def test_mmcif_without_author_residue_numbers_keeps_residues_apart(tmp_path):
+    # SOURCES.md: 4CRM holds two [4Fe-4S] clusters, SF4 P/1610 and P/1611, listed one after the
+    # other; without _atom_site.auth_seq_id (wwPDB mmCIF dictionary: the author residue number)
+    # they share gemmi's unset number and would read as one 16-atom residue
+    import fescan
+
+    plain = tmp_path / "no_auth_seq.cif"
+    _without_atom_site_columns(entry_path("4CRM"), plain, ("auth_seq_id",))
+    loaded = read_structure(plain)
+    assert any("no author residue numbers" in n for n in loaded.info.notes)
+    sf4 = [r for ch in loaded.model for r in ch if r.name == "SF4"]
+    assert [len(r) for r in sf4] == [8, 8]
+    waters = sum(1 for ch in loaded.model for r in ch if r.name == "HOH")
+    original = read_structure(entry_path("4CRM"))
+    assert waters == sum(1 for ch in original.model for r in ch if r.name == "HOH")  # one water per O
+    got, want = fescan.scan(plain).to_dict(), fescan.scan(entry_path("4CRM")).to_dict()
+    assert [c["class"] for c in got["cofactors"]] == [c["class"] for c in want["cofactors"]]
+    assert [p["edge_distance"] for p in got["pairs"]] == pytest.approx([p["edge_distance"] for p in want["pairs"]],
+                                                                      abs=1e-3)
+    assert len(got["wire"]["path"]) == len(want["wire"]["path"]) == 2
+
+
+@requires_shared
+def test_mmcif_with_label_columns_only_reads_like_the_pdb_file(tmp_path):
+    # SOURCES.md: 1BE3 (bovine bc1) holds a Rieske [2Fe-2S] (two His, two Cys ligands) and hemes;
+    # the same structure written as mmCIF with only the label_* identifiers must read alike
+    import fescan
+
+    full, bare = tmp_path / "1be3.cif", tmp_path / "1be3_label_only.cif"
+    st = gemmi.read_structure(str(entry_path("1BE3")))
+    st.setup_entities()
+    st.make_mmcif_document().write_file(str(full))
+    _without_atom_site_columns(full, bare, ("auth_seq_id", "auth_asym_id", "auth_comp_id", "auth_atom_id"))
+    got, want = fescan.scan(bare).to_dict(), fescan.scan(entry_path("1BE3")).to_dict()
+    assert sorted((c["class"], len(c["ligands"])) for c in got["cofactors"]) == \
+        sorted((c["class"], len(c["ligands"])) for c in want["cofactors"])
+    assert sorted(p["edge_distance"] for p in got["pairs"]) == pytest.approx(
+        sorted(p["edge_distance"] for p in want["pairs"]), abs=1e-3)
+
+
+def _split_residue_text(lines: list[str], key: str) -> str:
+    """The second half of residue ``key`` (columns 18-26, e.g. 'FAD A 721') moved after the other HETATMs."""
+    rows = [i for i, ln in enumerate(lines) if ln[:6] == "HETATM" and ln[17:26] == key]
+    moved = set(rows[len(rows) // 2:])
+    kept = [ln for i, ln in enumerate(lines) if i not in moved]
+    end = next(i for i, ln in enumerate(kept) if ln.startswith(("CONECT", "MASTER", "END")))
+    return "\n".join(kept[:end] + [lines[i] for i in sorted(moved)] + kept[end:]) + "\n"
+
+
+@requires_shared
+def test_residue_split_into_two_runs_is_joined(tmp_path):
+    # wwPDB format guide 3.3 (ATOM/HETATM): a residue's records follow one another. SOURCES.md: 1KF6's
+    # wire runs F3S B/245 - SF4 B/246 - FES B/244 - FAD A/721; with half of the FAD listed after the
+    # other HETATMs, gemmi reads two residues A/721 FAD, which must become one again
+    import fescan
+
+    lines = entry_path("1KF6").read_text().splitlines()
+    split = tmp_path / "split_fad.pdb"
+    split.write_text(_split_residue_text(lines, "FAD A 721"))
+    loaded = read_structure(split)
+    assert any("A/721 FAD" in n and "joined" in n for n in loaded.info.notes)
+    assert sum(1 for r in loaded.model["A"] if r.name == "FAD") == 1
+    got, want = fescan.scan(split).to_dict(), fescan.scan(entry_path("1KF6")).to_dict()
+    assert len(got["cofactors"]) == len(want["cofactors"])
+    assert got["wire"]["path"] == want["wire"]["path"]
+    assert [h["edge_distance"] for h in got["wire"]["hops"]] == pytest.approx(
+        [h["edge_distance"] for h in want["wire"]["hops"]], abs=1e-3)
+
+
+def test_two_residues_sharing_an_identifier_stay_apart(tmp_path):
+    # two complete copies of one ligand under one identifier (same atom names), another chain's record
+    # between them (gemmi joins records of one identifier only within one run of a chain): not a split
+    # residue (common practice, no source)
+    atom = "HETATM{serial:5d}  {name:<3} LIG A 900    {x:8.3f}   0.000   0.000  1.00 20.00           {el:>2}"
+    first = [atom.format(serial=k + 1, name=n, x=1.5 * k, el=n[0]) for k, n in enumerate(("C1", "C2", "O3"))]
+    water = "HETATM   10  O   HOH B 950      30.000   0.000   0.000  1.00 20.00           O"  # another chain between
+    second = [atom.format(serial=k + 20, name=n, x=40 + 1.5 * k, el=n[0]) for k, n in enumerate(("C1", "C2", "O3"))]
+    path = tmp_path / "twins.pdb"
+    path.write_text("\n".join(first + [water] + second + ["END"]) + "\n")
+    loaded = read_structure(path)
+    assert sum(1 for r in loaded.model["A"] if r.name == "LIG") == 2
+    assert any("share the identifier A/900 LIG" in n for n in loaded.info.notes)

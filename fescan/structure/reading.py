@@ -80,6 +80,7 @@ from fescan.structure.altlocs import (
     model_numbers,
     remove_empty_residues,
 )
+from fescan.structure.cif_numbering import number_residues_without_author_numbers
 from fescan.structure.header_codes import codes_from_block, codes_from_pdb_header
 from fescan.structure.pdb_lines import screen_pdb_records
 from fescan.structure.rawtext import first_record, is_binary, normalise_text, read_text
@@ -95,6 +96,7 @@ from fescan.structure.sanity import (
     check_residue_sizes,
     occupancy_notes,
 )
+from fescan.structure.split_residues import join_split_residues
 
 __all__ = [
     "ALTLOC_POLICIES",
@@ -323,8 +325,8 @@ def read_structure(
     data, compressed = read_text(name)
     data, text_notes = normalise_text(data)
     file_format = _check_text(name, data)
-    st, block, occupancy_suspect = _parse(name, data, file_format)
-    notes = _file_notes(file_format, data) + text_notes
+    st, block, occupancy_suspect, parse_notes = _parse(name, data, file_format)
+    notes = _file_notes(file_format, data) + text_notes + parse_notes
     header_codes, refinement = _header_facts(file_format, data, block)
     del data
 
@@ -355,6 +357,7 @@ def read_structure(
                 f"{name}: model {numbers[index]} has only hydrogen atoms"
                 " (pass keep_hydrogens=True to keep them)"
             )
+    notes += tuple(join_split_residues(chosen))
     check_residue_sizes(name, chosen)
     check_metal_aggregates(name, chosen)
     notes += occupancy_notes(chosen, occupancy_suspect)
@@ -440,11 +443,13 @@ def _check_text(name: str, data: bytes) -> str:
 
 def _parse(
     name: str, data: bytes, file_format: str
-) -> tuple[gemmi.Structure, gemmi.cif.Block | None, bool]:
-    """Parse with gemmi; return the structure, the block (mmCIF/mmJSON) and whether a PDB occupancy is outside [0, 1]."""
+) -> tuple[gemmi.Structure, gemmi.cif.Block | None, bool, tuple[str, ...]]:
+    """Parse with gemmi; return the structure, the block (mmCIF/mmJSON), whether a PDB occupancy is
+    outside [0, 1], and notes on what was supplied (residue numbers of an mmCIF file without them)."""
     if data.startswith(_UTF8_BOM):
         data = data[len(_UTF8_BOM) :]
     occupancy_suspect = False
+    numbering = None
     if file_format == "pdb":
         occupancy_suspect = screen_pdb_records(name, data)
         try:
@@ -460,6 +465,7 @@ def _parse(
             else:
                 doc = gemmi.cif.read_mmjson_string(data)
             block = _atom_block(doc)
+            numbering = number_residues_without_author_numbers(block)
         except Exception as exc:
             text = _gemmi_text(exc)
             hint = " (truncated or damaged file?)" if "number of values" in text else ""
@@ -475,7 +481,8 @@ def _parse(
                 f"{name}: malformed {label} file ({_gemmi_text(exc)})"
             ) from exc
     st.merge_chain_parts()  # as gemmi.read_structure does
-    return st, block, occupancy_suspect
+    notes = (numbering,) if file_format != "pdb" and numbering else ()
+    return st, block, occupancy_suspect, notes
 
 
 def _gemmi_text(exc: BaseException) -> str:
