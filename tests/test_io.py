@@ -838,3 +838,23 @@ def test_two_residues_sharing_an_identifier_stay_apart(tmp_path):
     loaded = read_structure(path)
     assert sum(1 for r in loaded.model["A"] if r.name == "LIG") == 2
     assert any("share the identifier A/900 LIG" in n for n in loaded.info.notes)
+
+
+@requires_shared
+@pytest.mark.parametrize("pdb_id", ["4CRM", "3EK3"])
+def test_mmcif_cut_inside_the_atom_list_is_told(pdb_id, tmp_path):
+    # wwPDB mmCIF files close every category with a '#' line (the deposited 4CRM and 3EK3 of
+    # ../shared/structures do; common practice, no source): a deposited file that ends on an atom
+    # row was cut, and says so; the whole file and the cut one rewritten by gemmi (whose atom list is
+    # not its last category) do not
+    data = entry_path(pdb_id).read_bytes()
+    lines = data.split(b"\n")
+    rows = [i for i, ln in enumerate(lines) if ln.startswith(b"ATOM")]
+    cut = tmp_path / "cut.cif"
+    cut.write_bytes(b"\n".join(lines[: rows[len(rows) // 2]]) + b"\n")
+    told = "may be truncated"
+    assert any(told in n for n in read_structure(cut).info.notes)
+    assert not any(told in n for n in read_structure(entry_path(pdb_id)).info.notes)
+    written = tmp_path / "written.cif"
+    gemmi.read_structure(str(cut)).make_mmcif_document().write_file(str(written))
+    assert not any(told in n for n in read_structure(written).info.notes)

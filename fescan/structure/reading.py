@@ -422,7 +422,24 @@ def _file_notes(file_format: str, data: bytes) -> tuple[str, ...]:
     if file_format == "pdb" and _HEADER_REC.search(data[:4096]) and not _END_REC.search(data[-4096:]):
         return ("a deposited-style PDB file (HEADER record) without its END record: the file may be "
                 "truncated and atoms missing",)
+    if file_format == "mmcif" and _ends_inside_atom_list(data):
+        return ("a deposited-style mmCIF file (_database_2) whose last line is an atom row, with no '#' "
+                "closing the atom list: the file may be truncated and atoms missing",)
     return ()
+
+
+def _ends_inside_atom_list(data: bytes) -> bool:
+    """Whether a deposited-style mmCIF text ends on an atom row.
+
+    wwPDB files close every category with a ``#`` line (the atom list too, when it
+    is the last category; common practice, no source), so a deposited file ending on
+    an ``ATOM``/``HETATM`` row was most likely cut. Files written by other programs,
+    which may end anywhere, are not judged: only those naming their entry in
+    ``_database_2``.
+    """
+    tail = data[-4096:].rstrip()
+    last = tail[tail.rfind(b"\n") + 1:]
+    return last.startswith((b"ATOM", b"HETATM")) and data.find(b"\n_database_2.", 0, 1 << 20) >= 0
 
 
 def _check_text(name: str, data: bytes) -> str:
