@@ -341,3 +341,78 @@ def test_unchanged_hop_is_never_implausible(tmp_path):
     assert r.problems() == []
     v = r.to_dict()["verdict"]
     assert any("unchanged and already over" in n for n in v["notes"]), v["notes"]
+
+
+# --------------------------------------------------------------------------- relabelled chains, unrelated proteins
+
+
+def _relabel(st: gemmi.Structure, new: dict[str, str]) -> None:
+    """Rename chains at once (through temporary names, so a cycle of names does not collide)."""
+    for ch in st[0]:
+        if ch.name in new:
+            ch.name = "tmp_" + new[ch.name]
+    for ch in st[0]:
+        if ch.name.startswith("tmp_"):
+            ch.name = ch.name[4:]
+
+
+def test_chain_labels_swapped_between_subunits_change_nothing(tmp_path):
+    # SOURCES.md: 1YQ9 holds a small subunit A (the three Fe-S clusters) and a large subunit H (the
+    # NiFe site); with their labels swapped each chain must still pair with its own protein, so the
+    # comparison finds no change at all
+    st = gemmi.read_structure(str(entry_path("1YQ9")))
+    _relabel(st, {"A": "H", "H": "A"})
+    path = rewrite.write(st, tmp_path / "1yq9_swapped_labels.pdb")
+    r = compare(path, entry_path("1YQ9"))
+    assert {(c["model_chain"], c["reference_chain"]) for c in r.superposition.chains} == {("H", "A"), ("A", "H")}
+    assert r.n_changes == 0 and not r.missing and not r.extra
+    assert all(m.displacement < 1e-3 for m in r.matches)
+
+
+def test_copies_with_swapped_labels_report_a_true_fit(tmp_path):
+    # SOURCES.md: 6LK1 holds two copies of one ferredoxin (chains A and B). With the labels swapped,
+    # the pairing by name superposes one copy on the other, a rotation close to a 2-fold: the RMSD the
+    # comparison reports must be that of the transform it applies (recomputed here on the Cα atoms)
+    st = gemmi.read_structure(str(entry_path("6LK1")))
+    _relabel(st, {"A": "B", "B": "A"})
+    path = rewrite.write(st, tmp_path / "6lk1_swapped.pdb")
+    r = compare(path, entry_path("6LK1"))
+    fit = r.superposition
+    assert fit.method == "protein chains" and fit.rmsd < 1.0
+    ref, mod = gemmi.read_structure(str(entry_path("6LK1")))[0], gemmi.read_structure(str(path))[0]
+    dev = []
+    for name in ("A", "B"):
+        want = {(res.seqid.num, res.name): res["CA"][0].pos.tolist() for res in ref[name] if res.find_atom("CA", "*")}
+        for res in mod[name]:
+            key = (res.seqid.num, res.name)
+            if key in want and res.find_atom("CA", "*"):
+                dev.append(np.linalg.norm(fit.apply(np.asarray([res["CA"][0].pos.tolist()]))[0] - want[key]))
+    assert len(dev) > 150
+    assert float(np.sqrt(np.mean(np.square(dev)))) < 1.0  # the transform applied is the one reported
+
+
+def test_unrelated_proteins_pair_no_chains_and_say_the_fit_is_unfounded():
+    # 1FDN (a 55-residue ferredoxin) and 2FUG (complex I hydrophilic arm) share no protein (SOURCES.md):
+    # no chain pair may pass the identity test, and two cofactor centres cannot found a superposition
+    r = compare(entry_path("1FDN"), entry_path("2FUG"))
+    from fescan.comparison.verdict import verdict
+
+    assert not r.superposition.chains
+    notes = " ".join(verdict(r)["notes"])
+    assert "superposition" in notes and ("says nothing" in notes or "poor" in notes)
+
+
+def test_a_potential_changed_by_context_is_named(tmp_path):
+    # SOURCES.md: 2FUG's terminal [4Fe-4S] 6/182 (N2 by context); without it, the neighbouring 9/183
+    # may take the N2 default instead (a context rule): the ΔG change of its hops must be explained
+    from fescan.comparison.verdict import potential_changes
+
+    st = gemmi.read_structure(str(entry_path("2FUG")))
+    rewrite.remove_residue(st, "6", 182)
+    path = rewrite.write(st, tmp_path / "2fug_without_6_182.pdb")
+    r = compare(path, entry_path("2FUG"))
+    changed = {m.reference for m in r.matches
+               if abs(r.reference.potentials[m.reference].e_v - r.model.potentials[m.model].e_v) > 1e-3}
+    notes = potential_changes(r)
+    assert changed and len(notes) == len(changed)
+    assert all("potential used" in n for n in notes)

@@ -5,10 +5,10 @@ matches their cofactors:
 
 1. **Superposition.** Protein chains are paired by sequence (gemmi
    ``align_string_sequences`` on residue names; same-named chains first, the rest
-   by a Hungarian assignment on identical residues; ≥ 30 % identity), and the Cα
-   atoms of aligned residues are superposed with gemmi's QCP fit,
-   ``superpose_positions(reference, model)`` (its transform moves the *second* list
-   onto the first), dropping pairs farther apart than max(2 Å, 2 × RMSD) for up to
+   by a Hungarian assignment on identical residues; ≥ 30 % identity over the aligned
+   span, so residues scattered over an unrelated chain do not count), and the Cα
+   atoms of aligned residues are superposed by least squares (:func:`kabsch`, numpy
+   SVD), dropping pairs farther apart than max(2 Å, 2 × RMSD) for up to
    three cycles. Without three aligned Cα pairs, or when that fit is poor (RMSD over
    3 Å) and the cofactor centres fit better, the cofactor centres are fitted
    instead (Kabsch, numpy) on class-matched partners, iterated to a fixed point.
@@ -68,6 +68,8 @@ log = logging.getLogger(__name__)
 _MISLIGATION = frozenset({"missing_ligand", "non_cys_ligand", "extra_ligand", "class_mismatch", "incomplete_cluster"})
 _CIGAR = re.compile(r"(\d+)([MID])")
 _MIN_IDENTITY = 0.3
+#: A same-named chain pair this identical (over the aligned span) is taken without looking further.
+_SAME_PROTEIN = 0.9
 #: A protein superposition worse than this (Å RMSD) is checked against the cofactor-centre fit.
 _POOR_RMSD = 3.0
 _BIG = 1e9
@@ -188,8 +190,14 @@ def _protein_chains(model: gemmi.Model) -> list[_Chain]:
     return out
 
 
-def _aligned(r: _Chain, m: _Chain) -> tuple[list[tuple[int, int]], int]:
-    """Aligned index pairs (ref, model) and the number of identical residues."""
+def _aligned(r: _Chain, m: _Chain) -> tuple[list[tuple[int, int]], int, int]:
+    """Aligned index pairs (ref, model), the number of identical residues, and the aligned span.
+
+    The span is the longer of the two stretches the aligned pairs cover (first to last
+    pair, gaps inside included). gemmi's global alignment may scatter a short chain's
+    residues over a long unrelated one, one identical residue here and there; counted
+    over the span, such scattered matches give a low identity, as they should.
+    """
     aln = gemmi.align_string_sequences(r.names, m.names, [])
     pairs, i, j = [], 0, 0
     for n, op in _CIGAR.findall(aln.cigar_str()):
@@ -201,22 +209,33 @@ def _aligned(r: _Chain, m: _Chain) -> tuple[list[tuple[int, int]], int]:
             i += n
         else:
             j += n
-    return pairs, sum(1 for a, b in pairs if r.names[a] == m.names[b])
+    same = sum(1 for a, b in pairs if r.names[a] == m.names[b])
+    span = max(pairs[-1][0] - pairs[0][0], pairs[-1][1] - pairs[0][1]) + 1 if pairs else 0
+    return pairs, same, span
 
 
 def _pair_chains(ref: list[_Chain], mod: list[_Chain]) -> list[tuple[_Chain, _Chain, list[tuple[int, int]]]]:
+    """Pairs of (reference, model) chains holding the same protein, with their aligned residues.
+
+    A same-named pair at ≥ 90 % identity over its aligned span is taken at once (the
+    usual case: nothing renamed). Every other chain is paired by a Hungarian assignment
+    on identical residues over all remaining pairs of ≥ 30 % identity, a same name
+    only breaking ties (two copies of one protein keep their names), so chains whose
+    labels were swapped between different subunits still find their partners.
+    """
     out, used_r, used_m = [], set(), set()
 
-    def good(r, m, same):
-        return same >= max(3, _MIN_IDENTITY * min(len(r.names), len(m.names)))
+    def good(aligned, share=_MIN_IDENTITY):
+        _, same, span = aligned
+        return same >= max(3, share * span)
 
     by_name = {m.name: m for m in mod}
     for r in ref:
         m = by_name.get(r.name)
         if m is not None:
-            pairs, same = _aligned(r, m)
-            if good(r, m, same):
-                out.append((r, m, pairs))
+            aligned = _aligned(r, m)
+            if good(aligned, _SAME_PROTEIN):
+                out.append((r, m, aligned[0]))
                 used_r.add(r.name)
                 used_m.add(m.name)
     rest_r = [r for r in ref if r.name not in used_r]
@@ -227,7 +246,8 @@ def _pair_chains(ref: list[_Chain], mod: list[_Chain]) -> list[tuple[_Chain, _Ch
         for a, r in enumerate(rest_r):
             for b, m in enumerate(rest_m):
                 cache[a, b] = _aligned(r, m)
-                score[a, b] = cache[a, b][1] if good(r, m, cache[a, b][1]) else 0.0
+                if good(cache[a, b]):
+                    score[a, b] = cache[a, b][1] + (0.5 if r.name == m.name else 0.0)
         for a, b in zip(*linear_sum_assignment(-score)):
             if score[a, b] > 0:
                 out.append((rest_r[a], rest_m[b], cache[a, b][0]))
@@ -263,15 +283,15 @@ def _protein_fit(ref_model, mod_model):
     pr, pm = np.asarray(pr), np.asarray(pm)
     keep = np.ones(len(pr), bool)
     for _ in range(3):
-        sup = gemmi.superpose_positions([gemmi.Position(*x) for x in pr[keep]],
-                                        [gemmi.Position(*x) for x in pm[keep]])
-        rot, t = np.asarray(sup.transform.mat.tolist()), np.asarray(sup.transform.vec.tolist())
+        # least squares by SVD (kabsch): robust for any rotation, a copy's 2-fold included
+        rot, t, rmsd = kabsch(pm[keep], pr[keep])
+        count = int(keep.sum())
         dev = np.linalg.norm(pm @ rot.T + t - pr, axis=1)
-        new = dev <= max(2.0, 2.0 * sup.rmsd)
+        new = dev <= max(2.0, 2.0 * rmsd)
         if new.sum() < 3 or (new == keep).all():
             break
         keep = new
-    fit = replace(_superposition("protein chains", rot, t, sup.rmsd, sup.count, cmap), chains=tuple(chains))
+    fit = replace(_superposition("protein chains", rot, t, rmsd, count, cmap), chains=tuple(chains))
     return fit, resmap, corresponding, cmap, tuple(chains)
 
 

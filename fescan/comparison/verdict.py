@@ -13,7 +13,8 @@ from fescan.analysis.scan import CAUTION
 if TYPE_CHECKING:
     from fescan.comparison.compare import CompareResult
 
-__all__ = ["hop_problems", "verdict", "cofactor_label", "ligand_words", "counterpart", "inherited_notes"]
+__all__ = ["hop_problems", "verdict", "cofactor_label", "ligand_words", "counterpart", "inherited_notes",
+           "potential_changes"]
 
 
 def cofactor_label(res: Any, uid: str | None) -> str:
@@ -117,8 +118,10 @@ def verdict(result: CompareResult) -> dict[str, Any]:
             notes.append(f"{cofactor_label(ref, m.reference)}: " + ", ".join(words) + " (details under Cofactors)")
     for m in result.moved():
         notes.append(f"{cofactor_label(ref, m.reference)} moved {m.displacement:.2f} Å")
+    notes += potential_changes(result)
     if mod.wire.path and list(mod.wire.path) != [counterpart(result, u) for u in ref.wire.path]:
         notes.append("the model's fastest path differs: " + " > ".join(cofactor_label(mod, u) for u in mod.wire.path))
+        notes += _model_path_problems(result)
     fit = result.superposition
     if fit.note:
         notes.insert(0, fit.note)
@@ -126,8 +129,48 @@ def verdict(result: CompareResult) -> dict[str, Any]:
         notes.insert(0, f"the superposition is poor ({fit.method}, {fit.n_pairs} pairs"
                         + (f", RMSD {fit.rmsd:.1f} Å" if fit.rmsd is not None else "")
                         + "): the two structures may not be the same protein; matches by position are unreliable")
+    elif fit.n_pairs < 3:
+        notes.insert(0, f"the superposition rests on {fit.n_pairs} {fit.method[:-1] if fit.n_pairs == 1 else fit.method}"
+                        " only (one pair fixes a shift, two leave a rotation free): its RMSD says nothing about "
+                        "the fit, and matches by position are unreliable")
     notes.append(CAUTION)
     return {"summary": summary, "problems": probs, "notes": notes}
+
+
+def potential_changes(result: CompareResult) -> list[str]:
+    """Matched cofactors whose potential on the wire differs between the two scans, and why.
+
+    A cofactor's default potential may come from its context (a sub-class known from
+    its neighbours): when the model lacks a neighbour, its partner may fall back to a
+    class default, and the hop's ΔG changes though no atom moved.
+
+    Returns
+    -------
+    list of str
+        One note per cofactor whose potential changed (more than 1 mV).
+    """
+    out = []
+    for m in result.matches:
+        a, b = result.reference.potentials.get(m.reference), result.model.potentials.get(m.model)
+        if a is None or b is None or abs(a.e_v - b.e_v) <= 1e-3:
+            continue
+        out.append(f"{cofactor_label(result.reference, m.reference)}: potential used {a.e_v:+.3f} V in the "
+                   f"reference ({a.basis or a.origin}), {b.e_v:+.3f} V in the model ({b.basis or b.origin}); "
+                   "the ΔG of its hops changes with it")
+    return out
+
+
+def _model_path_problems(result: CompareResult) -> list[str]:
+    """Gaps and slow hops on the model's own path (when it differs from the reference's)."""
+    mod = result.model
+    out = []
+    for h in mod.wire.hops:
+        if h.gap or h.slow:
+            what = "over the gap limit" if h.gap else "slower than the rate threshold"
+            out.append(f"the model's path has a hop {what}: {cofactor_label(mod, h.donor)} > "
+                       f"{cofactor_label(mod, h.acceptor)}, {h.edge:.2f} Å, hop time {h.hop_time:.3g} s "
+                       "(model estimate)")
+    return out
 
 
 def inherited_notes(result: CompareResult) -> list[str]:
