@@ -106,3 +106,82 @@ def test_readme_transcripts_are_real(argv, shown, capsys):
     out = capsys.readouterr().out.splitlines()
     for line in shown.strip().splitlines():
         assert line.rstrip() in [o.rstrip() for o in out] or line.strip() in [o.strip() for o in out], line
+
+
+def _help(argv: list[str], capsys) -> str:
+    with pytest.raises(SystemExit):
+        main(argv)
+    return " ".join(capsys.readouterr().out.split())  # argparse wraps lines: compare words
+
+
+def test_help_says_how_endpoints_are_chosen_and_lists_every_packing_value(capsys):
+    from fescan.cli.common import PACKING_VALUES, parse_packing
+    from fescan.core.errors import ConfigError
+
+    text = _help(["scan", "--help"], capsys)
+    # endpoints come from the chemistry rules of fescan.transfer.paths.choose_endpoints, not "a flavin"
+    assert "default: a flavin" not in text and "default: a quinone or heme" not in text
+    assert "chemistry rules" in text and "CuA to heme a3" in text and "longest chain" in text
+    # every value parse_packing accepts for scan is in the help, and the error lists no other
+    for value in ("a number from 0 to 1", "'measured'", "'measured*SCALE'"):
+        assert value in text, value
+    with pytest.raises(ConfigError) as err:
+        parse_packing("abc", index=False)
+    assert "index" not in str(err.value) and all(v in str(err.value) for v in PACKING_VALUES)
+    assert "'index'" not in text
+    # compare also takes index: its help and its error both say so
+    text = _help(["compare", "--help"], capsys)
+    assert "'index'" in text and "'measured*SCALE'" in text
+    with pytest.raises(ConfigError, match="or index"):
+        parse_packing("abc", index=True)
+    assert parse_packing(" Measured * 0.9 ") == {"packing": "measured", "packing_scale": 0.9}
+
+
+def test_scan_packing_index_is_one_line_naming_compare(tmp_path):
+    r = run_cli("scan", str(tmp_path / "x.pdb"), "--packing", "abc")
+    assert r.returncode == 1 and "measured*SCALE" in r.stderr and "index" not in r.stderr
+    r = run_cli("scan", str(tmp_path / "x.pdb"), "--packing", "index")
+    assert r.returncode == 1 and "fescan compare" in r.stderr and len(r.stderr.strip().splitlines()) == 1
+
+
+def test_ion_site_heading_names_only_the_elements_present():
+    from types import SimpleNamespace
+
+    from fescan.report.text import ion_site_heading
+
+    def site(*elements: str) -> SimpleNamespace:
+        return SimpleNamespace(redox_atoms=[SimpleNamespace(element=e) for e in elements])
+
+    assert ion_site_heading([site("MG", "O")]).startswith("Mg sites, listed apart")
+    assert ion_site_heading([site("ZN", "S"), site("CA")]).startswith("Zn and Ca sites,")
+    assert ion_site_heading([site("MG"), site("CA"), site("ZN")]).startswith("Zn, Ca and Mg sites,")
+    assert ion_site_heading([site("ZN"), site("ZN")]).endswith("never on a wire (2)")
+
+
+@requires_shared
+def test_magnesium_only_entry_heads_its_table_mg_sites(capsys):
+    # 4CRM holds one Mg (with ATP) and no Zn or Ca (shared/structures/SOURCES.md)
+    assert main(["scan", str(entry_path("4CRM")), "--brief"]) == 0
+    out = capsys.readouterr().out
+    assert "Mg sites, listed apart: no redox role, never on a wire (1)" in out
+    assert "Zn" not in out.split("Mg sites")[0][-40:] and "Zn, Ca and Mg" not in out
+
+
+@requires_shared
+def test_other_copy_without_a_path_says_why(capsys):
+    # 6LK1: two ferredoxin copies whose clusters meet at a possible crystal contact; each copy alone
+    # holds one cluster, so the other copy has no wire of its own
+    assert main(["scan", str(entry_path("6LK1")), "--brief"]) == 0
+    out = capsys.readouterr().out
+    assert "other copy: no path" not in out
+    line = next(ln for ln in out.splitlines() if "other copy of the complex" in ln)
+    assert "on its own" in line and "no path" in line and "fewer than two" in line
+
+
+def test_text_numbers_have_three_significant_digits_and_no_negative_zero():
+    from fescan.report.text import fixed, format_flux, format_time, signed
+
+    assert format_flux(31234.5) == "3.12×10^4 electrons/s"
+    assert format_time(2.2149e-9) == "2.21 ns" and format_time(9.9996e-4) == "1.00 ms"
+    assert format_time(float("inf")) == "-"
+    assert signed(-1e-9) == "0.000" and fixed(-0.001) == "0.00" and signed(-0.05) == "-0.050"

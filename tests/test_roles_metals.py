@@ -104,7 +104,7 @@ def test_zinc_site_stays_off_a_cluster_wire_and_apart_in_the_text(tmp_path):
     assert len(res.wire.path) == 2
     text = render_text(res)
     assert "Cofactors (2)" in text  # the redox cofactors only
-    assert "Zn, Ca and Mg sites, listed apart: no redox role, never on a wire (1)" in text
+    assert "Zn sites, listed apart: no redox role, never on a wire (1)" in text
 
 
 def test_magnesium_of_an_organic_group_seeds_no_ion(tmp_path):

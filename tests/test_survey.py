@@ -291,3 +291,43 @@ def test_timings_table_has_one_row_per_file(tmp_path):
     t = read_table(s.tables["timings"], "timings")
     assert sorted(t["file"]) == sorted(paths) and (t["seconds"] >= 0).all()
     assert "seconds" not in read_table(s.tables["structures"], "structures").columns
+
+
+# --- the terminal summary ---------------------------------------------------------------
+
+
+def test_summary_names_failed_files_and_counts_wires_of_structures(tmp_path, capsys):
+    from tests.report_fixtures import write_wire
+
+    src = tmp_path / "in"
+    src.mkdir()
+    write_wire(src / "wire.pdb", [0, 12, 24])  # three [4Fe-4S] in a row: a wire
+    write_wire(src / "single.pdb", [0])  # one cluster: a wires row without a path
+    (src / "empty.pdb").write_bytes(b"")
+    (src / "broken.pdb").write_text("garbage\n")
+    assert main(["survey", str(src), "-o", str(tmp_path / "out"), "--workers", "1"]) == 0
+    out = capsys.readouterr().out
+    assert "wires traced: 1 of 2 structures (1 without a path)" in out
+    lines = out.splitlines()
+    assert any(ln.strip().startswith(f"{src / 'empty.pdb'} (error): empty file") for ln in lines), out
+    assert any(ln.strip().startswith(f"{src / 'broken.pdb'} (error): not a PDB or mmCIF") for ln in lines), out
+    assert "more, see" not in out  # two failures: both named, nothing left over
+
+
+def test_summary_lists_twenty_failed_files_then_points_to_the_table(tmp_path):
+    from fescan.surveys.run import FAILED_FILES_LISTED, SurveySummary
+
+    failed = [{"file": f"/d/bad{k:02d}.pdb", "reason": "error", "message": f"/d/bad{k:02d}.pdb: empty file (0 bytes)"}
+              for k in range(FAILED_FILES_LISTED)]
+    s = SurveySummary(out_dir=str(tmp_path), tables={"failures": str(tmp_path / "failures.parquet")},
+                      table_rows={"wires": 3, "failures": 25}, n_wires=2, failures_by_reason={"error": 25},
+                      failed_files=failed)
+    text = s.to_text()
+    assert "wires traced: 2 of 3 structures (1 without a path)" in text
+    named = [ln for ln in text.splitlines() if ln.startswith("  /d/bad")]
+    assert len(named) == FAILED_FILES_LISTED and named[0] == "  /d/bad00.pdb (error): empty file (0 bytes)"
+    assert f"… and 5 more, see {tmp_path / 'failures.parquet'}" in text
+    assert "index.html" not in text
+    (tmp_path / "index.html").write_text("<html></html>")
+    assert f"or {tmp_path / 'index.html'}" in s.to_text()
+    assert "failed files" not in SurveySummary(out_dir=str(tmp_path)).to_text()

@@ -12,7 +12,8 @@ from typing import Any
 from fescan.core.errors import ConfigError
 
 __all__ = ["add_wire_options", "wire_options", "emit_json", "add_json_option", "parse_packing",
-           "option_words", "add_verbose", "local_file_hint"]
+           "option_words", "add_verbose", "local_file_hint",
+           "PACKING_VALUES"]
 
 #: Option fields of the API and the command-line option that sets each (for error messages).
 OPTION_NAMES = {
@@ -23,6 +24,10 @@ OPTION_NAMES = {
     "rate_drop_limit": "--rate-drop", "time_limit": "--time-limit", "memory_limit": "--memory-limit",
     "batch_size": "--batch-size", "workers": "--workers",
 }
+
+
+#: The ``--packing`` values every subcommand accepts (``fescan compare`` also takes ``index``).
+PACKING_VALUES = ("a density from 0 to 1 (e.g. 0.76)", "measured", "measured*SCALE (e.g. measured*0.9)")
 
 
 def option_words(message: str) -> str:
@@ -46,19 +51,40 @@ def add_json_option(p: argparse.ArgumentParser, what: str) -> None:
                    help=f"write {what} as JSON to FILE (use - for standard output)")
 
 
-def parse_packing(spec: str) -> dict[str, Any]:
+def parse_packing(spec: str, *, index: bool = True) -> dict[str, Any]:
     """Options for one ``--packing`` value.
 
-    ``0.76`` (a number): ρ used for every hop; ``measured``: ρ measured from the
-    atoms between each pair and used in the rates; ``measured*0.9``: the same,
-    scaled; ``index``: measured and reported beside the rates, which keep the
-    default ρ (compare only).
+    Parameters
+    ----------
+    spec : str
+        ``0.76`` (a number from 0 to 1): ρ used for every hop; ``measured``: ρ
+        measured from the atoms between each pair and used in the rates;
+        ``measured*0.9``: the same, multiplied by the scale; ``index``: measured and
+        reported beside the rates, which keep the default ρ (``fescan compare`` only).
+        Case is ignored.
+    index : bool, optional
+        Whether ``index`` is accepted (the subcommand reports ρ as an index).
+
+    Returns
+    -------
+    dict
+        Keyword options of :func:`fescan.scan` (or ``measure_packing`` for ``index``).
+
+    Raises
+    ------
+    fescan.core.errors.ConfigError
+        The value is none of the above; the message lists the accepted values.
     """
     text = spec.strip().lower()
+    values = [*PACKING_VALUES, "index"] if index else list(PACKING_VALUES)
+    accepted = ", ".join(values[:-1]) + " or " + values[-1]
     if text == "index":
+        if not index:
+            raise ConfigError("--packing index: only fescan compare reports ρ as an index; "
+                              "use --packing measured to put measured ρ into the rates")
         return {"measure_packing": True}
     if text.startswith("measured"):
-        rest = text[len("measured"):]
+        rest = text[len("measured"):].strip()
         if not rest:
             return {"packing": "measured"}
         if rest.startswith("*"):
@@ -70,8 +96,7 @@ def parse_packing(spec: str) -> dict[str, Any]:
     try:
         return {"packing": "default", "packing_density": float(text)}
     except ValueError:
-        raise ConfigError(f"--packing {spec!r}: give a density (e.g. 0.76), measured, measured*SCALE "
-                          "or index") from None
+        raise ConfigError(f"--packing {spec!r}: give {accepted}") from None
 
 
 def emit_json(data: Any, dest: str) -> None:
@@ -95,14 +120,21 @@ def add_wire_options(p: argparse.ArgumentParser, *, endpoints: bool = True, inde
                    help="alternative locations: keep the highest-occupancy one per residue (default), "
                         "the first one, or all")
     if endpoints:
-        g.add_argument("--entry", metavar="CHAIN/RESNUM", help="entry cofactor, e.g. A/500 (default: a flavin)")
-        g.add_argument("--exit", metavar="CHAIN/RESNUM", help="exit cofactor (default: a quinone or heme)")
+        g.add_argument("--entry", metavar="CHAIN/RESNUM",
+                       help="entry cofactor, e.g. A/500 (default: chosen with the exit by chemistry rules, "
+                            "e.g. hydrogenase or flavin to quinone or heme, CuA to heme a3, QA to QB, else the "
+                            "lower-potential end of the longest chain; the output names the rule used)")
+        g.add_argument("--exit", metavar="CHAIN/RESNUM",
+                       help="exit cofactor (default: chosen with the entry by the same rules; when only one "
+                            "end is given, the farthest connected cofactor is the other)")
     g.add_argument("--reorg", type=float, default=0.7, help="reorganisation energy λ in eV (default 0.7)")
-    g.add_argument("--packing", metavar="RHO|measured[*SCALE]" + ("|index" if index_packing else ""),
+    g.add_argument("--packing", metavar="RHO|measured|measured*SCALE" + ("|index" if index_packing else ""),
                    default="0.76",
-                   help="protein packing density ρ in the rate law: a number for every hop (default 0.76), "
-                        "'measured' from the atoms between each pair (optionally scaled, measured*0.9)"
-                        + ("; 'index': measure and report ρ per hop, rates keep 0.76" if index_packing else ""))
+                   help="protein packing density ρ in the rate law, one of: a number from 0 to 1 used for "
+                        "every hop (default 0.76); 'measured': measured from the atoms between each pair; "
+                        "'measured*SCALE': measured, then multiplied by SCALE (e.g. measured*0.9)"
+                        + ("; 'index': measured and reported beside each hop, while the rates keep 0.76"
+                           if index_packing else ""))
     g.add_argument("--gap-limit", type=float, default=14.0, help="longest hop not flagged as a gap, Å (default 14)")
     g.add_argument("--cutoff", type=float, default=25.0, help="longest pair distance considered, Å (default 25)")
     g.add_argument("--rate-threshold", type=float, default=1e3,
@@ -127,11 +159,7 @@ def wire_options(a: argparse.Namespace) -> dict:
         "temperature": a.temperature, "potentials_file": a.potentials, "symmetry": a.symmetry,
         "edge_atoms": a.edge_atoms,
     }
-    packing = parse_packing(a.packing)
-    if "measure_packing" in packing and not getattr(a, "index_packing", False):
-        raise ConfigError("--packing index: only fescan compare reports ρ as an index; "
-                          "use --packing measured to put measured ρ into the rates")
-    out.update(packing)
+    out.update(parse_packing(a.packing, index=getattr(a, "index_packing", False)))
     for k in ("entry", "exit", "all_pairs", "reverse"):
         if hasattr(a, k):
             out[k] = getattr(a, k)

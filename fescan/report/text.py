@@ -8,9 +8,15 @@ from collections import Counter
 
 from fescan.analysis.scan import CAUTION, ScanResult
 from fescan.cofactors.ligation import ligand_counts
+from fescan.core.numbers import format_quantity
+from fescan.core.records import ION_SITE_METALS
 from fescan.transfer.distances import EDGE_CONVENTION
 
-__all__ = ["render_text", "format_time", "signed", "table", "strip_controls"]
+__all__ = ["render_text", "format_time", "format_flux", "signed", "fixed", "ion_site_heading", "table",
+           "strip_controls"]
+
+#: Significant digits of every time, rate and flux in the text output.
+DIGITS = 3
 
 # C0 controls but tab and newline, DEL and C1 controls: an ESC sequence in a title could
 # otherwise recolour, retitle or clear the terminal the text is printed on.
@@ -29,34 +35,85 @@ def strip_controls(text: str) -> str:
 
 
 def format_time(seconds: float | None) -> str:
-    """Human time with a unit: ``"3.2 µs"``, ``"14 ms"``; ``"-"`` when undefined.
+    """A time (s) with three significant digits and an SI prefix; ``"-"`` when undefined.
+
+    Uses :func:`fescan.core.numbers.format_quantity`, as every time, rate and flux of the
+    text output does.
 
     Examples
     --------
     >>> format_time(3.2e-6)
-    '3.2 µs'
+    '3.20 µs'
+    >>> format_time(9.9996e-4)
+    '1.00 ms'
     >>> format_time(None)
     '-'
     """
     if seconds is None or not math.isfinite(seconds):
         return "-"
-    for unit, f in (("s", 1.0), ("ms", 1e-3), ("µs", 1e-6), ("ns", 1e-9), ("ps", 1e-12)):
-        if seconds >= f:
-            v = seconds / f
-            return f"{v:.3g} {unit}"
-    return f"{seconds / 1e-15:.3g} fs"
+    return format_quantity(float(seconds), "s", DIGITS)
+
+
+def format_flux(per_s: float | None) -> str:
+    """An electron flux (electrons s⁻¹) with three significant digits; ``"-"`` when undefined.
+
+    Examples
+    --------
+    >>> format_flux(31234.5)
+    '3.12×10^4 electrons/s'
+    >>> format_flux(0.3729)
+    '0.373 electrons/s'
+    """
+    if per_s is None or not math.isfinite(per_s):
+        return "-"
+    return format_quantity(float(per_s), "electrons/s", DIGITS)
+
+
+def fixed(x: float, digits: int = 2) -> str:
+    """Fixed-point text without a negative zero (``-0.001`` → ``'0.00'``).
+
+    Examples
+    --------
+    >>> fixed(-0.001)
+    '0.00'
+    >>> fixed(-1.234)
+    '-1.23'
+    """
+    v = round(float(x), digits)
+    return f"{(0.0 if v == 0 else v):.{digits}f}"
 
 
 def signed(x: float, digits: int = 3) -> str:
-    """Signed fixed-point text without a negative zero.
+    """Fixed-point text with an explicit sign; a value that rounds to zero has none.
 
     Examples
     --------
     >>> signed(-1e-9)
-    '+0.000'
+    '0.000'
+    >>> signed(0.05)
+    '+0.050'
     """
     v = round(float(x), digits)
-    return f"{(0.0 if v == 0 else v):+.{digits}f}"
+    return fixed(v, digits) if v == 0 else f"{v:+.{digits}f}"
+
+
+def ion_site_heading(ions: list) -> str:
+    """Heading of the Zn/Ca/Mg site table naming only the elements present.
+
+    Parameters
+    ----------
+    ions : list of Cofactor
+        The ion sites (``Cofactor.is_ion_site``).
+
+    Returns
+    -------
+    str
+        E.g. ``"Mg sites, listed apart: no redox role, never on a wire (1)"``.
+    """
+    present = {a.element.upper() for c in ions for a in c.redox_atoms} & ION_SITE_METALS
+    names = [e.capitalize() for e in ("ZN", "CA", "MG") if e in present] or ["Metal ion"]
+    listed = names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
+    return f"{listed} sites, listed apart: no redox role, never on a wire ({len(ions)})"
 
 
 def table(headers: list[str], rows: list[list[str]]) -> str:
@@ -121,7 +178,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                             "checks"], rows))
     if ions:
         lines.append("")
-        lines.append(f"Zn, Ca and Mg sites, listed apart: no redox role, never on a wire ({len(ions)})")
+        lines.append(ion_site_heading(ions))
         lines.append(table(["site", "role", "code", "ligands", "why"],
                            [[c.key, c.role, c.ccd_code or "-", _ligand_summary(c), c.role_reason] for c in ions]))
     if details:
@@ -151,7 +208,7 @@ def render_text(res: ScanResult, *, details: bool = True) -> str:
                  format_time(r["summed_hop_time_s"]),
                  ", ".join(x for x, on in (("gap", r["has_gap"]), ("slow hop", r["has_slow_hop"])) if on)]
                 for r in res.all_pairs]
-        lines.append(table(["entry", "exit", "hops", "longest hop Å", "summed hop time", "remarks"], rows))
+        lines.append(table(["entry", "exit", "hops", "longest hop Å", "sum of forward hop times", "remarks"], rows))
     return strip_controls("\n".join(lines))
 
 
@@ -186,7 +243,7 @@ def _wire_text(res: ScanResult) -> list[str]:
         if h.crystal_contact:
             mark.append("possible crystal contact")
         rows.append([str(k), names[h.donor], names[h.acceptor], f"{h.edge:.2f}", f"{h.centre:.2f}",
-                     signed(h.dg), f"{h.reorg:.2f}", f"{h.packing_density:.2f}", f"{h.log10_k_forward:.2f}",
+                     signed(h.dg), fixed(h.reorg), fixed(h.packing_density), fixed(h.log10_k_forward),
                      format_time(h.hop_time), ", ".join(mark)])
     out.append(table(["hop", "donor", "acceptor", "edge Å", "centre Å", "ΔG eV", "λ eV", "ρ", "log10 k", "hop time",
                       "remarks"],
@@ -211,15 +268,13 @@ def _wire_text(res: ScanResult) -> list[str]:
     if ss and ss.get("flux_per_s") is not None:
         src, snk = ss["source"], ss["sink"]
         out.append(f"  steady state between reservoirs {src['pool']} ({signed(src['e_v'])} V) and {snk['pool']} "
-                   f"({signed(snk['e_v'])} V): flux {ss['flux_per_s']:.3g} electrons/s, transit time "
+                   f"({signed(snk['e_v'])} V): flux {format_flux(ss['flux_per_s'])}, transit time "
                    f"{format_time(ss['transit_time_s'])} (electrons on the path / flux)")
         sens = sorted(ss["sensitivity"].items(), key=lambda kv: -abs(kv[1] or 0.0))[:3]
         out.append("  potentials that drive the flux (d log10 flux / dE, per V): " + ", ".join(
-            f"{names[u]} {v:+.1f}" for u, v in sens if v is not None))
+            f"{names[u]} {signed(v, 1)}" for u, v in sens if v is not None))
     for cp in w.copies:
-        out.append(f"  other copy: {' > '.join(names[u] for u in cp['path']) or 'no path'}"
-                   + (f" (mean first passage {format_time(cp['mean_first_passage_time_s'])})"
-                      if cp.get("mean_first_passage_time_s") is not None else ""))
+        out.append("  " + _copy_text(cp, names, o.cutoff))
     if w.branches:
         out.append("  side branches: " + "; ".join(
             f"{names[b['cofactor']]} (at {names[b['attached_to']]}, {b['edge_distance']:.1f} Å)" for b in w.branches))
@@ -236,3 +291,18 @@ def _wire_text(res: ScanResult) -> list[str]:
     out.append("")
     out.append("Caution: " + CAUTION)
     return out
+
+
+def _copy_text(cp: dict, names: dict[str, str], cutoff: float) -> str:
+    """One line for another copy of the complex (``Wire.copies``), traced on its own."""
+    head = "other copy of the complex, on its own (crystal-contact and symmetry-mate hops left out)"
+    if cp["path"]:
+        mfpt = cp.get("mean_first_passage_time_s")
+        return (f"{head}: " + " > ".join(names[u] for u in cp["path"])
+                + (f" (mean first-passage time {format_time(mfpt)})" if mfpt is not None else ""))
+    if cp.get("entry") is None or cp.get("exit") is None:
+        why = cp.get("how_chosen") or "no entry and exit"
+    else:
+        why = (f"no chain of relay hops within the {cutoff:g} Å cutoff joins "
+               f"{names[cp['entry']]} and {names[cp['exit']]}")
+    return f"{head}: no path ({why})"

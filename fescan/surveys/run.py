@@ -67,7 +67,7 @@ from fescan.surveys.prefilter import NO_CANDIDATE
 from fescan.surveys.store import TABLE_NAMES, FileKey, SurveyStore, file_key
 from fescan.surveys.tasks import analyse_file
 
-__all__ = ["STRUCTURE_SUFFIXES", "SurveySummary", "analyse_file", "find_structure_files", "read_file_list", "survey"]
+__all__ = ["STRUCTURE_SUFFIXES", "FAILED_FILES_LISTED", "SurveySummary", "analyse_file", "find_structure_files", "read_file_list", "survey"]
 
 logger = logging.getLogger(__name__)
 
@@ -80,6 +80,9 @@ _FLUSH_SECONDS = 5.0
 #: Share of a batch a file set aside by the prefilter takes: its row is cheap to redo after a
 #: crash, and committing every 32 of them made the parent's writes the bottleneck of an archive survey.
 _SET_ASIDE_WEIGHT = 1.0 / 16
+#: Failed files the terminal summary names one by one (the rest are counted and point to the table).
+FAILED_FILES_LISTED = 20
+_MESSAGE_CHARS = 200
 
 
 # --- finding the input files -----------------------------------------------------------
@@ -293,9 +296,13 @@ class SurveySummary:
     cofactors_by_class : dict of str to int
         Cofactors per class label over all structures.
     n_wires, n_wires_with_gaps : int
-        Wires with at least one hop, and those with a gap or too-slow hop.
+        Rows of ``wires`` (one per structure analysed) with a path (at least one
+        hop), and those whose path has a gap (a hop over the gap limit).
     failures_by_reason : dict of str to int
         Failed files per reason (error, timeout, memory, crash).
+    failed_files : list of dict
+        The first :data:`FAILED_FILES_LISTED` rows of ``failures`` (``file``,
+        ``reason``, ``message``), for the terminal summary.
     warnings : list of str
         What the folder walk left out (broken links, FIFOs, unreadable folders, loops).
     engine : str
@@ -319,6 +326,7 @@ class SurveySummary:
     n_wires: int = 0
     n_wires_with_gaps: int = 0
     failures_by_reason: dict[str, int] = field(default_factory=dict)
+    failed_files: list[dict[str, str]] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
     engine: str = "processes"
     workers: int = 1
@@ -334,6 +342,7 @@ class SurveySummary:
             return ", ".join(f"{k} {v}" for k, v in sorted(d.items(), key=lambda kv: (-kv[1], kv[0]))) or "none"
 
         rows = ", ".join(f"{k} {v}" for k, v in self.table_rows.items())
+        n_wire_rows = self.table_rows.get("wires", self.n_wires)
         return "\n".join([
             f"files: {self.n_files} found; {self.n_ok + self.n_failed + self.n_no_candidate} analysed now "
             f"({self.n_ok} ok, {self.n_failed} failed"
@@ -343,12 +352,37 @@ class SurveySummary:
             f"structures in {self.out_dir}: {self.structures_ok} ok, {self.structures_failed} failed",
             f"table rows: {rows}",
             f"cofactors by class: {listing(self.cofactors_by_class)}",
-            f"wires: {self.n_wires}, with gaps or too-slow hops: {self.n_wires_with_gaps}",
+            f"wires traced: {self.n_wires} of {n_wire_rows} structures "
+            f"({n_wire_rows - self.n_wires} without a path); paths with a gap (a hop over the gap limit): "
+            f"{self.n_wires_with_gaps}",
             f"failures by reason: {listing(self.failures_by_reason)}"
             + (f" ({self.n_unexpected} unexpected errors: bugs, see the log)" if self.n_unexpected else ""),
+            *self._failed_lines(),
             *(f"warning: {w}" for w in self.warnings),
             CAUTION,
         ])
+
+
+    def _failed_lines(self) -> list[str]:
+        """One line per failed file (the first :data:`FAILED_FILES_LISTED`), then how many more and where."""
+        if not self.failed_files:
+            return []
+        out = ["failed files:"]
+        for row in self.failed_files[:FAILED_FILES_LISTED]:
+            name, message = str(row.get("file", "")), " ".join(str(row.get("message") or "").split())
+            if message.startswith(name + ": "):
+                message = message[len(name) + 2:]
+            if len(message) > _MESSAGE_CHARS:
+                message = message[:_MESSAGE_CHARS - 1].rstrip() + "…"
+            out.append(f"  {name} ({row.get('reason', '')}): {message}")
+        total = self.table_rows.get("failures", sum(self.failures_by_reason.values()))
+        more = total - min(len(self.failed_files), FAILED_FILES_LISTED)
+        if more > 0:
+            where = self.tables.get("failures") or str(Path(self.out_dir) / "failures")
+            if (Path(self.out_dir) / "index.html").is_file():
+                where += f" or {Path(self.out_dir) / 'index.html'}"
+            out.append(f"  … and {more} more, see {where}")
+        return out
 
 
 class _Totals:
@@ -361,6 +395,7 @@ class _Totals:
         self.reasons: Counter[str] = Counter()
         self.status: Counter[str] = Counter()
         self.wires = self.gapped = 0
+        self.failed: list[dict[str, str]] = []
 
     def __call__(self, name: str, table: Any) -> None:
         self.rows[name] += table.num_rows
@@ -370,6 +405,12 @@ class _Totals:
             self.classes.update(table.column("class").to_pylist())
         elif name == "failures":
             self.reasons.update(table.column("reason").to_pylist())
+            room = FAILED_FILES_LISTED - len(self.failed)
+            if room > 0:
+                head = table.slice(0, room)
+                self.failed += [{"file": f, "reason": r, "message": m} for f, r, m in zip(
+                    head.column("file").to_pylist(), head.column("reason").to_pylist(),
+                    head.column("message").to_pylist())]
         elif name == "wires":
             self.wires += sum(1 for n in table.column("n_hops").to_pylist() if n)  # rows with a path
             self.gapped += sum(1 for n in table.column("n_gaps").to_pylist() if n)
@@ -380,6 +421,7 @@ class _Totals:
         s.structures_ok, s.structures_failed = self.status.get("ok", 0), self.status.get("failed", 0)
         s.cofactors_by_class = dict(self.classes)
         s.failures_by_reason = dict(self.reasons)
+        s.failed_files = list(self.failed)
         s.n_wires, s.n_wires_with_gaps = self.wires, self.gapped
 
 
