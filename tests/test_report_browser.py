@@ -14,6 +14,7 @@ import pytest
 
 from fescan.analysis.scan import scan
 from fescan.report import write_report, write_survey_report
+from fescan.report.structure_report import SUMMED_TIME_NAME
 from tests.browser import measure_page, requires_chromium
 from tests.datafiles import entry_path, requires_shared
 from tests.report_fixtures import survey_tables, write_tables
@@ -84,8 +85,13 @@ def test_summary_states_wire_time_bottleneck_and_problems(reports):
     res, html = reports["2FUG"]
     text = _text(html)
     summary = text.split("Estimates, not measurements.")[0]
-    for word in ("Wire", "Direction", "Transfer time", "Bottleneck", "Problems and notes"):
+    # the summed time carries the terminal's name for it (report/text.py), and its interval note is short:
+    # the method detail (the coordinate-error formula) is under Parameters, not in the summary
+    for word in ("Wire", "Direction", SUMMED_TIME_NAME, "Bottleneck", "Problems and notes"):
         assert word in summary, word
+    assert "sigma(x)" not in summary and "σ(x)" not in summary
+    parameters = text.split("Interval of the sum of forward hop times")
+    assert len(parameters) == 2 and "coordinate error" in parameters[1]
     b = res.wire.bottleneck
     assert f"{b.edge:.2f} Å" in summary
 

@@ -19,7 +19,7 @@ from fescan.report import write_report
 from fescan.report.content import safe_href
 from fescan.report.html import esc
 from fescan.report.markdown import md_escape
-from fescan.report.structure_report import POTENTIAL_STATUS
+from fescan.report.structure_report import POTENTIAL_STATUS, SUMMED_TIME_NAME
 from fescan.transfer.couples import CITATION_KINDS
 from tests.datafiles import entry_path, requires_shared
 from tests.report_fixtures import CRAFTED_TITLE, IMG, SCRIPT, write_crafted, write_wire
@@ -110,7 +110,7 @@ def test_report_of_a_real_entry_says_what_it_must(tmp_path):
     for key in ("7/500", "1/439", "2/182", "3/784", "3/785", "3/786", "3/787", "6/182", "9/183", "9/184"):
         assert key in html and key in md
     assert esc(CAUTION) in html and md_escape(CAUTION) in md
-    for text in ("Sum of hop times", "Mean first-passage time", "Reorganisation energy λ", "Packing density ρ",
+    for text in (esc(SUMMED_TIME_NAME), "Mean first-passage time", "Reorganisation energy λ", "Packing density ρ",
                  "Gap limit", "Temperature", "Symmetry mates", "not included (asymmetric unit only)", "default",
                  "<td>from memory</td>", "from memory: a remembered value, to be checked"):
         assert text in html, text

@@ -31,12 +31,16 @@ class Run:
         Monospace (identifiers, file names).
     href : str or None
         Relative link target written by fescan (never taken from an input file).
+    tooltip : str or None
+        Text shown on hover in HTML (e.g. the whole of a shortened title); plain
+        text, escaped like any other. Markdown shows only ``text``.
     """
 
     text: str
     strong: bool = False
     code: bool = False
     href: str | None = None
+    tooltip: str | None = None
 
 
 #: Inline content: a plain string, one run, or a list of strings and runs.
@@ -101,12 +105,17 @@ class Table:
     numeric : frozenset of int
         Column indices aligned right.
     caption : str
+    classes : tuple of str
+        Optional HTML class of each column (``""``: none), e.g. ``"text"`` for a
+        column of long text given a minimum width, ``"path"`` for file paths that
+        may break anywhere. Markdown ignores them.
     """
 
     headers: list[str]
     rows: list[list[Inline]]
     numeric: frozenset[int] = frozenset()
     caption: str = ""
+    classes: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)

@@ -10,7 +10,8 @@ where it sits in the structure (principal-component view), glyphs of
 :mod:`fescan.report.style`, labels placed by :mod:`fescan.report.placement`.
 SVG elements carry ids: ``cofactor-<uid>``, ``label-<uid>``,
 ``hop-<donor>-<acceptor>``, ``gap-<a>-<b>`` (break mark of a gap),
-``pair-<a>-<b>`` (uids made id-safe by :func:`fescan.report.style.svg_id`).
+``pair-<a>-<b>``, ``warning-<uid>`` (mark of a cofactor with a check warning; uids
+made id-safe by :func:`fescan.report.style.svg_id`).
 """
 
 from __future__ import annotations
@@ -31,9 +32,11 @@ from matplotlib.legend_handler import HandlerTuple
 from matplotlib.lines import Line2D
 from matplotlib.markers import MarkerStyle
 from matplotlib.path import Path as MplPath
-from matplotlib.transforms import Affine2D
+from matplotlib.ticker import MaxNLocator
+from matplotlib.transforms import Affine2D, ScaledTranslation
 
 from fescan.report import style
+from fescan.report.labels import plain_words, plural, structure_name
 from fescan.report.placement import Box, Placement, Segment, leader, place_labels
 from fescan.report.projection import Projection
 from fescan.report.scene import SCALE_TOLERANCE, Scene, build_scene, panel_groups
@@ -46,7 +49,8 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["RC", "figure_context", "new_figure", "save_figure", "draw_wire", "draw_scene", "relay_figure",
            "relay_diagram", "legend_handles", "DiagramInfo", "distance_by_class_figure", "rate_distance_figure",
            "counts_figure", "bottleneck_figure", "ligation_by_resolution_figure", "ambiguity_ratio", "link_ambiguity",
-           "AMBIGUOUS_RATIO", "MAX_PANELS"]
+           "AMBIGUOUS_RATIO", "MAX_PANELS", "RATE_AXIS", "RATE_MARGIN", "WARNING_OFFSET_PT", "WARNING_PT",
+           "WARNING_TEXT"]
 
 #: rcParams of every fescan figure (see :func:`figure_context`).
 RC: dict[str, object] = {
@@ -145,6 +149,26 @@ def _ring(x: list[float], y: list[float], gid: str | None = None) -> Line2D:
                   markeredgecolor=style.INK, markeredgewidth=1.0, zorder=5.5, gid=gid)
 
 
+#: Diameter (pt) of the warning mark: a black disc with a white "!".
+WARNING_PT = 5.8
+#: Offset (pt, right and up) of the warning mark from the centre of its cofactor's glyph: a badge on
+#: the glyph's upper right corner that stays inside the room kept free for the glyph (no label moves).
+WARNING_OFFSET_PT = (0.5 * style.GLYPH_PT + 1.5 - 0.5 * WARNING_PT,) * 2
+#: Legend text of the warning mark.
+WARNING_TEXT = "cofactor with a check warning"
+
+
+def _warning_lines(x: list[float], y: list[float], gid: str | None = None,
+                   offset: object | None = None) -> list[Line2D]:
+    """The warning mark: a black disc with a white "!" (reads in greyscale), optionally offset."""
+    kw = {} if offset is None else {"transform": offset}
+    return [Line2D(x, y, linestyle="none", marker="o", markersize=WARNING_PT, markerfacecolor=style.INK,
+                   markeredgecolor="white", markeredgewidth=0.6, zorder=6.5, gid=gid, **kw),
+            Line2D(x, y, linestyle="none", marker="$!$", markersize=0.66 * WARNING_PT, markerfacecolor="white",
+                   markeredgecolor="white", markeredgewidth=0.25, zorder=6.6,
+                   gid=(gid + "-sign") if gid else None, **kw)]
+
+
 def legend_handles(scenes: Sequence[Scene]) -> tuple[list, list[str]]:
     """Legend handles and texts for the glyphs and line kinds present in some scenes.
 
@@ -154,18 +178,24 @@ def legend_handles(scenes: Sequence[Scene]) -> tuple[list, list[str]]:
     glyphs: dict[str, style.Glyph] = {}
     kinds: set[str] = set()
     texts: dict[str, str] = {}
+    neck = "bottleneck"
     for sc in scenes:
         for n in sc.nodes:
             glyphs.setdefault(n.glyph.legend, n.glyph)
         kinds |= sc.kinds()
         texts.update(sc.legend_text)
+        if "bottleneck" in sc.kinds() and neck == "bottleneck":
+            neck = sc.bottleneck_text or neck
     order = sorted(glyphs, key=lambda t: (style.legend_rank(t), t))
     handles: list = [tuple(_glyph_lines(glyphs[t], [], [])) for t in order]
     labels = [texts.get(t, t) for t in order]
+    if "warning" in kinds:  # a mark on cofactors: listed with the glyphs
+        handles.append(tuple(_warning_lines([], [])))
+        labels.append(WARNING_TEXT)
     lines = [
         ("path", Line2D([], [], **_line_kw(style.PATH_HOP)), "relay path (fastest)"),
         ("bottleneck", (Line2D([], [], **_line_kw(style.BOTTLENECK_HALO)), Line2D([], [], **_line_kw(style.PATH_HOP))),
-         "bottleneck"),
+         neck),
         ("gap", Line2D([], [], **_line_kw(style.GAP_HOP)), "hop over the gap limit"),
         ("pair", Line2D([], [], **_line_kw(style.PAIR)), "other pair within limit"),
         ("near", Line2D([], [], **_line_kw(style.NEAR_GAP)), "nearest partner, over limit"),
@@ -311,6 +341,14 @@ def draw_scene(ax: Axes, scene: Scene, *, title: str | None = None, legend: bool
         r = r0 + (2.5 * k if n.role else 0.0)
         x, y = px[n.uid]
         info.glyph_boxes[n.uid] = Box(x - r, y - r, x + r, y + r)
+        if n.warned:
+            dx, dy = WARNING_OFFSET_PT
+            shift = ax.transData + ScaledTranslation(dx / _PT, dy / _PT, ax.figure.dpi_scale_trans)
+            for art in _warning_lines([n.xy[0]], [n.xy[1]], "warning-" + style.svg_id(n.uid), shift):
+                ax.add_line(art)
+            h = 0.5 * WARNING_PT * k
+            cx, cy = x + dx * k, y + dy * k
+            marks.append(Box(cx - h, cy - h, cx + h, cy + h))
     fixed = list(info.glyph_boxes.values()) + marks
     info.label_boxes, info.leaders, info.scale_bar = _place_texts(ax, scene, px, segments, fixed)
     if legend:
@@ -518,7 +556,7 @@ def _ambiguous(box: Box, own: str, glyph_xy: dict[str, np.ndarray]) -> bool:
 
 
 def _panel_title(result: ScanResult, scene: Scene, k: int, n_panels: int) -> str:
-    entry = result.info.entry_id
+    entry = structure_name(result.path)
     keys = {n.uid: n.label.split("\n")[0] for n in scene.nodes}
     chains = sorted({uid.split(":")[1].split("/")[0] for uid in keys if uid.count(":") >= 2})
     where = f"chain{'s' * (len(chains) > 1)} {', '.join(chains)}" if chains else ""
@@ -583,7 +621,8 @@ def relay_figure(result: ScanResult, *, width_in: float = style.COLUMN_WIDTH_IN,
                           f"±{SCALE_TOLERANCE:.0%}), so no scale bar; read distances from the labels.")
         if left_out:
             n_left = sum(len(g) for g in left_out)
-            note_text += f" {len(left_out)} further groups ({n_left} cofactors) not drawn."
+            note_text += (f" {plural(len(left_out), 'further group')} ({plural(n_left, 'cofactor')}) "
+                          "not drawn.")
         note = textwrap.fill(note_text, 66)
         leg_h = 0.08 + math.ceil(len(labels) / 2) * 0.165 if labels else 0.0
         note_h = 0.06 + 0.125 * (note.count("\n") + 1)
@@ -619,7 +658,8 @@ def relay_diagram(result: ScanResult, out_base: str | Path, *, width_in: float =
     width_in : float, optional
         Figure width in inches (default one journal column, 85 mm).
     title : str, optional
-        Title; default the entry id.
+        Title; default the structure's file name without folders and suffix
+        (:func:`fescan.report.labels.structure_name`), the same for every report.
 
     Returns
     -------
@@ -686,6 +726,12 @@ def distance_by_class_figure(groups: Sequence[tuple[str, style.Glyph, np.ndarray
     return fig
 
 
+#: Least range of the log10 k axis of :func:`rate_distance_figure` (widened to fit every point).
+RATE_AXIS = (-2.0, 13.5)
+#: Margin (decades) between the outermost point and the end of the log10 k axis.
+RATE_MARGIN = 0.5
+
+
 def rate_distance_figure(pairs_r: np.ndarray, pairs_logk: np.ndarray, path_r: np.ndarray, path_logk: np.ndarray,
                          curves: Sequence[tuple[float, np.ndarray, np.ndarray]], *, gap_limit: float,
                          log10_threshold: float, reorg: float, rho: float) -> Figure:
@@ -703,7 +749,21 @@ def rate_distance_figure(pairs_r: np.ndarray, pairs_logk: np.ndarray, path_r: np
         Gap limit (Å) and log10 of the turnover threshold (s⁻¹), marked.
     reorg, rho : float
         λ (eV) and ρ of the curves (stated in the legend).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        The vertical axis spans every finite point (at least −2 to 13.5) with a margin of
+        :data:`RATE_MARGIN` decades; points without a finite rate are counted in a note
+        on the axes.
     """
+    points = np.concatenate([np.asarray(pairs_logk, dtype=float).ravel(), np.asarray(path_logk, dtype=float).ravel()])
+    finite = points[np.isfinite(points)]
+    y_lo, y_hi = RATE_AXIS
+    if finite.size:
+        y_lo = min(y_lo, float(finite.min()) - RATE_MARGIN)
+        y_hi = max(y_hi, float(finite.max()) + RATE_MARGIN)
+    n_off = int(points.size - finite.size)
     with figure_context("fescan-survey-rate"):
         fig = new_figure(style.COLUMN_WIDTH_IN, 2.9)
         ax = fig.add_axes((0.15, 0.30, 0.82, 0.66))
@@ -727,7 +787,10 @@ def rate_distance_figure(pairs_r: np.ndarray, pairs_logk: np.ndarray, path_r: np
                 va="bottom", fontsize=style.FONT_PT, color="#555555", linespacing=1.0)
         ax.set_xlabel("edge-to-edge distance R (Å)", fontsize=style.FONT_PT)
         ax.set_ylabel("log10 k (k in s⁻¹), estimate", fontsize=style.FONT_PT)
-        ax.set_ylim(-2, 13.5)
+        ax.set_ylim(y_lo, y_hi)
+        if n_off:
+            ax.text(0.01, 0.01, f"{plural(n_off, 'rate')} not finite, not drawn", transform=ax.transAxes,
+                    ha="left", va="bottom", fontsize=style.FONT_PT, color="#555555", gid="not-drawn")
         ax.legend(loc="upper center", bbox_to_anchor=(0.45, -0.17), ncol=2, title=f"Moser-Dutton, λ = {reorg:g} eV, "
                   f"ρ = {rho:g}", title_fontsize=style.FONT_PT, **{**_legend_kw(), "handlelength": 2.0,
                                                                    "labelspacing": 0.2})
@@ -738,21 +801,34 @@ def counts_figure(class_counts: Sequence[tuple[str, style.Glyph, int]],
                   flag_counts: Sequence[tuple[str, int, int]]) -> Figure:
     """Bar charts: cofactors per class, and findings per flag code (warnings and notes).
 
+    Counts are whole numbers, so the count axes carry integer ticks only; flag codes are
+    written in plain words (``incomplete_cluster`` → "incomplete cluster"); the legend
+    names only the kinds of finding present and sits under the axis, clear of the bars.
+
     Parameters
     ----------
     class_counts : sequence of (label, glyph, count)
     flag_counts : sequence of (code, warnings, notes)
+
+    Returns
+    -------
+    matplotlib.figure.Figure
     """
     with figure_context("fescan-survey-counts"):
+        warn = np.array([w for _, w, _ in flag_counts], dtype=int)
+        note = np.array([n for _, _, n in flag_counts], dtype=int)
+        kinds = [k for k, present in (("warning", warn.sum() > 0), ("note", note.sum() > 0)) if present]
+        leg_h = 0.2 if kinds else 0.0
         rows = max(len(class_counts), 1) + max(len(flag_counts), 1)
-        height = 1.15 + 0.17 * rows
+        height = 1.15 + leg_h + 0.17 * rows
         fig = new_figure(style.COLUMN_WIDTH_IN, height)
         h1 = 0.17 * max(len(class_counts), 1) / height
         h2 = 0.17 * max(len(flag_counts), 1) / height
         top = fig.add_axes((0.40, 1.0 - 0.22 / height - h1, 0.50, h1))
-        bottom = fig.add_axes((0.40, 0.36 / height, 0.50, h2))
+        bottom = fig.add_axes((0.40, (0.36 + leg_h) / height, 0.50, h2))
         for ax in (top, bottom):
             _plain_axes(ax)
+            ax.xaxis.set_major_locator(MaxNLocator(integer=True))
         y = np.arange(len(class_counts))
         top.barh(y, [c for _, _, c in class_counts], color=[g.face for _, g, _ in class_counts],
                  edgecolor=style.INK, linewidth=0.5, height=0.7, gid="class-counts")
@@ -762,22 +838,26 @@ def counts_figure(class_counts: Sequence[tuple[str, style.Glyph, int]],
         top.invert_yaxis()
         top.set_title("cofactors per class", loc="left", fontsize=style.FONT_PT, fontweight="bold", pad=3)
         y = np.arange(len(flag_counts))
-        warn = np.array([w for _, w, _ in flag_counts])
-        note = np.array([n for _, _, n in flag_counts])
-        bottom.barh(y, warn, color="#6e6e6e", edgecolor=style.INK, linewidth=0.5, height=0.7, label="warning",
-                    gid="flag-warnings")
-        bottom.barh(y, note, left=warn, color="white", edgecolor=style.INK, linewidth=0.5, height=0.7,
-                    hatch="////", label="note", gid="flag-notes")
-        bottom.set_yticks(y, [code for code, _, _ in flag_counts], fontsize=style.FONT_PT)
+        handles = []
+        if "warning" in kinds:
+            handles.append(bottom.barh(y, warn, color="#6e6e6e", edgecolor=style.INK, linewidth=0.5, height=0.7,
+                                       label="warning", gid="flag-warnings"))
+        if "note" in kinds:
+            handles.append(bottom.barh(y, note, left=warn, color="white", edgecolor=style.INK, linewidth=0.5,
+                                       height=0.7, hatch="////", label="note", gid="flag-notes"))
+        bottom.set_yticks(y, [plain_words(code) for code, _, _ in flag_counts], fontsize=style.FONT_PT)
         for yy, w, nt in zip(y, warn, note):
             bottom.text(w + nt, yy, f" {w + nt}", va="center", ha="left", fontsize=style.FONT_PT)
+        if len(flag_counts):
+            bottom.set_xlim(0, max(1, int((warn + note).max())) * 1.05)
         bottom.invert_yaxis()
         bottom.set_title("findings of the checks", loc="left", fontsize=style.FONT_PT, fontweight="bold", pad=3)
         if not flag_counts:
             bottom.text(0.5, 0.5, "no findings", transform=bottom.transAxes, ha="center", fontsize=style.FONT_PT)
-        else:
-            bottom.legend(loc="lower right", **{**_legend_kw(), "handlelength": 1.2})
         bottom.set_xlabel("count", fontsize=style.FONT_PT)
+        if handles:  # under the axis label, clear of the bars
+            fig.legend(handles, kinds, loc="lower left", bbox_to_anchor=(0.40, 0.03 / height), ncol=len(kinds),
+                       **{**_legend_kw(), "handlelength": 1.2})
     return fig
 
 
@@ -812,8 +892,8 @@ def bottleneck_figure(distances: np.ndarray, *, gap_limit: float, n_without: int
         ax.set_xlim(0, top + 1.0)
         ax.yaxis.get_major_locator().set_params(integer=True)
         ax.set_ylabel("wires", fontsize=style.FONT_PT)
-        extra = f"; {n_without} structures without a wire" if n_without else ""
-        ax.set_xlabel(f"edge-to-edge distance of the bottleneck hop (Å), {len(d)} wires{extra}\n"
+        extra = f"; {plural(n_without, 'structure')} without a wire" if n_without else ""
+        ax.set_xlabel(f"edge-to-edge distance of the bottleneck hop (Å), {plural(len(d), 'wire')}{extra}\n"
                       "hatched: over the gap limit", fontsize=style.FONT_PT, linespacing=1.3)
     return fig
 

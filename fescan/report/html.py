@@ -40,14 +40,17 @@ h1 { font-size: 1.55rem; margin: 0 0 .2rem; border-bottom: 3px solid var(--accen
 h2 { font-size: 1.2rem; margin: 2.2rem 0 .6rem; color: var(--accent); }
 h3 { font-size: 1.02rem; margin: 1.4rem 0 .4rem; }
 p.subtitle { color: var(--muted); margin: .2rem 0 1.2rem; }
-dl.facts { display: grid; grid-template-columns: max-content 1fr; gap: .15rem 1.2rem; margin: .4rem 0 1rem; }
+dl.facts { display: grid; grid-template-columns: fit-content(20rem) 1fr; gap: .15rem 1.2rem; margin: .4rem 0 1rem; }
 dl.facts dt { color: var(--muted); }
 dl.facts dd { margin: 0; }
 table { border-collapse: collapse; margin: .5rem 0 1.2rem; font-size: .9rem; }
 caption { text-align: left; color: var(--muted); padding-bottom: .3rem; }
-th, td { padding: .22rem .6rem; border-bottom: 1px solid var(--rule); vertical-align: top; text-align: left; }
+th, td { padding: .22rem .5rem; border-bottom: 1px solid var(--rule); vertical-align: top; text-align: left; }
 th { background: var(--band); font-weight: 600; }
 td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+td.text, th.text { min-width: 11rem; }
+td.path { min-width: 10rem; }
+td.path, td.path code { overflow-wrap: anywhere; }
 code { font-family: "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: .88em; }
 aside.notice { border-left: 4px solid var(--accent); background: var(--band); padding: .6rem .9rem;
                margin: 1rem 0; }
@@ -90,6 +93,8 @@ def _inline(value: Inline) -> str:
             out = f"<strong>{out}</strong>"
         if value.href:
             out = f'<a href="{esc(safe_href(value.href))}">{out}</a>'
+        if value.tooltip:
+            out = f'<span title="{esc(value.tooltip)}">{out}</span>'
         return out
     return esc(value)
 
@@ -98,7 +103,9 @@ def _table(t: Table) -> str:
     out = ['<div class="scroll"><table>']
     if t.caption:
         out.append(f"<caption>{esc(t.caption)}</caption>")
-    cls = [' class="num"' if k in t.numeric else "" for k in range(len(t.headers))]
+    names = [" ".join(x for x in ("num" if k in t.numeric else "", t.classes[k] if k < len(t.classes) else "") if x)
+             for k in range(len(t.headers))]
+    cls = [f' class="{esc(n)}"' if n else "" for n in names]
     out.append("<thead><tr>" + "".join(f"<th{c}>{esc(h)}</th>" for h, c in zip(t.headers, cls)) + "</tr></thead>")
     out.append("<tbody>")
     for row in t.rows:

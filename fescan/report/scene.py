@@ -23,7 +23,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from fescan.analysis.scan import ScanResult
 
 __all__ = ["Node", "Link", "Scene", "build_scene", "default_projection", "panel_groups", "shared_values",
-           "NOTE", "SCALE_TOLERANCE"]
+           "bottleneck_legend", "NOTE", "SCALE_TOLERANCE"]
 
 #: Explanation printed under every relay diagram (λ and ρ filled in).
 NOTE = ("Label: chain/residue, class, midpoint potential used (shared values in the legend). Hop: edge-to-edge "
@@ -49,6 +49,8 @@ class Node:
         ``"entry"``, ``"exit"`` or ``""``.
     faint : bool
         Off the wire (drawn faint).
+    warned : bool
+        The cofactor carries a warning of the ligation or geometry checks (drawn with a mark).
     """
 
     uid: str
@@ -57,6 +59,7 @@ class Node:
     label: str
     role: str = ""
     faint: bool = False
+    warned: bool = False
 
     @property
     def gid(self) -> str:
@@ -137,6 +140,9 @@ class Scene:
         (``"heme" → "heme c, +0.25 V"``).
     title : str
         Panel title (which group of cofactors).
+    bottleneck_text : str
+        Legend text of the bottleneck halo, naming how it was chosen (largest flux control
+        of the steady state, else the slowest forward hop).
     """
 
     projection: Projection
@@ -147,6 +153,7 @@ class Scene:
     to_scale: bool = True
     legend_text: dict[str, str] = field(default_factory=dict)
     title: str = ""
+    bottleneck_text: str = "bottleneck"
 
     def positions(self) -> dict[str, tuple[float, float]]:
         """Projected centre of each node, by uid."""
@@ -154,7 +161,8 @@ class Scene:
 
     def kinds(self) -> set[str]:
         """Kinds of links present, plus ``"ends"`` (entry/exit marked), ``"bottleneck"``
-        (the bottleneck marked) and ``"symmetry"`` (a pair to a crystal-symmetry mate)."""
+        (the bottleneck marked), ``"symmetry"`` (a pair to a crystal-symmetry mate) and
+        ``"warning"`` (a cofactor with a check warning)."""
         out = {lk.kind for lk in self.links if not (lk.kind == "pair" and lk.dotted)}
         if any(n.role for n in self.nodes):
             out.add("ends")
@@ -164,6 +172,8 @@ class Scene:
             out.add("bottleneck")
         if any(lk.dotted for lk in self.links):
             out.add("symmetry")
+        if any(n.warned for n in self.nodes):
+            out.add("warning")
         return out
 
 
@@ -292,6 +302,27 @@ def shared_values(result: ScanResult) -> dict[str, str]:
     return out
 
 
+def bottleneck_legend(basis: str) -> str:
+    """Legend text of the bottleneck mark from ``Wire.bottleneck_basis``.
+
+    The bottleneck is the hop of largest flux control in the steady state when one was
+    solved, else the slowest forward hop (:mod:`fescan.transfer.paths`).
+
+    Examples
+    --------
+    >>> bottleneck_legend("largest flux-control coefficient of the steady state (0.71)")
+    'bottleneck (largest flux control)'
+    >>> bottleneck_legend("slowest forward hop (no steady-state solution)")
+    'bottleneck (slowest forward hop)'
+    """
+    b = (basis or "").lower()
+    if "flux-control" in b or "flux control" in b:
+        return "bottleneck (largest flux control)"
+    if "slowest" in b:
+        return "bottleneck (slowest forward hop)"
+    return "bottleneck"
+
+
 def _label(result: ScanResult, c, role: str, isolated: bool, shared: dict[str, str]) -> str:
     full = cofactor_label(c, result.potentials[c.uid], role, isolated).split("\n")
     said = shared.get(style.glyph_for(c.category, c.cls).legend)
@@ -349,7 +380,8 @@ def build_scene(result: ScanResult, projection: Projection | None = None, member
            else f"= {opts.packing_density:g}")
     keep = set(members)
     cofs = [c for c in result.cofactors if c.uid in keep]
-    scene = Scene(proj, note=NOTE.format(reorg=opts.reorg, rho=rho), title=title)
+    scene = Scene(proj, note=NOTE.format(reorg=opts.reorg, rho=rho), title=title,
+                  bottleneck_text=bottleneck_legend(getattr(w, "bottleneck_basis", "")))
     shared = shared_values(result)
     scene.legend_text = shared
     xy = _layout(result, cofs, proj, relax)
@@ -359,7 +391,8 @@ def build_scene(result: ScanResult, projection: Projection | None = None, member
         role = ("entry" if c.uid == w.entry else "exit" if c.uid == w.exit else "") if w.path else ""
         scene.nodes.append(Node(c.uid, (float(x), float(y)), style.glyph_for(c.category, c.cls),
                                 _label(result, c, role, c.uid in isolated, shared), role,
-                                faint=bool(w.path) and c.uid not in on_wire))
+                                faint=bool(w.path) and c.uid not in on_wire,
+                                warned=any(f.severity == "warning" for f in c.flags)))
     on_path = {frozenset((h.donor, h.acceptor)) for h in w.hops}
     for p in result.pairs:
         a, b = result.cofactors[p.i].uid, result.cofactors[p.j].uid

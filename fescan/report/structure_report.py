@@ -34,7 +34,16 @@ from fescan.report.content import (
 )
 from fescan.report.diagrams import relay_diagram
 from fescan.report.html import render_html
-from fescan.report.labels import duration, number, signed, volts
+from fescan.report.labels import (
+    duration,
+    number,
+    plural,
+    quantity,
+    signed,
+    structure_name,
+    tidy_numbers,
+    volts,
+)
 from fescan.report.markdown import render_markdown
 from fescan.report.references import (
     BOND_WINDOWS,
@@ -50,7 +59,8 @@ from fescan.report.references import (
 if TYPE_CHECKING:  # pragma: no cover
     from fescan.analysis.scan import ScanResult
 
-__all__ = ["REPORT_FILES", "TIMES_EXPLAINED", "POTENTIAL_STATUS", "structure_document", "write_report"]
+__all__ = ["REPORT_FILES", "TIMES_EXPLAINED", "POTENTIAL_STATUS", "SUMMED_TIME_NAME", "INTERVAL_SENTENCE",
+           "structure_document", "write_report", "endpoints_text", "site_capacities"]
 
 log = logging.getLogger(__name__)
 
@@ -67,9 +77,16 @@ POTENTIAL_STATUS = {
     "undetermined": "no value exists; hops to and from it assume ΔG = 0",
 }
 
+#: Name of Σ 1/k along the path, as the terminal output and the survey tables call it.
+SUMMED_TIME_NAME = "Sum of forward hop times (ignores back hops; not a transit time)"
+
+#: What the 95 % interval of the summed time covers, in one plain sentence (the method: Parameters).
+INTERVAL_SENTENCE = ("The interval covers the coordinate error, the reorganisation energy and the rate law's own "
+                     "scatter; how it is computed is under Parameters.")
+
 #: What the two transfer times mean (model estimates, see fescan.transfer.paths).
 TIMES_EXPLAINED = (
-    "Two transfer times are given, both model estimates. The sum of hop times adds 1/k of each forward "
+    "Two transfer times are given, both model estimates. The sum of forward hop times adds 1/k of each forward "
     "hop along the fastest path: an electron that never steps back. The mean first-passage time is the "
     "average time from arriving at the entry to first reaching the exit when the electron may hop forward "
     "and back between every pair of cofactors within the cutoff, side branches and parallel routes "
@@ -194,10 +211,11 @@ def _time_interval(res: ScanResult) -> tuple[float, float, str] | None:
 
 
 def _with_interval(value: float | None, iv: tuple[float, float, str] | None) -> str:
+    """The summed time with its 95 % interval and one short sentence on what the interval covers."""
     text = duration(value)
     if iv is None or value is None or not math.isfinite(value):
         return text
-    return f"{text} (95 %: {duration(iv[0])} to {duration(iv[1])}; {iv[2]})"
+    return f"{text} (95 % interval {duration(iv[0])} to {duration(iv[1])}). {INTERVAL_SENTENCE}"
 
 
 def _not_analysed_words(res: ScanResult) -> list[str]:
@@ -225,26 +243,26 @@ def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, fl
     names = {c.uid: c.label for c in res.cofactors}
     items: list[tuple[str, Inline]] = []
     i = res.info
-    items.append(("Structure", f"{i.entry_id}: {i.method or 'method not given'}, "
+    entry = f" (entry {i.entry_id})" if i.entry_id and i.entry_id.lower() != _name(res).lower() else ""
+    items.append(("Structure", f"{_name(res)}{entry}: {i.method or 'method not given'}, "
                                f"{f'{i.resolution:.2f} Å' if i.resolution else 'resolution not given'}; "
-                               f"{_n_redox(res)} redox cofactors found{_ions_apart(res)}"))
+                               f"{plural(_n_redox(res), 'redox cofactor')} found{_ions_apart(res)}"))
     if w.path:
-        items.append(("Wire", f"{names[w.entry]} → {names[w.exit]}: {len(w.path)} cofactors, {len(w.hops)} "
-                              f"hop{'s' * (len(w.hops) != 1)}"))
+        items.append(("Wire", f"{names[w.entry]} → {names[w.exit]}: {plural(len(w.path), 'cofactor')}, "
+                              f"{plural(len(w.hops), 'hop')}"))
         items.append(("Direction", w.how_chosen or "–"))
-        items.append(("Transfer time (sum of hops)", [_with_interval(w.summed_hop_time, interval), " ",
-                                                      refs.cite(RATE_LAW)]))
+        items.append((SUMMED_TIME_NAME, [_with_interval(w.summed_hop_time, interval), " ", refs.cite(RATE_LAW)]))
         items.append(("Mean first-passage time", duration(w.mean_first_passage_time)))
         ss = _steady_state(res)
         if ss and ss.get("flux_per_s") is not None:
-            items.append(("Steady-state flux", f"{number(ss['flux_per_s'], 3)} electrons s⁻¹ (model estimate) "
+            items.append(("Steady-state flux", f"{quantity(ss['flux_per_s'], 'electrons s⁻¹')} (model estimate) "
                                                f"{refs.cite(KINETIC_MODEL)}"))
         b = w.bottleneck
         if b is not None:
             items.append(("Bottleneck", f"{names[b.donor]} → {names[b.acceptor]}: {b.edge:.2f} Å edge to edge, "
                                         f"ΔG {signed(b.dg, 3)} eV, hop time {duration(b.hop_time)}"))
     else:
-        items.append(("Wire", "none: " + ("; ".join(w.notes) or w.how_chosen or "fewer than two cofactors")))
+        items.append(("Wire", "none: " + (tidy_numbers("; ".join(w.notes)) or w.how_chosen or "fewer than two cofactors")))
     problems: list[str] = []
     warned = [c for c in res.cofactors if any(f.severity == "warning" for f in c.flags)]
     if warned:
@@ -269,8 +287,8 @@ def _summary_blocks(res: ScanResult, refs: References, interval: tuple[float, fl
     if w.isolated:
         problems.append(f"{len(w.isolated)} isolated cofactor{'s' * (len(w.isolated) != 1)} "
                         f"(no partner within {o.gap_limit:g} Å)")
-    problems += list(w.notes) if w.path else []
-    problems += [str(n) for n in getattr(res, "notes", None) or []]
+    problems += [tidy_numbers(n) for n in w.notes] if w.path else []
+    problems += [tidy_numbers(str(n)) for n in getattr(res, "notes", None) or []]
     out: list = [Heading(2, "Summary", "summary"), Facts(items)]
     out.append(Heading(3, "Problems and notes"))
     out.append(BulletList(problems) if problems else Paragraph("None: every cluster passes the checks and every hop "
@@ -285,12 +303,14 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
     caption = ["One panel per group of cofactors (the wire's group first; other copies or chains after it). "
                "The 3-D arrangement is laid flat by stress majorisation from the principal-component view, which "
                "keeps the wire's hops at their true centre-to-centre length; a scale bar is drawn only when every "
-               "hop is within 10 %. Heavy line: the path from entry (ring) to exit (ring); grey: other pairs within "
-               "the limit; dashed with a break mark: a hop over the gap limit; faint: cofactors off the wire. "
+               "hop is within 10 %. Heavy line: the path from entry (ring) to exit (ring); grey halo: the bottleneck, "
+               "the hop with the largest flux control in the steady state (else the slowest forward hop); grey: "
+               "other pairs within the limit; dashed with a break mark: a hop over the gap limit; faint: cofactors "
+               "off the wire; black disc with “!”: a cofactor with a check warning (listed under Ligands and checks). "
                "Hop labels give the edge-to-edge distance and the estimated hop time; values shared by a whole "
                "class are in the legend. ", refs.cite(STRESS_LAYOUT)]
     out: list = [Heading(2, "Electron relay", "relay"),
-                 Figure(svg, "wire.png", f"Relay diagram of {res.info.entry_id}", caption)]
+                 Figure(svg, "wire.png", f"Relay diagram of {_name(res)}", caption)]
     if not w.path:
         out.append(Paragraph("No relay path: " + ("; ".join(w.notes) or w.how_chosen or "no two cofactors.")))
     else:
@@ -327,7 +347,7 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
                           "log10 k back", "Hop time", "Notes"], rows, frozenset({0, 3, 4, 5, 6, 7, 8, 9, 10}),
                          "Hops of the fastest path (rates in s⁻¹, estimates)"))
         out.append(Heading(3, "Transfer time"))
-        out.append(Facts([("Sum of hop times", _with_interval(w.summed_hop_time, interval)),
+        out.append(Facts([(SUMMED_TIME_NAME, _with_interval(w.summed_hop_time, interval)),
                           ("Mean first-passage time", duration(w.mean_first_passage_time))]))
         out.append(Paragraph(TIMES_EXPLAINED + _compare_times(w.summed_hop_time, w.mean_first_passage_time)))
         out += _steady_state_blocks(res, refs)
@@ -345,7 +365,7 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
             text += f" (mean first passage {duration(cp['mean_first_passage_time_s'])})"
         extra.append(("Other copy", text))
     for n in w.notes if w.path else []:
-        extra.append(("Note", n))
+        extra.append(("Note", tidy_numbers(n)))
     if extra:
         out.append(Facts(extra))
     return out
@@ -353,6 +373,38 @@ def _wire_blocks(res: ScanResult, svg: str, refs: References, interval) -> list:
 
 def _num(v: Any, digits: int = 3) -> str:
     return number(v, digits) if isinstance(v, (int, float)) else ("–" if v is None else str(v))
+
+
+def site_capacities(ss: dict, sites: list | None = None) -> dict[str, int]:
+    """Electrons each site of the steady-state record can hold (1, or 2 for a two-electron site).
+
+    Read from the record itself: a site's couples (``sensitivity_couples``: one per
+    electron) or its distribution over 0, 1 (, 2) electrons (``distribution``), each
+    given by uid or as a list in the order of ``sites``. Sites with neither are left out.
+
+    Parameters
+    ----------
+    ss : dict
+        The steady-state record of the wire (``Wire.steady_state``).
+    sites : list of str, optional
+        Uids of the sites, in the order of list-valued fields.
+
+    Returns
+    -------
+    dict of str to int
+    """
+    out: dict[str, int] = {}
+    order = list(sites) if isinstance(sites, (list, tuple)) else []
+    for key, extra in (("distribution", -1), ("sensitivity_couples", 0)):
+        val = ss.get(key)
+        if isinstance(val, list):
+            val = dict(zip(order, val))
+        if not isinstance(val, dict):
+            continue
+        for uid, per in val.items():
+            if isinstance(per, (list, tuple)) and len(per) + extra >= 1:
+                out.setdefault(uid, len(per) + extra)
+    return out
 
 
 def _steady_state_blocks(res: ScanResult, refs: References) -> list:
@@ -364,7 +416,7 @@ def _steady_state_blocks(res: ScanResult, refs: References) -> list:
     out: list = [Heading(3, "Steady state (model estimate)")]
     facts = []
     if ss.get("flux_per_s") is not None:
-        facts.append(("Electron flux", f"{_num(ss['flux_per_s'])} electrons s⁻¹ {refs.cite(KINETIC_MODEL)}"))
+        facts.append(("Electron flux", f"{quantity(ss['flux_per_s'], 'electrons s⁻¹')} {refs.cite(KINETIC_MODEL)}"))
     for key, label in (("source", "Source reservoir"), ("sink", "Sink reservoir")):
         r = ss.get(key)
         if isinstance(r, dict):
@@ -385,9 +437,13 @@ def _steady_state_blocks(res: ScanResult, refs: References) -> list:
         sens = dict(zip(sites, sens))
     uids = [u for u in res.wire.path if u in occ or u in sens]
     if uids:
-        out.append(Table(["Cofactor", "Reduced fraction", "d log10 flux / dE (per V)"],
-                         [[names.get(u, u), _num(occ.get(u)), _num(sens.get(u), 2)] for u in uids],
-                         frozenset({1, 2}), "Occupancy of each site and the sensitivity of the flux to its potential"))
+        caps = site_capacities(ss, sites)
+        out.append(Table(["Cofactor", "Electrons held (mean)", "Capacity (electrons)", "d log10 flux / dE (per V)"],
+                         [[names.get(u, u), _num(occ.get(u), 2), str(caps[u]) if u in caps else "–",
+                           _num(sens.get(u), 2)] for u in uids],
+                         frozenset({1, 2, 3}),
+                         "Mean number of electrons each site holds at steady state (0 up to its capacity: 1, or 2 "
+                         "for a two-electron site) and the sensitivity of the flux to its potential"))
     ctl = ss.get("control") or []
     rows = []
     if isinstance(ctl, dict):
@@ -414,9 +470,8 @@ def _compare_times(summed: float | None, mfpt: float | None) -> str:
     if abs(ratio - 1.0) < 0.05:
         return " Here the two agree within 5 %."
     if ratio > 1:
-        times = f"{ratio:.0f}" if ratio >= 100 else f"{ratio:.2g}"
-        return f" Here the mean first-passage time is {times} times the sum."
-    return f" Here the mean first-passage time is {ratio:.2g} of the sum (parallel routes help)."
+        return f" Here the mean first-passage time is {quantity(ratio)} times the sum."
+    return f" Here the mean first-passage time is {quantity(ratio)} of the sum (parallel routes help)."
 
 
 def _outside_blocks(res: ScanResult) -> list:
@@ -462,7 +517,54 @@ def _packing_text(o) -> str:
     return f"{o.packing_density:g} for every hop"
 
 
-def _parameter_blocks(res: ScanResult, refs: References) -> list:
+def endpoints_text(res: ScanResult) -> str:
+    """How the wire's entry and exit were chosen: given by the user, or by fescan from the chemistry.
+
+    Uses the scan's own account (``Wire.how_chosen``) when there is one.
+
+    Parameters
+    ----------
+    res : ScanResult
+
+    Returns
+    -------
+    str
+    """
+    o, w = res.options, res.wire
+    names = {c.uid: c.label for c in res.cofactors}
+    how = (getattr(w, "how_chosen", "") or "").strip()
+    ends = f"{names.get(w.entry, w.entry)} → {names.get(w.exit, w.exit)}" if w.entry and w.exit else ""
+    if o.entry or o.exit:
+        given = f"given: {o.entry or 'not given'} → {o.exit or 'not given'}"
+        return "; ".join(x for x in (given, how) if x)
+    if how.startswith("chemistry: "):
+        why = f"chosen by fescan from the cofactors' chemistry ({how[len('chemistry: '):]})"
+    elif how.startswith("default: "):
+        why = f"chosen by fescan, no chemistry rule applying ({how[len('default: '):]})"
+    elif how:
+        why = f"chosen by fescan ({how})"
+    else:
+        why = "chosen by fescan"
+    return f"{ends}, {why}" if ends else why
+
+
+#: Formulas of the interval's method text in ASCII, and as the reports print them.
+_FORMULAS = (("sigma(x) = sqrt(B / 8 pi^2)", "σ(x) = √(B / 8π²)"),)
+
+
+def _method_text(text: str) -> str:
+    """The interval's method text with its formulas in print form (Parameters section)."""
+    for ascii_form, printed in _FORMULAS:
+        text = text.replace(ascii_form, printed)
+    return text
+
+
+def _name(res: ScanResult) -> str:
+    """The structure's name in titles: its file name (:func:`fescan.report.labels.structure_name`)."""
+    return structure_name(res.path) if getattr(res, "path", None) else res.info.entry_id
+
+
+def _parameter_blocks(res: ScanResult, refs: References, interval: tuple[float, float, str] | None = None) -> list:
     o = res.options
     law = refs.cite(RATE_LAW, RATE_LAW_1992)
     facts = Facts([
@@ -478,7 +580,8 @@ def _parameter_blocks(res: ScanResult, refs: References) -> list:
                          f"σ₁ for the coordinate error of the file {refs.cite(COORDINATE_ERROR)}"),
         ("Symmetry mates", "included" if o.symmetry else "not included (asymmetric unit only)"),
         ("Model and alternative locations", f"model {o.model}, altloc policy {o.altloc}"),
-        ("Entry and exit", f"{o.entry or 'default'} → {o.exit or 'default'}"),
+        ("Entry and exit", endpoints_text(res)),
+        *([("Interval of the sum of forward hop times", _method_text(interval[2]))] if interval else []),
         ("Potentials file", Run(o.potentials_file, code=True) if o.potentials_file else "none (packaged defaults)"),
     ])
     rows = []
@@ -515,7 +618,7 @@ def structure_document(res: ScanResult, svg: str) -> Document:
     """
     refs = References()
     interval = _time_interval(res)
-    doc = Document(f"Electron relay report: {res.info.entry_id}")
+    doc = Document(f"Electron relay report: {_name(res)}")
     doc.add(*_summary_blocks(res, refs, interval))
     doc.add(*_wire_blocks(res, svg, refs, interval))
     doc.add(*_outside_blocks(res))
@@ -525,7 +628,7 @@ def structure_document(res: ScanResult, svg: str) -> Document:
         doc.add(Heading(2, "Ligands and checks", "checks"), *_details(res))
     if res.pairs:
         doc.add(*_pairs_table(res))
-    doc.add(*_parameter_blocks(res, refs))
+    doc.add(*_parameter_blocks(res, refs, interval))
     doc.add(Heading(2, "Structure file", "file"), _structure_facts(res))
     doc.add(*refs.blocks())
     return doc

@@ -20,6 +20,7 @@ import json
 import logging
 import math
 import os
+import posixpath
 from pathlib import Path
 
 import numpy as np
@@ -41,11 +42,11 @@ from fescan.report.diagrams import (
     save_figure,
 )
 from fescan.report.html import render_html
-from fescan.report.labels import duration, number
+from fescan.report.labels import duration, number, plural
 from fescan.transfer.rate_law import log10_hop_rate
 
 __all__ = ["read_survey_tables", "survey_parameters", "nearest_neighbours", "ligation_by_resolution", "write_survey_report",
-           "CURVE_DG_EV", "RESOLUTION_BINS"]
+           "counts_caption", "CURVE_DG_EV", "RESOLUTION_BINS", "TITLE_CHARS"]
 
 log = logging.getLogger(__name__)
 
@@ -128,6 +129,13 @@ def _glyph(category: str, cls: str) -> style.Glyph:
     return style.glyph_for(str(category), str(cls))
 
 
+def _flag_counts(t: dict[str, pd.DataFrame]) -> list[tuple[str, int, int]]:
+    """(flag code, warnings, notes) of every flag code, most frequent first."""
+    f = t["flags"]
+    return [(str(code), int((g["severity"] == "warning").sum()), int((g["severity"] != "warning").sum()))
+            for code, g in sorted(f.groupby("code"), key=lambda kv: (-len(kv[1]), kv[0]))]
+
+
 def _figures(t: dict[str, pd.DataFrame], opts: ScanOptions, fig_dir: Path) -> list[tuple[str, list[Path]]]:
     out = []
     nn = nearest_neighbours(t["cofactors"], t["pairs"])
@@ -154,9 +162,7 @@ def _figures(t: dict[str, pd.DataFrame], opts: ScanOptions, fig_dir: Path) -> li
 
     cc = [(str(cls), _glyph(cat, cls), len(g)) for (cat, cls), g in
           sorted(t["cofactors"].groupby(["category", "class"]), key=lambda kv: (-len(kv[1]), kv[0][1]))]
-    f = t["flags"]
-    fc = [(str(code), int((g["severity"] == "warning").sum()), int((g["severity"] != "warning").sum()))
-          for code, g in sorted(f.groupby("code"), key=lambda kv: (-len(kv[1]), kv[0]))]
+    fc = _flag_counts(t)
     fig = counts_figure(cc, fc)
     out.append(("counts", save_figure(fig, fig_dir / "counts", salt="fescan-survey-counts")))
 
@@ -213,8 +219,9 @@ _CAPTIONS = {
                       "curve (ΔG = −λ) is its ceiling. Points: every pair in both directions (grey) and the hops on "
                       "relay paths (black), each placed at its edge-to-edge distance with the rate the same law "
                       "gives it. The points are computed from the law, so they lie within the curves by "
-                      "construction: the figure shows where the hops fall on the law, not a test of it. Dashed: the "
-                      "gap limit; grey line: the turnover threshold."),
+                      "construction: the figure shows where the hops fall on the law, not a test of it. The vertical "
+                      "axis spans every point with a finite rate. Dashed: the gap limit; grey line: the turnover "
+                      "threshold."),
     "bottlenecks": ("Bottleneck distances",
                     "Edge-to-edge distance of the bottleneck hop of every wire (the hop with the largest "
                     "flux-control coefficient of the steady state, else the slowest forward hop; 1 Å bins). "
@@ -224,9 +231,26 @@ _CAPTIONS = {
                  "Share of iron-sulfur clusters with at least one ligation or geometry warning, per resolution "
                  "bin (counts beside the bars). Bond windows widen with the coordinate error of each file, so "
                  "a warning at low resolution means the bond lies outside what the data allow."),
-    "counts": ("Cofactors and findings", "Cofactors per class, and findings of the ligation and geometry checks "
-               "per flag code (filled: warnings, hatched: notes)."),
+    "counts": ("Cofactors and findings", "Cofactors per class, and findings of the ligation and geometry checks."),
 }
+
+
+def counts_caption(flag_counts: list[tuple[str, int, int]]) -> str:
+    """Caption of the counts figure, naming only the kinds of finding drawn (warnings, notes).
+
+    Parameters
+    ----------
+    flag_counts : list of (code, warnings, notes)
+
+    Returns
+    -------
+    str
+    """
+    n_warn = sum(w for _, w, _ in flag_counts)
+    n_note = sum(n for _, _, n in flag_counts)
+    tail = ("filled: warnings, hatched: notes" if n_warn and n_note else "all warnings" if n_warn
+            else "all notes" if n_note else "none found")
+    return f"Cofactors per class, and findings of the ligation and geometry checks by kind ({tail})."
 
 
 def _files(t: dict[str, pd.DataFrame]) -> list[str]:
@@ -260,15 +284,39 @@ def _report_link(survey_dir: Path, out_dir: Path, file: str) -> str | None:
     return None
 
 
+#: Longest title shown in the structures table (the whole title is the cell's tooltip).
+TITLE_CHARS = 80
+
+
+def _short_title(title: object) -> Run | str:
+    """A title cut at a word boundary to :data:`TITLE_CHARS` characters, the whole one as tooltip."""
+    text = " ".join(str(title).split())
+    if len(text) <= TITLE_CHARS:
+        return text
+    cut = text[: TITLE_CHARS - 1]
+    if " " in cut[TITLE_CHARS // 2:]:
+        cut = cut[: cut.rindex(" ")]
+    return Run(cut.rstrip(" ,;:-") + "…", tooltip=text)
+
+
+def _common_folder(files: list[str]) -> str:
+    """The folder every file lies in (``""`` when they differ or there is none)."""
+    parents = {posixpath.dirname(f.replace(os.sep, "/")) for f in files}
+    return parents.pop() if len(parents) == 1 else ""
+
+
 def _structure_rows(t: dict[str, pd.DataFrame], survey_dir: Path, out_dir: Path) -> list[list]:
+    files = _files(t)
+    folder = _common_folder(files)
     s = t["structures"].drop_duplicates("file", keep="last").set_index("file")
     w = t["wires"].drop_duplicates("file", keep="last").set_index("file")
     ncof = t["cofactors"].groupby("file").size()
     failed = set(t["failures"]["file"].astype(str))
     rows = []
-    for f in _files(t):
+    for f in files:
         link = _report_link(survey_dir, out_dir, f)
-        first = Run(f, code=True, href=link) if link else Run(f, code=True)
+        shown = f.replace(os.sep, "/")[len(folder) + 1:] if folder else f
+        first = Run(shown, code=True, href=link, tooltip=f if shown != f else None)
         srow = s.loc[f] if f in s.index else None
         wrow = w.loc[f] if f in w.index else None
 
@@ -278,7 +326,7 @@ def _structure_rows(t: dict[str, pd.DataFrame], survey_dir: Path, out_dir: Path)
             return fmt(row[col])
 
         status = "failed" if f in failed else val(srow, "status") if srow is not None else "ok"
-        rows.append([first, val(srow, "entry_id"), val(srow, "title"), val(srow, "method"),
+        rows.append([first, val(srow, "entry_id"), val(srow, "title", _short_title), val(srow, "method"),
                      val(srow, "resolution", lambda x: f"{x:.2f}"), str(int(ncof.get(f, 0))),
                      val(wrow, "n_hops", lambda x: str(int(x))), val(wrow, "max_edge_distance", lambda x: number(x, 1)),
                      val(wrow, "n_gaps", lambda x: str(int(x))), val(wrow, "summed_hop_time_s", duration),
@@ -329,12 +377,15 @@ def _index_document(t: dict[str, pd.DataFrame], opts: ScanOptions, src: Path, ou
     files = _files(t)
     n_fail = t["failures"]["file"].nunique()
     wires = t["wires"]
+    hops = t["hops"]
+    n_bad = int((hops["gap"].fillna(False).astype(bool) | hops["slow"].fillna(False).astype(bool)).sum())
+    n_with = t["cofactors"]["file"].nunique()
     doc = Document(f"Survey report: {src.resolve().name or src}")
     doc.add(Facts([
-        ("Structures", f"{len(files)} files, {len(files) - n_fail} analysed, {n_fail} failed"),
-        ("Cofactors", f"{len(t['cofactors'])} ({t['cofactors']['file'].nunique()} files with at least one)"),
-        ("Relay paths", f"{int((wires['n_hops'].fillna(0) > 0).sum())} wires, {len(t['hops'])} hops, "
-                        f"{int(wires['n_gaps'].fillna(0).sum())} gaps or slow hops"),
+        ("Structures", f"{plural(len(files), 'file')}, {len(files) - n_fail} analysed, {n_fail} failed"),
+        ("Cofactors", f"{len(t['cofactors'])} ({plural(n_with, 'file')} with at least one)"),
+        ("Relay paths", f"{plural(int((wires['n_hops'].fillna(0) > 0).sum()), 'wire')}, {plural(len(hops), 'hop')}, "
+                        f"{plural(n_bad, 'gap or slow hop', 'gaps or slow hops')}"),
         ("Parameters", f"λ = {opts.reorg:g} eV, ρ = {opts.packing_density:g}, gap limit {opts.gap_limit:g} Å, "
                        f"cutoff {opts.cutoff:g} Å, T = {opts.temperature:g} K, turnover threshold "
                        f"{opts.rate_threshold:g} s⁻¹, symmetry mates "
@@ -343,14 +394,19 @@ def _index_document(t: dict[str, pd.DataFrame], opts: ScanOptions, src: Path, ou
     doc.add(Heading(2, "Figures", "figures"))
     for name, (svg, png) in figs:
         title, caption = _CAPTIONS[name]
+        if name == "counts":
+            caption = counts_caption(_flag_counts(t))
         doc.add(Heading(3, title), Figure(svg.read_text(encoding="utf-8"),
                                           Path(os.path.relpath(png, out)).as_posix(), title, caption))
     doc.add(Heading(2, "Structures", "structures"))
+    folder = _common_folder(files)
+    where = f" Every file lies in {folder}/." if folder else ""
     doc.add(Table(["File", "Entry", "Title", "Method", "Resolution (Å)", "Cofactors", "Hops", "Longest hop (Å)",
-                   "Gaps", "Sum of hop times", "Mean first passage", "Status"],
+                   "Gaps", "Sum of forward hop times", "Mean first passage", "Status"],
                   _structure_rows(t, src, out), frozenset({4, 5, 6, 7, 8, 9, 10}),
-                  "One row per file; the file name links to its report where one was written. "
-                  "Times are model estimates."))
+                  f"One row per file; the file name links to its report where one was written, a shortened title "
+                  f"shows in full on hover.{where} Sum of forward hop times: ignores back hops, not a transit time. "
+                  "Times are model estimates.", classes=("path", "", "text")))
     doc.add(Heading(2, "Failures", "failures"))
     f = t["failures"].sort_values("file")
     if len(f):
