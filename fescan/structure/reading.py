@@ -324,7 +324,7 @@ def read_structure(
 
     data, compressed = read_text(name)
     data, text_notes = normalise_text(data)
-    file_format = _check_text(name, data)
+    file_format = _check_text(name, data, compressed)
     st, block, occupancy_suspect, parse_notes = _parse(name, data, file_format)
     notes = _file_notes(file_format, data) + text_notes + parse_notes
     header_codes, refinement = _header_facts(file_format, data, block)
@@ -442,10 +442,12 @@ def _ends_inside_atom_list(data: bytes) -> bool:
     return last.startswith((b"ATOM", b"HETATM")) and data.find(b"\n_database_2.", 0, 1 << 20) >= 0
 
 
-def _check_text(name: str, data: bytes) -> str:
+def _check_text(name: str, data: bytes, compressed: bool = False) -> str:
     """Check the content is non-empty structure text; return its format."""
     if _BLANK.match(data):
         what = "0 bytes" if not data else "whitespace only"
+        if compressed:
+            what += " once decompressed"
         raise EmptyStructureError(f"{name}: empty file ({what})")
     if is_binary(data):
         raise StructureFileError(f"{name}: not a PDB or mmCIF file (binary data)")
