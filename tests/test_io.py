@@ -858,3 +858,14 @@ def test_mmcif_cut_inside_the_atom_list_is_told(pdb_id, tmp_path):
     written = tmp_path / "written.cif"
     gemmi.read_structure(str(cut)).make_mmcif_document().write_file(str(written))
     assert not any(told in n for n in read_structure(written).info.notes)
+
+
+def test_gemmi_gathers_a_residue_within_one_run_of_its_chain():
+    # the join of split residues looks only at chains written in several runs: it relies on gemmi
+    # gathering a residue's records within one run by itself (this pins that behaviour of gemmi)
+    atom = "HETATM{serial:5d}  {name:<3} LIG A 900    {x:8.3f}   0.000   0.000  1.00 20.00           {el:>2}"
+    first = [atom.format(serial=k + 1, name=n, x=1.5 * k, el=n[0]) for k, n in enumerate(("C1", "C2"))]
+    water = "HETATM   10  O   HOH A 950      30.000   0.000   0.000  1.00 20.00           O"
+    second = [atom.format(serial=k + 20, name=n, x=3 + 1.5 * k, el=n[0]) for k, n in enumerate(("O3", "C4"))]
+    st = gemmi.read_pdb_string("\n".join(first + [water] + second + ["END"]) + "\n")
+    assert [(r.name, len(r)) for r in st[0]["A"]] == [("LIG", 4), ("HOH", 1)]

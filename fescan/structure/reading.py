@@ -325,7 +325,7 @@ def read_structure(
     data, compressed = read_text(name)
     data, text_notes = normalise_text(data)
     file_format = _check_text(name, data, compressed)
-    st, block, occupancy_suspect, parse_notes = _parse(name, data, file_format)
+    st, block, occupancy_suspect, parse_notes, parted = _parse(name, data, file_format)
     notes = _file_notes(file_format, data) + text_notes + parse_notes
     header_codes, refinement = _header_facts(file_format, data, block)
     del data
@@ -357,7 +357,8 @@ def read_structure(
                 f"{name}: model {numbers[index]} has only hydrogen atoms"
                 " (pass keep_hydrogens=True to keep them)"
             )
-    notes += tuple(join_split_residues(chosen))
+    if parted:  # only a chain written in several runs can hold a residue split across them
+        notes += tuple(join_split_residues(chosen, chains=parted))
     check_residue_sizes(name, chosen)
     check_metal_aggregates(name, chosen)
     notes += occupancy_notes(chosen, occupancy_suspect)
@@ -462,9 +463,10 @@ def _check_text(name: str, data: bytes, compressed: bool = False) -> str:
 
 def _parse(
     name: str, data: bytes, file_format: str
-) -> tuple[gemmi.Structure, gemmi.cif.Block | None, bool, tuple[str, ...]]:
+) -> tuple[gemmi.Structure, gemmi.cif.Block | None, bool, tuple[str, ...], frozenset[str]]:
     """Parse with gemmi; return the structure, the block (mmCIF/mmJSON), whether a PDB occupancy is
-    outside [0, 1], and notes on what was supplied (residue numbers of an mmCIF file without them)."""
+    outside [0, 1], notes on what was supplied (residue numbers of an mmCIF file without them), and
+    the chains written in several runs."""
     if data.startswith(_UTF8_BOM):
         data = data[len(_UTF8_BOM) :]
     occupancy_suspect = False
@@ -499,9 +501,25 @@ def _parse(
             raise StructureFileError(
                 f"{name}: malformed {label} file ({_gemmi_text(exc)})"
             ) from exc
+    parted = _chains_in_parts(st)
     st.merge_chain_parts()  # as gemmi.read_structure does
     notes = (numbering,) if file_format != "pdb" and numbering else ()
-    return st, block, occupancy_suspect, notes
+    return st, block, occupancy_suspect, notes, parted
+
+
+def _chains_in_parts(st: gemmi.Structure) -> frozenset[str]:
+    """Names of chains written in more than one run of the file (before gemmi joins the runs).
+
+    gemmi gathers a residue's records within one run of a chain; only across runs can a
+    residue stay split in two (:mod:`fescan.structure.split_residues`).
+    """
+    out: set[str] = set()
+    for m in st:
+        names = [ch.name for ch in m]
+        if len(names) != len(set(names)):
+            seen: set[str] = set()
+            out.update(n for n in names if n in seen or seen.add(n))
+    return frozenset(out)
 
 
 def _gemmi_text(exc: BaseException) -> str:

@@ -16,6 +16,7 @@ are searched by position and named by their residue's identifier.
 
 from __future__ import annotations
 
+from collections.abc import Collection
 from functools import lru_cache
 
 import gemmi
@@ -29,13 +30,16 @@ def _polymer_or_water(name: str) -> bool:
     return info is not None and (info.is_amino_acid() or info.is_nucleic_acid() or info.is_water())
 
 
-def join_split_residues(model: gemmi.Model) -> list[str]:
+def join_split_residues(model: gemmi.Model, chains: Collection[str] | None = None) -> list[str]:
     """Join, in place, the parts of every non-polymer residue listed in separate runs.
 
     Parameters
     ----------
     model : gemmi.Model
         The model (changed in place).
+    chains : collection of str, optional
+        Look only at these chains (those the file writes in several runs: gemmi
+        gathers a residue within one run by itself); every chain when omitted.
 
     Returns
     -------
@@ -44,6 +48,8 @@ def join_split_residues(model: gemmi.Model) -> list[str]:
     """
     notes: list[str] = []
     for ch in model:
+        if chains is not None and ch.name not in chains:
+            continue
         first: dict[tuple[str, int, str], int] = {}
         parts: list[tuple[int, int]] = []
         for i, res in enumerate(ch):
