@@ -369,26 +369,46 @@ def test_chain_labels_swapped_between_subunits_change_nothing(tmp_path):
     assert all(m.displacement < 1e-3 for m in r.matches)
 
 
-def test_copies_with_swapped_labels_report_a_true_fit(tmp_path):
-    # SOURCES.md: 6LK1 holds two copies of one ferredoxin (chains A and B). With the labels swapped,
-    # the pairing by name superposes one copy on the other, a rotation close to a 2-fold: the RMSD the
-    # comparison reports must be that of the transform it applies (recomputed here on the Cα atoms)
+def _ca_rmsd_through(fit, ref_path, model_path) -> tuple[float, int]:
+    """RMSD of the model's Cα, moved by ``fit``, from the reference Cα of the chains its chain map pairs."""
+    ref, mod = gemmi.read_structure(str(ref_path))[0], gemmi.read_structure(str(model_path))[0]
+    dev = []
+    for m_name, r_name in fit.chain_map.items():
+        want = {(res.seqid.num, res.name): res["CA"][0].pos.tolist() for res in ref[r_name] if res.find_atom("CA", "*")}
+        for res in mod[m_name]:
+            key = (res.seqid.num, res.name)
+            if key in want and res.find_atom("CA", "*"):
+                dev.append(np.linalg.norm(fit.apply(np.asarray([res["CA"][0].pos.tolist()]))[0] - want[key]))
+    return float(np.sqrt(np.mean(np.square(dev)))), len(dev)
+
+
+def test_copies_with_swapped_labels_pair_by_position(tmp_path):
+    # SOURCES.md: 6LK1 holds two copies of one ferredoxin (chains A and B). A model in the reference
+    # frame that labels its copies the other way round is the same structure: its copies pair by
+    # position (model A with reference B), and nothing changed
     st = gemmi.read_structure(str(entry_path("6LK1")))
     _relabel(st, {"A": "B", "B": "A"})
     path = rewrite.write(st, tmp_path / "6lk1_swapped.pdb")
     r = compare(path, entry_path("6LK1"))
+    assert r.superposition.chain_map == {"A": "B", "B": "A"}
+    assert r.n_changes == 0 and all(m.displacement < 1e-3 for m in r.matches)
+    rmsd, n = _ca_rmsd_through(r.superposition, entry_path("6LK1"), path)
+    assert n > 150 and rmsd < 1e-3
+
+
+def test_rotated_copies_with_swapped_labels_report_a_true_fit(tmp_path):
+    # the same model also turned by 37° and shifted: position in the raw frames no longer tells the
+    # copies apart, the copies pair by name, and the fit superposes one copy on the other (a rotation
+    # close to a 2-fold). The RMSD reported must be that of the transform applied, recomputed here
+    st = gemmi.read_structure(str(entry_path("6LK1")))
+    _relabel(st, {"A": "B", "B": "A"})
+    _move_whole(st, _rotation(37, 1) @ _rotation(20, 2), (20.0, -7.0, 12.0))
+    path = rewrite.write(st, tmp_path / "6lk1_swapped_turned.pdb")
+    r = compare(path, entry_path("6LK1"))
     fit = r.superposition
     assert fit.method == "protein chains" and fit.rmsd < 1.0
-    ref, mod = gemmi.read_structure(str(entry_path("6LK1")))[0], gemmi.read_structure(str(path))[0]
-    dev = []
-    for name in ("A", "B"):
-        want = {(res.seqid.num, res.name): res["CA"][0].pos.tolist() for res in ref[name] if res.find_atom("CA", "*")}
-        for res in mod[name]:
-            key = (res.seqid.num, res.name)
-            if key in want and res.find_atom("CA", "*"):
-                dev.append(np.linalg.norm(fit.apply(np.asarray([res["CA"][0].pos.tolist()]))[0] - want[key]))
-    assert len(dev) > 150
-    assert float(np.sqrt(np.mean(np.square(dev)))) < 1.0  # the transform applied is the one reported
+    rmsd, n = _ca_rmsd_through(fit, entry_path("6LK1"), path)
+    assert n > 150 and rmsd < 1.0  # the transform applied is the one reported (before: 27 Å)
 
 
 def test_unrelated_proteins_pair_no_chains_and_say_the_fit_is_unfounded():

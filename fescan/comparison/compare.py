@@ -6,7 +6,8 @@ matches their cofactors:
 1. **Superposition.** Protein chains are paired by sequence (gemmi
    ``align_string_sequences`` on residue names; same-named chains first, the rest
    by a Hungarian assignment on identical residues; ≥ 30 % identity over the aligned
-   span, so residues scattered over an unrelated chain do not count), and the Cα
+   span, so residues scattered over an unrelated chain do not count; copies of one
+   protein re-paired by position when that fits better), and the Cα
    atoms of aligned residues are superposed by least squares (:func:`kabsch`, numpy
    SVD), dropping pairs farther apart than max(2 Å, 2 × RMSD) for up to
    three cycles. Without three aligned Cα pairs, or when that fit is poor (RMSD over
@@ -254,9 +255,53 @@ def _pair_chains(ref: list[_Chain], mod: list[_Chain]) -> list[tuple[_Chain, _Ch
     return out
 
 
+_NEAR_COPY = 10.0  # Å between Cα centroids: a chain this close in the other file's frame may be its copy
+
+
+def _copies_by_position(pairs: list) -> list | None:
+    """The chain pairs with copies of one protein re-paired by position, or None when that changes nothing.
+
+    Copies of one protein are paired by name first, but a model may label its copies
+    otherwise than the reference. Here each paired chain may instead take a chain of the
+    other file that holds the same protein (≥ 90 % identity) and whose Cα centroid lies
+    within 10 Å of its own in the two files' own frames, by a Hungarian assignment on
+    that distance: right when the model lies in the reference frame, as a re-refined
+    model does. :func:`_protein_fit` keeps whichever pairing fits better.
+    """
+    if len(pairs) < 2:
+        return None
+    rs, ms = [p[0] for p in pairs], [p[1] for p in pairs]
+    dist = np.linalg.norm(np.asarray([c.ca.mean(axis=0) for c in rs])[:, None, :]
+                          - np.asarray([c.ca.mean(axis=0) for c in ms])[None, :, :], axis=2)
+    aligned = {(k, k): pairs[k][2] for k in range(len(pairs))}
+    cost = np.full(dist.shape, _BIG)
+    np.fill_diagonal(cost, np.diag(dist))
+    for i, j in zip(*np.nonzero(dist < _NEAR_COPY)):
+        if i != j:
+            found = _aligned(rs[i], ms[j])
+            if found[1] >= max(3, _SAME_PROTEIN * found[2]):
+                cost[i, j], aligned[i, j] = dist[i, j], found[0]
+    rows, cols = linear_sum_assignment(cost)
+    if all(i == j for i, j in zip(rows, cols)) or any(cost[i, j] >= _BIG for i, j in zip(rows, cols)):
+        return None
+    return [(rs[i], ms[j], aligned[i, j]) for i, j in zip(rows, cols)]
+
+
 def _protein_fit(ref_model, mod_model):
     """Superposition on Cα plus the residue map (model chain, num, icode) → reference key."""
-    pairs = _pair_chains(_protein_chains(ref_model), _protein_chains(mod_model))
+    ref, mod = _protein_chains(ref_model), _protein_chains(mod_model)
+    pairs = _pair_chains(ref, mod)
+    best = _fit_pairs(pairs)
+    alt_pairs = _copies_by_position(pairs)
+    if alt_pairs is not None:
+        alt = _fit_pairs(alt_pairs)
+        if alt[0] is not None and (best[0] is None or alt[0].rmsd < best[0].rmsd - 1e-6):
+            best = alt
+    return best
+
+
+def _fit_pairs(pairs):
+    """Least-squares Cα fit and residue map of the given chain pairs (see :func:`_protein_fit`)."""
     resmap, corresponding = {}, set()
     pr, pm = [], []
     chains = []
