@@ -10,13 +10,12 @@ from fescan.analysis.scan import CAUTION, ScanResult
 from fescan.cofactors.ligation import ligand_counts
 from fescan.core.numbers import format_quantity
 from fescan.core.records import ION_SITE_METALS
+from fescan.report.labels import DIGITS  # one number of significant digits for terminal and reports
 from fescan.transfer.distances import EDGE_CONVENTION
 
 __all__ = ["render_text", "format_time", "format_flux", "signed", "fixed", "ion_site_heading", "table",
            "strip_controls"]
 
-#: Significant digits of every time, rate and flux in the text output.
-DIGITS = 3
 
 # C0 controls but tab and newline, DEL and C1 controls: an ESC sequence in a title could
 # otherwise recolour, retitle or clear the terminal the text is printed on.
